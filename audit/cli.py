@@ -1,0 +1,87 @@
+"""The ``sewer-audit`` command line.
+
+Exit codes, for scripts and data pipelines:
+
+* 0: the command finished;
+* 1: the input could not be used (the message names the file, layer, key, field or feature);
+* 2: the command line itself was wrong (argparse's own convention);
+* 3: ``--fail-on SEVERITY`` was given and flags of that severity or worse were found.
+"""
+
+from __future__ import annotations
+
+import argparse
+import sys
+from collections.abc import Sequence
+
+from . import __version__
+from ._errors import AuditError
+
+EXIT_OK = 0
+EXIT_BAD_INPUT = 1
+EXIT_USAGE = 2
+EXIT_FLAGGED = 3
+
+CAUTION = (
+    "Screening aid only: results are uniform-flow checks against configurable design rules. "
+    "They do not replace a calibrated model; local codes and a licensed engineer's judgement govern."
+)
+
+DESCRIPTION = f"""\
+Screen a gravity sewer network held as GIS layers (pipes as lines, manholes as points).
+
+Typical session:
+  sewer-audit inspect town.gpkg            list layers and fields; write a starter config
+  (edit town.toml: map your field names and units)
+  sewer-audit run town.toml -o audit_out   audit the network; write flagged layers and a summary
+  sewer-audit demo -o demo_out             the same on the bundled invented town
+
+{CAUTION}
+"""
+
+
+def _build_parser() -> argparse.ArgumentParser:
+    parser = argparse.ArgumentParser(
+        prog="sewer-audit",
+        description=DESCRIPTION,
+        formatter_class=argparse.RawDescriptionHelpFormatter,
+        epilog="Exit codes: 0 finished, 1 unusable input, 2 usage error, 3 --fail-on threshold reached.",
+    )
+    parser.add_argument("--version", action="version", version=f"%(prog)s {__version__}")
+    commands = parser.add_subparsers(dest="command", metavar="COMMAND", required=True)
+
+    inspect = commands.add_parser(
+        "inspect",
+        help="list the layers, fields, CRS and feature counts of a file; write a starter config",
+        description="List the layers of a vector file (GeoPackage, Shapefile, GeoJSON, FlatGeobuf) "
+        "with their fields, types, CRS and feature counts, and write a starter TOML config with "
+        "guessed field mappings for you to check and edit.",
+    )
+    inspect.add_argument("path", help="the vector file (or a folder of Shapefiles) holding pipes and manholes")
+    inspect.add_argument(
+        "--config-out",
+        metavar="TOML",
+        help="where to write the starter config (default: <file stem>.audit.toml beside the file; "
+        "an existing file is never overwritten)",
+    )
+    return parser
+
+
+def main(argv: Sequence[str] | None = None) -> int:
+    """Run the command line; return the exit code (see the module docstring)."""
+    parser = _build_parser()
+    args = parser.parse_args(argv)
+    try:
+        if args.command == "inspect":
+            from .inspection import inspect_command
+
+            return inspect_command(args)
+    except AuditError as error:
+        print(f"sewer-audit: {error}", file=sys.stderr)
+        return EXIT_BAD_INPUT
+    parser.error(f"unknown command {args.command!r}")
+    return EXIT_USAGE  # pragma: no cover - parser.error exits
+
+
+if __name__ == "__main__":  # pragma: no cover
+    sys.exit(main())
