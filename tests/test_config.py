@@ -1,0 +1,177 @@
+"""Loading the TOML configuration: defaults, paths, and one test per kind of bad input."""
+
+from pathlib import Path
+
+import pytest
+
+from audit._errors import ConfigError
+from audit.config import load_config
+
+
+def _write(folder: Path, text: str) -> Path:
+    path = folder / "town.toml"
+    path.write_text(text, encoding="utf-8")
+    return path
+
+
+def _problem(folder: Path, text: str) -> str:
+    path = _write(folder, text)
+    with pytest.raises(ConfigError) as error:
+        load_config(path)
+    message = str(error.value)
+    assert str(path.resolve()) in message
+    return message
+
+
+def test_minimal_config_takes_documented_defaults(tmp_path: Path) -> None:
+    config = load_config(_write(tmp_path, '[pipes]\npath = "data/pipes.gpkg"\n'))
+    assert config.pipes.path == (tmp_path / "data" / "pipes.gpkg").resolve()
+    assert config.pipes.layer is None and config.pipes.crs is None and config.manholes is None
+    assert dict(config.pipes.fields) == {}
+    assert config.pipes.units["diameter"] == "mm" and config.pipes.units["upstream_invert"] == "m"
+    assert config.pipes.units["flow"] == "l/s" and config.pipes.units["length"] == "m"
+    assert config.input.engine == "pyogrio" and config.input.sentinels == (-9999.0, -999.0)
+    assert config.network.snap_tolerance_m == 1.0 and config.network.direction == "ids"
+    assert config.network.length_tolerance_ratio == 0.05 and config.network.length_tolerance_m == 0.5
+    assert config.hydraulics.formula == "manning" and config.hydraulics.manning_n == 0.013
+    assert config.hydraulics.ks_mm == 1.5 and config.hydraulics.water_temp_c == 15.0
+
+
+FULL = """
+[input]
+engine = "fiona"
+sentinels = [-1, 9999.5]
+[pipes]
+path = "town.gpkg"
+layer = "sewers"
+crs = "EPSG:27700"
+[pipes.fields]
+id = "PIPE_REF"
+diameter = "DIA"
+upstream_invert = "US_IL"
+[pipes.units]
+diameter = "in"
+upstream_invert = "FT"
+flow = "MGD"
+[pipes.shapes]
+C = "circular"
+E = "egg"
+[manholes]
+path = "../shared/nodes.geojson"
+[manholes.fields]
+id = "MH"
+inflow = "Q"
+[manholes.units]
+inflow = "gpm"
+[network]
+direction = "digitised"
+snap_tolerance_m = 0.25
+[hydraulics]
+formula = "colebrook-white"
+ks_mm = 0.6
+[rules]
+min_velocity_m_s = 0.6
+by_diameter = [{diameter_mm = 150, min_slope = 0.0067}]
+"""
+
+
+def test_full_config_is_read_into_frozen_dataclasses(tmp_path: Path) -> None:
+    config = load_config(_write(tmp_path, FULL))
+    assert config.input.engine == "fiona" and config.input.sentinels == (-1.0, 9999.5)
+    assert config.pipes.layer == "sewers" and config.pipes.crs == "EPSG:27700"
+    assert dict(config.pipes.fields) == {"id": "PIPE_REF", "diameter": "DIA", "upstream_invert": "US_IL"}
+    assert config.pipes.units["diameter"] == "in" and config.pipes.units["upstream_invert"] == "ft"
+    assert config.pipes.units["flow"] == "mgd" and config.pipes.units["height"] == "mm"
+    assert dict(config.pipes.shapes) == {"C": "circular", "E": "egg"}
+    assert config.manholes is not None
+    assert config.manholes.path == (tmp_path.parent / "shared" / "nodes.geojson").resolve()
+    assert config.manholes.units["inflow"] == "gpm" and config.manholes.units["rim"] == "m"
+    assert config.network.direction == "digitised" and config.network.snap_tolerance_m == 0.25
+    assert config.hydraulics.formula == "colebrook-white" and config.hydraulics.ks_mm == 0.6
+    with pytest.raises(AttributeError):
+        config.network.direction = "ids"  # type: ignore[misc]
+
+
+def test_rules_table_is_kept_raw_and_read_only(tmp_path: Path) -> None:
+    rules = load_config(_write(tmp_path, FULL)).rules_table
+    assert rules["min_velocity_m_s"] == 0.6
+    assert rules["by_diameter"][0]["diameter_mm"] == 150
+    with pytest.raises(TypeError):
+        rules["min_velocity_m_s"] = 1.0  # type: ignore[index]
+    with pytest.raises(TypeError):
+        rules["by_diameter"][0]["min_slope"] = 0.0  # type: ignore[index]
+
+
+def test_unknown_key_suggests_the_close_one(tmp_path: Path) -> None:
+    message = _problem(tmp_path, '[pipes]\npath = "a.gpkg"\n[pipes.fields]\ndiametre = "DIA"\n')
+    assert "pipes.fields.diametre: unknown key; did you mean 'diameter'?" in message
+
+
+def test_unknown_top_level_table_lists_the_known_ones(tmp_path: Path) -> None:
+    message = _problem(tmp_path, '[pipes]\npath = "a.gpkg"\n[colours]\npipe = "red"\n')
+    assert "colours: unknown key" in message and "hydraulics" in message
+
+
+def test_wrong_type_names_the_dotted_key(tmp_path: Path) -> None:
+    message = _problem(tmp_path, '[pipes]\npath = "a.gpkg"\n[network]\nsnap_tolerance_m = "one"\n')
+    assert "network.snap_tolerance_m: expected a number" in message and "'one'" in message
+
+
+def test_boolean_is_not_a_number(tmp_path: Path) -> None:
+    message = _problem(tmp_path, '[pipes]\npath = "a.gpkg"\n[hydraulics]\nmanning_n = true\n')
+    assert "hydraulics.manning_n: expected a number" in message
+
+
+def test_unknown_unit_names_the_key_and_accepted_units(tmp_path: Path) -> None:
+    message = _problem(tmp_path, '[pipes]\npath = "a.gpkg"\n[pipes.units]\ndiameter = "cm"\n')
+    assert "pipes.units.diameter: expected a length unit, one of m, mm, ft, in, got 'cm'" in message
+
+
+def test_flow_unit_on_a_level_is_refused(tmp_path: Path) -> None:
+    message = _problem(tmp_path, '[pipes]\npath = "a.gpkg"\n[manholes]\npath = "b.gpkg"\n[manholes.units]\nrim = "l/s"\n')
+    assert "manholes.units.rim: expected a length unit" in message
+
+
+def test_unknown_choice_lists_the_choices(tmp_path: Path) -> None:
+    message = _problem(tmp_path, '[pipes]\npath = "a.gpkg"\n[hydraulics]\nformula = "chezy"\n')
+    assert "hydraulics.formula: expected one of 'manning', 'colebrook-white', got 'chezy'" in message
+
+
+def test_unknown_engine_is_refused(tmp_path: Path) -> None:
+    message = _problem(tmp_path, '[input]\nengine = "gdal"\n[pipes]\npath = "a.gpkg"\n')
+    assert "input.engine: expected one of 'pyogrio', 'fiona'" in message
+
+
+def test_shape_code_must_map_to_a_known_shape(tmp_path: Path) -> None:
+    message = _problem(tmp_path, '[pipes]\npath = "a.gpkg"\n[pipes.shapes]\nOV = "oval"\n')
+    assert "pipes.shapes.OV: expected one of 'circular', 'rectangular', 'egg', got 'oval'" in message
+
+
+def test_sentinels_must_be_numbers(tmp_path: Path) -> None:
+    message = _problem(tmp_path, '[input]\nsentinels = ["none"]\n[pipes]\npath = "a.gpkg"\n')
+    assert "input.sentinels: expected an array of numbers" in message
+
+
+def test_unknown_crs_is_refused(tmp_path: Path) -> None:
+    message = _problem(tmp_path, '[pipes]\npath = "a.gpkg"\ncrs = "EPSG:0"\n')
+    assert "pipes.crs: expected a CRS" in message
+
+
+def test_pipes_path_is_required(tmp_path: Path) -> None:
+    message = _problem(tmp_path, '[pipes]\nlayer = "sewers"\n')
+    assert "pipes.path: expected the path of the layer's file (required)" in message
+
+
+def test_all_problems_are_reported_at_once(tmp_path: Path) -> None:
+    message = _problem(tmp_path, '[pipes]\npath = "a.gpkg"\nlayr = "x"\n[network]\ndirection = "up"\n')
+    assert "pipes.layr" in message and "network.direction" in message
+
+
+def test_not_toml_names_the_file(tmp_path: Path) -> None:
+    message = _problem(tmp_path, "[pipes\npath = 'a.gpkg'\n")
+    assert "not valid TOML" in message
+
+
+def test_missing_file_names_the_file(tmp_path: Path) -> None:
+    with pytest.raises(ConfigError, match="nowhere.toml: configuration file not found"):
+        load_config(tmp_path / "nowhere.toml")
