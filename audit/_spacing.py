@@ -62,6 +62,6 @@ def run_totals(run: np.ndarray, *, length: np.ndarray) -> tuple[np.ndarray, np.n
     NaN for a run with no known length at all.
     """
     known = np.isfinite(length)
-    total = np.bincount(run, weights=np.where(known, length, 0.0))
+    total = np.bincount(run, weights=np.where(known, length, 0.0)).astype(float)
     total[np.bincount(run, weights=known) == 0] = np.nan
     return total[run], np.bincount(run)[run]
