@@ -1,0 +1,337 @@
+"""The network: pipe ends joined to nodes, flow direction, graph arrays and a topological order.
+
+Pipe ends join manholes by the ``from_node`` / ``to_node`` ids where those are mapped, else by
+snapping the first and last vertex of each line to the nearest manhole within a tolerance. Ends
+near no manhole are clustered with each other into unnamed junction nodes ``J1``, ``J2``, ...
+The result is held as integer arrays (upstream and downstream node per pipe); every graph answer
+is computed on them in bulk (see ``audit._graph``).
+
+Finding codes emitted (see ``audit._network_findings``): ``duplicate_id``, ``unknown_node``,
+``unplaced_pipe``, ``direction_fallback``, ``reversed_by_inverts``, ``self_loop``, ``cycle``,
+``separate_components``, ``outfall``, ``dangling_end``, ``orphan_manhole``.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import geopandas as gpd
+import numpy as np
+import pandas as pd
+import shapely
+
+from audit import _network_findings as report
+from audit._errors import ConfigError, InputError
+from audit._graph import order_pipes, outfall_nodes, pipe_components
+from audit._snapping import cluster_points, first_appearance_labels, line_ends, snap_to_points
+from audit.findings import FindingLog
+
+DIRECTIONS = ("ids", "digitised", "inverts")
+NODE_COLUMNS = ("node_id", "kind", "manhole_row", "x", "y", "rim", "invert", "depth", "inflow", "access")
+_LEVEL_COLUMNS = ("rim", "invert", "depth", "inflow")
+
+
+@dataclass(frozen=True, eq=False)
+class Network:
+    """A sewer network as integer arrays over pipe positions (0 .. n-1, in input order).
+
+    Attributes
+    ----------
+    nodes : one row per node, columns ``NODE_COLUMNS``; manholes first (in layer order), then
+        junctions; ``manhole_row`` is the row in the manhole layer, -1 for a junction
+    upstream, downstream : int64 node index per pipe in flow direction; -1 for a pipe that
+        could not be placed (no usable geometry and no known ids)
+    reversed : bool per pipe, True where flow runs from the last vertex to the first
+    order : int64 pipe positions, every pipe after all pipes upstream of it; pipes on cycles
+        follow, then pipes that are not placed
+    in_cycle : bool per pipe, True for a pipe on a directed cycle (a self loop included)
+    component : int64 connected part per pipe (0 = the part with most pipes), -1 if not placed
+    outfalls : int64 node indices that pipes flow into and that no pipe leaves
+    direction : the direction rule that was applied (``"ids"``, ``"digitised"``, ``"inverts"``)
+    """
+
+    nodes: pd.DataFrame
+    upstream: np.ndarray
+    downstream: np.ndarray
+    reversed: np.ndarray
+    order: np.ndarray
+    in_cycle: np.ndarray
+    component: np.ndarray
+    outfalls: np.ndarray
+    direction: str
+
+
+@dataclass(frozen=True, eq=False)
+class _Joined:
+    """Pipe ends joined to nodes, in digitising order (end 0 = first vertex or ``from_node``)."""
+
+    nodes: pd.DataFrame
+    end_node: np.ndarray  # int64 (n, 2)
+    end_xy: np.ndarray  # float (n, 2, 2)
+    end_ids: np.ndarray  # object (n, 2), None where no id
+    unknown: np.ndarray  # bool (n, 2): an id was given and names no manhole
+    ids_mapped: bool
+
+
+def build_network(
+    pipes: gpd.GeoDataFrame,
+    manholes: gpd.GeoDataFrame | None,
+    *,
+    snap_tolerance_m: float = 1.0,
+    direction: str = "ids",
+    findings: FindingLog,
+) -> Network:
+    """Join pipe ends to nodes, set the flow direction and answer the graph questions.
+
+    Parameters
+    ----------
+    pipes : canonical pipe layer (LineStrings in a projected CRS [m]; None or empty allowed)
+    manholes : canonical manhole layer, or None when there is none
+    snap_tolerance_m : largest distance from a pipe end to the manhole it joins, and between
+        pipe ends that meet at a junction [m]
+    direction : ``"ids"`` (``from_node`` is upstream; falls back to ``"digitised"`` when no
+        ids are mapped), ``"digitised"`` (first vertex is upstream) or ``"inverts"`` (the end
+        with the higher invert level is upstream)
+    findings : log that receives the problems found in the data
+
+    Returns
+    -------
+    Network
+
+    Raises
+    ------
+    ConfigError
+        for a negative or non-finite tolerance or an unknown direction
+    InputError
+        when a layer lacks a canonical column that the join needs
+    """
+    _check_options(snap_tolerance_m=snap_tolerance_m, direction=direction)
+    _check_layers(pipes, manholes)
+    pipe_ids = pipe_labels(pipes)
+    joined = _join(pipes, manholes, tolerance_m=snap_tolerance_m, pipe_ids=pipe_ids, findings=findings)
+    applied = direction
+    if direction == "ids" and not joined.ids_mapped:
+        applied = "digitised"
+        report.direction_fallback(findings)
+    flip = np.zeros(len(pipes), dtype=bool)
+    if applied == "inverts":
+        flip = _reversed_by_inverts(pipes, joined, pipe_ids=pipe_ids, findings=findings)
+    upstream = np.where(flip, joined.end_node[:, 1], joined.end_node[:, 0])
+    downstream = np.where(flip, joined.end_node[:, 0], joined.end_node[:, 1])
+    node_count = len(joined.nodes)
+    order, in_cycle = order_pipes(upstream, downstream, node_count=node_count)
+    network = Network(
+        nodes=joined.nodes,
+        upstream=upstream,
+        downstream=downstream,
+        reversed=flip,
+        order=order,
+        in_cycle=in_cycle,
+        component=pipe_components(upstream, downstream, node_count=node_count),
+        outfalls=outfall_nodes(upstream, downstream, node_count=node_count),
+        direction=applied,
+    )
+    report.graph_findings(network, pipes=pipes, pipe_ids=pipe_ids, findings=findings)
+    return network
+
+
+def _check_options(*, snap_tolerance_m: float, direction: str) -> None:
+    if not np.isfinite(snap_tolerance_m) or snap_tolerance_m < 0:
+        raise ConfigError(f"snap tolerance must be a distance of 0 m or more, got {snap_tolerance_m!r}")
+    if direction not in DIRECTIONS:
+        raise ConfigError(f"flow direction must be one of {', '.join(DIRECTIONS)}; got {direction!r}")
+
+
+def _check_layers(pipes: gpd.GeoDataFrame, manholes: gpd.GeoDataFrame | None) -> None:
+    if "geometry" not in pipes.columns:
+        raise InputError("pipes layer: no geometry column")
+    if manholes is None:
+        return
+    missing = [name for name in ("manhole_id", "geometry") if name not in manholes.columns]
+    if missing:
+        raise InputError(f"manholes layer: missing canonical field(s) {', '.join(missing)}")
+
+
+def pipe_labels(pipes: pd.DataFrame) -> np.ndarray:
+    """The id that names each pipe in findings: ``pipe_id``, or ``#<row>`` where it is missing.
+
+    Examples
+    --------
+    >>> pipe_labels(pd.DataFrame({"pipe_id": ["P1", None]})).tolist()
+    ['P1', '#1']
+    """
+    rows = pd.Series(np.arange(len(pipes)).astype(str), dtype=object)
+    fallback = "#" + rows
+    if "pipe_id" not in pipes.columns:
+        return fallback.to_numpy(dtype=object)
+    given = pd.Series(pipes["pipe_id"].to_numpy(dtype=object))
+    return given.where(given.notna(), fallback).astype(str).to_numpy(dtype=object)
+
+
+def _id_array(values: pd.Series | None, count: int) -> np.ndarray:
+    """Ids as str objects, None where null or blank."""
+    if values is None:
+        return np.full(count, None, dtype=object)
+    series = pd.Series(values.to_numpy(dtype=object))
+    present = series.notna().to_numpy()
+    text = np.full(count, None, dtype=object)
+    text[present] = series[present].astype(str).str.strip().to_numpy(dtype=object)
+    text[present & (text == "")] = None
+    return text
+
+
+def _end_ids(pipes: pd.DataFrame) -> np.ndarray:
+    count = len(pipes)
+    columns = [_id_array(pipes.get(name), count) for name in ("from_node", "to_node")]
+    return np.stack(columns, axis=1)
+
+
+def _manhole_nodes(manholes: gpd.GeoDataFrame | None, *, keep_first: bool) -> tuple[pd.DataFrame, np.ndarray]:
+    """Node rows for the manholes, and the manhole rows dropped as repeated ids."""
+    if manholes is None:
+        return _empty_nodes(), np.zeros(0, dtype=np.int64)
+    ids = _id_array(manholes["manhole_id"], len(manholes))
+    repeated = pd.Series(ids).duplicated(keep="first").to_numpy() & (ids != None)  # noqa: E711
+    keep = ~repeated if keep_first else np.ones(len(ids), dtype=bool)
+    geometry = np.asarray(manholes.geometry.values, dtype=object)[keep]
+    table = {
+        "node_id": ids[keep],
+        "kind": "manhole",
+        "manhole_row": np.flatnonzero(keep).astype(np.int64),
+        "x": shapely.get_x(geometry),
+        "y": shapely.get_y(geometry),
+    }
+    for name in _LEVEL_COLUMNS:
+        table[name] = manholes[name].to_numpy(dtype=float)[keep] if name in manholes else np.nan
+    access = manholes["access"].to_numpy(dtype=object)[keep] if "access" in manholes else np.full(keep.sum(), True)
+    table["access"] = np.where(pd.isna(access), True, access).astype(bool)
+    nodes = pd.DataFrame(table, index=range(int(keep.sum())))
+    return nodes, np.flatnonzero(repeated & keep_first)
+
+
+def _empty_nodes() -> pd.DataFrame:
+    return _junction_nodes(np.zeros(0, dtype=object), np.zeros((0, 2)))
+
+
+def _junction_nodes(names: np.ndarray, xy: np.ndarray) -> pd.DataFrame:
+    count = len(names)
+    table: dict[str, object] = {"node_id": names, "kind": "junction", "manhole_row": np.full(count, -1, np.int64)}
+    table.update(x=xy[:, 0], y=xy[:, 1])
+    table.update({name: np.full(count, np.nan) for name in _LEVEL_COLUMNS})
+    table["access"] = np.zeros(count, dtype=bool)
+    return pd.DataFrame(table, index=range(count), columns=list(NODE_COLUMNS))
+
+
+def _join(
+    pipes: gpd.GeoDataFrame,
+    manholes: gpd.GeoDataFrame | None,
+    *,
+    tolerance_m: float,
+    pipe_ids: np.ndarray,
+    findings: FindingLog,
+) -> _Joined:
+    """Every pipe end to a node: by id, else by snapping, else a junction of meeting ends."""
+    end_ids = _end_ids(pipes)
+    ids_mapped = bool((end_ids != None).any())  # noqa: E711
+    manhole_nodes, repeated = _manhole_nodes(manholes, keep_first=ids_mapped)
+    if manholes is not None:
+        report.duplicate_ids(manholes, repeated, findings=findings)
+    end_xy = line_ends(np.asarray(pipes.geometry.values, dtype=object))
+    end_node = _nodes_by_id(end_ids, manhole_nodes).reshape(-1)
+    unknown = (end_ids != None).reshape(-1) & (end_node < 0)  # noqa: E711
+    flat_xy = end_xy.reshape(-1, 2)
+    seek = np.flatnonzero((end_node < 0) & ~np.isnan(flat_xy).any(axis=1))
+    hit, _ = snap_to_points(flat_xy[seek], manhole_nodes[["x", "y"]].to_numpy(float), tolerance_m=tolerance_m)
+    end_node[seek] = hit
+    junctions = _junctions(end_node, flat_xy, end_ids.reshape(-1), start=len(manhole_nodes), tolerance_m=tolerance_m)
+    nodes = pd.concat([manhole_nodes, junctions], ignore_index=True) if len(junctions) else manhole_nodes
+    end_node = end_node.reshape(-1, 2)
+    unplaced = (end_node < 0).any(axis=1)
+    end_node[unplaced] = -1
+    joined = _Joined(nodes, end_node, end_xy, end_ids, unknown.reshape(-1, 2), ids_mapped)
+    report.join_findings(joined, pipe_ids=pipe_ids, unplaced=unplaced, findings=findings)
+    return joined
+
+
+def _nodes_by_id(end_ids: np.ndarray, manhole_nodes: pd.DataFrame) -> np.ndarray:
+    """Node index per end from its id; -1 where there is no id or it names no manhole node."""
+    named = manhole_nodes["node_id"].to_numpy(dtype=object)
+    if (end_ids == None).all():  # noqa: E711
+        return np.full(end_ids.shape, -1, dtype=np.int64)
+    usable = np.flatnonzero(named != None)  # noqa: E711
+    lookup = pd.Index(named[usable]).get_indexer(end_ids.reshape(-1))
+    found = np.where(lookup >= 0, usable[np.maximum(lookup, 0)] if usable.size else -1, -1)
+    return found.astype(np.int64).reshape(end_ids.shape)
+
+
+def _junctions(
+    end_node: np.ndarray, flat_xy: np.ndarray, flat_ids: np.ndarray, *, start: int, tolerance_m: float
+) -> pd.DataFrame:
+    """Give every end still without a node a junction node; fills ``end_node`` in place.
+
+    Ends with coordinates that meet within the tolerance share a junction ``J1``, ``J2``, ...
+    (numbered by their first end in pipe order); ends without coordinates but with an id that
+    names no manhole share a junction named by that id.
+    """
+    located = ~np.isnan(flat_xy).any(axis=1)
+    free = np.flatnonzero((end_node < 0) & located)
+    label = cluster_points(flat_xy[free], tolerance_m=tolerance_m)
+    cluster_count = int(label.max()) + 1 if label.size else 0
+    end_node[free] = start + label
+    sums = np.stack([np.bincount(label, flat_xy[free, axis], cluster_count) for axis in (0, 1)], axis=1)
+    means = sums / np.maximum(np.bincount(label, minlength=cluster_count), 1)[:, None]
+    names = ("J" + pd.Series(np.arange(1, cluster_count + 1)).astype(str)).to_numpy(dtype=object)
+    by_id = np.flatnonzero((end_node < 0) & ~located & (flat_ids != None))  # noqa: E711
+    id_label = first_appearance_labels(pd.factorize(flat_ids[by_id])[0])
+    end_node[by_id] = start + cluster_count + id_label
+    id_names = pd.unique(flat_ids[by_id]) if by_id.size else np.zeros(0, dtype=object)
+    xy = np.vstack([means, np.full((len(id_names), 2), np.nan)])
+    return _junction_nodes(np.concatenate([names, np.asarray(id_names, dtype=object)]), xy)
+
+
+def node_invert_levels(nodes: pd.DataFrame) -> np.ndarray:
+    """Invert level of every node: its invert, else rim minus depth [m]; NaN when unknown.
+
+    .. math:: z_{invert} = z_{rim} - d
+
+    Examples
+    --------
+    >>> frame = pd.DataFrame({"invert": [10.0, np.nan], "rim": [12.0, 12.0], "depth": [1.0, 1.5]})
+    >>> node_invert_levels(frame).tolist()
+    [10.0, 10.5]
+    """
+    invert = nodes["invert"].to_numpy(dtype=float)
+    return np.where(np.isnan(invert), nodes["rim"].to_numpy(float) - nodes["depth"].to_numpy(float), invert)
+
+
+def digitised_end_levels(pipes: pd.DataFrame, end_node: np.ndarray, nodes: pd.DataFrame) -> tuple[np.ndarray, np.ndarray]:
+    """Invert level at each end in digitising order, and whether it came from the pipe's fields.
+
+    The pipe's ``upstream_invert`` / ``downstream_invert`` (as digitised) win; where one is
+    missing the node at that end gives its invert (or rim minus depth).
+
+    Returns
+    -------
+    levels : float (n, 2) [m], NaN where unknown
+    from_pipe : bool (n, 2)
+    """
+    count = len(pipes)
+    given = np.stack(
+        [pipes[name].to_numpy(dtype=float) if name in pipes else np.full(count, np.nan)
+         for name in ("upstream_invert", "downstream_invert")],
+        axis=1,
+    )
+    node_level = np.r_[node_invert_levels(nodes), np.nan]
+    at_node = node_level[np.where(end_node >= 0, end_node, len(node_level) - 1)]
+    from_pipe = ~np.isnan(given)
+    return np.where(from_pipe, given, at_node), from_pipe
+
+
+def _reversed_by_inverts(
+    pipes: gpd.GeoDataFrame, joined: _Joined, *, pipe_ids: np.ndarray, findings: FindingLog
+) -> np.ndarray:
+    """True where the last vertex lies higher than the first, so flow runs against digitising."""
+    levels, _ = digitised_end_levels(pipes, joined.end_node, joined.nodes)
+    flip = (levels[:, 1] > levels[:, 0]) & (joined.end_node[:, 0] >= 0)
+    report.reversed_pipes(pipes, flip, levels, pipe_ids=pipe_ids, findings=findings)
+    return flip
