@@ -304,11 +304,19 @@ def node_invert_levels(nodes: pd.DataFrame) -> np.ndarray:
     return np.where(np.isnan(invert), nodes["rim"].to_numpy(float) - nodes["depth"].to_numpy(float), invert)
 
 
-def digitised_end_levels(pipes: pd.DataFrame, end_node: np.ndarray, nodes: pd.DataFrame) -> tuple[np.ndarray, np.ndarray]:
+def digitised_end_levels(
+    pipes: pd.DataFrame, end_node: np.ndarray, node_level: np.ndarray
+) -> tuple[np.ndarray, np.ndarray]:
     """Invert level at each end in digitising order, and whether it came from the pipe's fields.
 
     The pipe's ``upstream_invert`` / ``downstream_invert`` (as digitised) win; where one is
-    missing the node at that end gives its invert (or rim minus depth).
+    missing, the node at that end gives its level.
+
+    Parameters
+    ----------
+    pipes : canonical pipe layer
+    end_node : int64 (n, 2) node index of the first and last vertex, -1 where unknown
+    node_level : invert level per node [m], NaN where unknown (see :func:`node_invert_levels`)
 
     Returns
     -------
@@ -321,8 +329,8 @@ def digitised_end_levels(pipes: pd.DataFrame, end_node: np.ndarray, nodes: pd.Da
          for name in ("upstream_invert", "downstream_invert")],
         axis=1,
     )
-    node_level = np.r_[node_invert_levels(nodes), np.nan]
-    at_node = node_level[np.where(end_node >= 0, end_node, len(node_level) - 1)]
+    padded = np.r_[np.asarray(node_level, dtype=float), np.nan]
+    at_node = padded[np.where(end_node >= 0, end_node, len(padded) - 1)]
     from_pipe = ~np.isnan(given)
     return np.where(from_pipe, given, at_node), from_pipe
 
@@ -331,7 +339,7 @@ def _reversed_by_inverts(
     pipes: gpd.GeoDataFrame, joined: _Joined, *, pipe_ids: np.ndarray, findings: FindingLog
 ) -> np.ndarray:
     """True where the last vertex lies higher than the first, so flow runs against digitising."""
-    levels, _ = digitised_end_levels(pipes, joined.end_node, joined.nodes)
+    levels, _ = digitised_end_levels(pipes, joined.end_node, node_invert_levels(joined.nodes))
     flip = (levels[:, 1] > levels[:, 0]) & (joined.end_node[:, 0] >= 0)
     report.reversed_pipes(pipes, flip, levels, pipe_ids=pipe_ids, findings=findings)
     return flip
