@@ -1,0 +1,442 @@
+"""Read the pipe and manhole layers into canonical, SI, projected GeoDataFrames.
+
+Each layer comes back twice: ``original``, the GeoDataFrame exactly as read (every field, input
+order, source CRS), and ``canonical``, the columns of the data contract in DEVELOPERS.md with the
+same index, values in SI and geometry in a projected CRS in metres. Every input feature is kept.
+
+A geographic CRS (or a projected one not in metres) is replaced by the UTM zone of the pipes'
+extent; manholes are brought to the pipes' working CRS.
+
+Findings emitted (layer ``pipes`` or ``manholes``; each message names the field and raw value):
+
+* ``no_geometry``: null or empty geometry; the row stays with no geometry;
+* ``wrong_geometry_type``: not a line (pipes) or not a point (manholes); geometry dropped;
+* ``multipart_line``: parts that do not join into one line; the longest part is kept;
+* ``multipart_point``: a multi-point manhole; its first point is kept;
+* ``not_a_number``: a value where a number is needed is not one; it becomes NaN;
+* ``sentinel_value``: a value listed in ``[input] sentinels``; it becomes NaN;
+* ``nonpositive_size``: zero or negative diameter, height, width, length or depth; NaN;
+* ``missing_id``: an empty id; the feature is called ``#<row>``;
+* ``duplicate_id``: an id used by more than one feature;
+* ``unknown_shape``: a shape code neither mapped in ``[pipes.shapes]`` nor canonical;
+* ``unknown_access``: an access value read neither as yes nor as no; taken as accessible.
+"""
+
+from __future__ import annotations
+
+import warnings
+from collections.abc import Iterator, Mapping
+from contextlib import contextmanager
+from dataclasses import dataclass
+from pathlib import Path
+
+import fiona.errors
+import geopandas as gpd
+import numpy as np
+import pandas as pd
+import pyogrio
+import pyproj
+import shapely
+
+from ._errors import InputError
+from .config import MANHOLE_UNITS, PIPE_UNITS, SHAPES, Config, LayerSource
+from .findings import FindingLog
+from .units import to_si
+
+PIPE_NUMBERS = ("diameter", "height", "width", "upstream_invert", "downstream_invert", "length",
+                "roughness", "install_year", "flow")  # fmt: skip
+MANHOLE_NUMBERS = ("rim", "invert", "depth", "inflow")
+SIZES = frozenset({"diameter", "height", "width", "length", "depth"})
+ACCESS_YES = ("1", "true", "t", "yes", "y")  # common practice, no source
+ACCESS_NO = ("0", "false", "f", "no", "n")  # common practice, no source
+_READ_ERRORS = (OSError, RuntimeError, ValueError, fiona.errors.FionaError)
+
+
+@contextmanager
+def quiet_measures() -> Iterator[None]:
+    """Silence the reader's notice that M values are not supported: they are dropped anyway."""
+    with warnings.catch_warnings():
+        warnings.filterwarnings("ignore", message=r"Measured \(M\) geometry types", category=UserWarning)
+        yield
+
+
+@dataclass(frozen=True)
+class LayerData:
+    """One layer as read (``original``) and in canonical form (``canonical``)."""
+
+    source: Path
+    layer: str
+    original: gpd.GeoDataFrame
+    canonical: gpd.GeoDataFrame
+    missing_fields: tuple[str, ...]
+
+
+@dataclass(frozen=True)
+class Layers:
+    """The pipes, the manholes (None when not configured) and the working CRS [m]."""
+
+    pipes: LayerData
+    manholes: LayerData | None
+    crs: pyproj.CRS
+
+    @property
+    def missing_fields(self) -> Mapping[str, tuple[str, ...]]:
+        """Canonical columns per layer that no field fills (their values stay NaN/None)."""
+        found = {"pipes": self.pipes.missing_fields}
+        if self.manholes is not None:
+            found["manholes"] = self.manholes.missing_fields
+        return found
+
+
+@dataclass(frozen=True)
+class _Reporter:
+    """Adds findings for one layer, naming each feature by id and placing it at (x, y)."""
+
+    findings: FindingLog
+    layer: str
+    ids: np.ndarray
+    x: np.ndarray
+    y: np.ndarray
+
+    def add(self, mask: np.ndarray, code: str, messages: pd.Series | str) -> None:
+        if mask.any():
+            if isinstance(messages, pd.Series):
+                messages = messages.to_numpy(dtype=object)[mask]
+            self.findings.add_many(self.layer, self.ids[mask], code, messages, x=self.x[mask], y=self.y[mask])
+
+
+def _where(source: LayerSource, layer: str | None = None) -> str:
+    return f"{source.path}" + (f", layer '{layer}'" if layer else "")
+
+
+def _layer_name(source: LayerSource, key: str) -> str:
+    """The layer to read: the configured one, or the only one in the file."""
+    if not source.path.exists():
+        raise InputError(f"{source.path}: file not found (from {key}.path)")
+    try:
+        with quiet_measures():
+            names = [str(name) for name in pyogrio.list_layers(source.path)[:, 0]]
+    except _READ_ERRORS as error:
+        raise InputError(f"{source.path}: not a readable vector file ({error})") from None
+    if source.layer is None and len(names) == 1:
+        return names[0]
+    if source.layer in names:
+        return str(source.layer)
+    listed = ", ".join(repr(name) for name in names)
+    if source.layer is None:
+        raise InputError(f"{source.path}: holds several layers ({listed}); set {key}.layer to one of them")
+    raise InputError(f"{_where(source, source.layer)} not found ({key}.layer); the file holds: {listed}")
+
+
+def _read_original(source: LayerSource, key: str, *, engine: str) -> tuple[gpd.GeoDataFrame, str]:
+    layer = _layer_name(source, key)
+    options = {"use_arrow": True} if engine == "pyogrio" else {}
+    try:
+        with quiet_measures():
+            frame = gpd.read_file(source.path, layer=layer, engine=engine, **options)
+    except _READ_ERRORS as error:
+        raise InputError(f"{_where(source, layer)}: cannot be read ({error})") from None
+    if not isinstance(frame, gpd.GeoDataFrame) or frame.geometry.name not in frame:
+        raise InputError(f"{_where(source, layer)}: has no geometry column")
+    return frame, layer
+
+
+def _source_crs(frame: gpd.GeoDataFrame, source: LayerSource, key: str, layer: str) -> pyproj.CRS:
+    if frame.crs is not None:
+        return pyproj.CRS.from_user_input(frame.crs)
+    if source.crs is None:
+        raise InputError(f"{_where(source, layer)}: the layer has no CRS; give it as {key}.crs = 'EPSG:...'")
+    return pyproj.CRS.from_user_input(source.crs)
+
+
+def working_crs(geometry: gpd.GeoSeries, *, where: str) -> pyproj.CRS:
+    """The layer's own CRS when projected in metres, else the UTM zone of its extent.
+
+    Parameters
+    ----------
+    geometry : the layer's geometry with its CRS set
+    where : file and layer, for the message when the layer has no geometry to place
+
+    Returns
+    -------
+    a projected CRS whose axes are in metres
+    """
+    crs = pyproj.CRS.from_user_input(geometry.crs)
+    if crs.is_projected and all(axis.unit_name in ("metre", "meter") for axis in crs.axis_info):
+        return crs
+    valid = geometry[~(geometry.isna() | geometry.is_empty)]
+    if valid.empty:
+        raise InputError(f"{where}: no feature has a geometry, so no projected CRS can be chosen")
+    return pyproj.CRS.from_user_input(valid.estimate_utm_crs())
+
+
+def _field(frame: gpd.GeoDataFrame, wanted: str, *, key: str, where: str) -> pd.Series:
+    """The user's field ``wanted`` (exact name, else the only case-insensitive match)."""
+    if wanted in frame.columns and wanted != frame.geometry.name:
+        return frame[wanted]
+    fields = [str(name) for name in frame.columns if name != frame.geometry.name]
+    close = [name for name in fields if name.lower() == wanted.lower()]
+    if len(close) == 1:
+        return frame[close[0]]
+    raise InputError(f"{where}: {key} = '{wanted}' is not a field of the layer; its fields are: {', '.join(fields)}")
+
+
+def _text(raw: pd.Series) -> np.ndarray:
+    """Values as stripped strings (None where null or blank); whole floats lose their '.0'."""
+    if pd.api.types.is_float_dtype(raw.dtype):
+        values = raw.to_numpy(dtype=float, na_value=np.nan)
+        text = np.full(len(values), None, dtype=object)
+        known = np.isfinite(values)
+        whole = known & (values == np.round(values))
+        text[whole] = values[whole].astype(np.int64).astype(str)
+        text[known & ~whole] = values[known & ~whole].astype(str)
+        return text
+    strings = raw.astype("string").str.strip()
+    strings = strings.mask((strings == "").fillna(False))
+    return strings.astype(object).where(strings.notna(), None).to_numpy(dtype=object)
+
+
+def _quoted(raw: pd.Series) -> pd.Series:
+    return "'" + raw.astype("string").fillna("") + "'"
+
+
+def _number(raw: pd.Series, *, name: str, field: str, sentinels: tuple[float, ...], report: _Reporter) -> np.ndarray:
+    """Numbers of one mapped field in the user's unit; bad values become NaN with a finding."""
+    blank = raw.isna().to_numpy() | (raw.astype("string").str.strip() == "").fillna(True).to_numpy()
+    coerced = pd.to_numeric(raw, errors="coerce")
+    values = np.array(pd.Series(coerced, dtype="float64").to_numpy(dtype=float, na_value=np.nan))
+    shown = _quoted(raw)
+    report.add(np.isnan(values) & ~blank, "not_a_number", f"{name} field '{field}' = " + shown + " is not a number")
+    sentinel = np.isin(values, sentinels)
+    report.add(sentinel, "sentinel_value", f"{name} field '{field}' = " + shown + " is a 'missing' sentinel")
+    values[sentinel] = np.nan
+    if name in SIZES:
+        nonpositive = values <= 0
+        report.add(nonpositive, "nonpositive_size", f"{name} field '{field}' = " + shown + " is not a positive size")
+        values[nonpositive] = np.nan
+    return values
+
+
+def _ids(raw: pd.Series | None, *, count: int) -> tuple[np.ndarray, np.ndarray]:
+    """Feature ids (``#<row>`` where none) and a mask of the rows whose id was missing."""
+    rows = "#" + pd.RangeIndex(count).astype(str).to_numpy(dtype=object)
+    if raw is None:
+        return rows, np.zeros(count, dtype=bool)
+    text = _text(raw)
+    missing = pd.isna(text)
+    return np.where(missing, rows, text), missing
+
+
+def _report_ids(report: _Reporter, missing: np.ndarray, *, field: str | None) -> None:
+    report.add(missing, "missing_id", f"id field '{field}' is empty; the feature is called by its row")
+    ids = pd.Series(report.ids, dtype=object).where(~missing)
+    uses = ids.groupby(ids, dropna=True).transform("size").reindex(ids.index)
+    duplicate = (uses > 1).to_numpy()
+    report.add(duplicate, "duplicate_id", f"id field '{field}' = '" + ids.astype(str) + "' is used by "
+               + uses.fillna(0).astype(int).astype(str) + " features")  # fmt: skip
+
+
+def _longest_parts(multi: np.ndarray) -> np.ndarray:
+    """The longest part of each multi-line, vectorised over all of them."""
+    parts, owner = shapely.get_parts(multi, return_index=True)
+    order = np.lexsort((-shapely.length(parts), owner))
+    _, first = np.unique(owner[order], return_index=True)
+    return parts[order][first]
+
+
+def _merge_lines(geometry: np.ndarray, multi: np.ndarray) -> np.ndarray:
+    """Merge multi-lines in place (directed) where they join; else keep their longest part.
+
+    Returns the mask of the multi-lines that did not join.
+    """
+    index = np.flatnonzero(multi)
+    merged = shapely.line_merge(geometry[index], directed=True)
+    joined = shapely.get_type_id(merged) == shapely.GeometryType.LINESTRING
+    geometry[index[joined]] = merged[joined]
+    geometry[index[~joined]] = _longest_parts(geometry[index[~joined]])
+    return np.isin(np.arange(len(geometry)), index[~joined])
+
+
+def _clean_geometry(geometry: np.ndarray, *, lines: bool) -> tuple[np.ndarray, dict[str, np.ndarray]]:
+    """2D LineStrings (pipes) or Points (manholes; a multi-point keeps its first point)."""
+    kinds = shapely.GeometryType
+    single, several = (kinds.LINESTRING, kinds.MULTILINESTRING) if lines else (kinds.POINT, kinds.MULTIPOINT)
+    geometry = shapely.force_2d(geometry)
+    kind = shapely.get_type_id(geometry)
+    empty = (kind < 0) | shapely.is_empty(geometry)
+    multi = (kind == several) & ~empty
+    flags = {"no_geometry": empty, "wrong_geometry_type": ~empty & ~np.isin(kind, [single, several])}
+    if lines:
+        flags["multipart_line"] = _merge_lines(geometry, multi)
+    else:
+        flags["multipart_point"] = multi & (shapely.get_num_geometries(geometry) > 1)
+        geometry[multi] = shapely.get_geometry(geometry[multi], 0)
+    geometry[empty | flags["wrong_geometry_type"]] = None
+    return geometry, flags
+
+
+GEOMETRY_MESSAGES = {
+    "no_geometry": "the feature has no geometry",
+    "wrong_geometry_type": "not of the layer's kind (lines for pipes, points for manholes); it is left out",
+    "multipart_line": "the parts of the line do not join into one line; the longest part is kept",
+    "multipart_point": "the manhole has several points; the first is kept",
+}
+
+
+def _report_geometry(report: _Reporter, flags: dict[str, np.ndarray], *, kinds: pd.Series) -> None:
+    for code, mask in flags.items():
+        shown = "the geometry is a " + kinds + ", " if code == "wrong_geometry_type" else ""
+        report.add(mask, code, shown + GEOMETRY_MESSAGES[code])
+
+
+def _geometry(frame: gpd.GeoDataFrame, source_crs: pyproj.CRS, crs: pyproj.CRS, *, lines: bool) -> tuple[
+    gpd.GeoSeries, dict[str, np.ndarray]
+]:  # fmt: skip
+    geometry, flags = _clean_geometry(frame.geometry.to_numpy().copy(), lines=lines)
+    series = gpd.GeoSeries(geometry, index=frame.index, crs=source_crs).to_crs(crs)
+    return series, flags
+
+
+def _locations(geometry: gpd.GeoSeries, *, lines: bool) -> tuple[np.ndarray, np.ndarray]:
+    points = geometry.to_numpy()
+    if lines:
+        points = shapely.line_interpolate_point(points, 0.5, normalized=True)
+    return shapely.get_x(points), shapely.get_y(points)
+
+
+@dataclass(frozen=True)
+class _Context:
+    """What the canonical builders need about one layer."""
+
+    frame: gpd.GeoDataFrame
+    source: LayerSource
+    key: str
+    where: str
+    report: _Reporter
+    sentinels: tuple[float, ...]
+
+
+def _raw(context: _Context, name: str) -> pd.Series | None:
+    wanted = context.source.fields.get(name)
+    if wanted is None:
+        return None
+    return _field(context.frame, wanted, key=f"{context.key}.fields.{name}", where=context.where)
+
+
+def _numbers(context: _Context, names: tuple[str, ...], units: Mapping[str, tuple[str, str]]) -> dict[str, np.ndarray]:
+    columns: dict[str, np.ndarray] = {}
+    for name in names:
+        raw = _raw(context, name)
+        if raw is None:
+            columns[name] = np.full(len(context.frame), np.nan)
+            continue
+        values = _number(raw, name=name, field=str(raw.name), sentinels=context.sentinels, report=context.report)
+        columns[name] = to_si(values, context.source.units[name], quantity=units[name][0]) if name in units else values
+    return columns
+
+
+def _texts(context: _Context, names: tuple[str, ...]) -> dict[str, np.ndarray]:
+    columns = {}
+    for name in names:
+        raw = _raw(context, name)
+        columns[name] = np.full(len(context.frame), None, dtype=object) if raw is None else _text(raw)
+    return columns
+
+
+def _shapes(context: _Context, sizes: dict[str, np.ndarray]) -> np.ndarray:
+    """Canonical shape per pipe, from the mapped codes, else from which sizes are given."""
+    diameter, height, width = sizes["diameter"], sizes["height"], sizes["width"]
+    boxed = np.isnan(diameter) & ~np.isnan(height) & ~np.isnan(width)
+    inferred = pd.Series(np.where(boxed, "rectangular", "circular"), dtype=object)
+    raw = _raw(context, "shape")
+    if raw is None:
+        return inferred.to_numpy(dtype=object)
+    codes = pd.Series(_text(raw), dtype=object)
+    lower = {code.lower(): shape for code, shape in context.source.shapes.items()} | {s: s for s in SHAPES}
+    mapped = codes.map(dict(context.source.shapes)).fillna(codes.str.lower().map(lower))
+    unknown = (codes.notna() & mapped.isna()).to_numpy()
+    context.report.add(unknown, "unknown_shape", f"shape field '{raw.name}' = " + _quoted(raw)
+                       + " is neither in [pipes.shapes] nor one of " + ", ".join(SHAPES))  # fmt: skip
+    return mapped.fillna(codes).fillna(inferred).to_numpy(dtype=object)
+
+
+def _access(context: _Context) -> np.ndarray:
+    raw = _raw(context, "access")
+    if raw is None:
+        return np.ones(len(context.frame), dtype=bool)
+    words = pd.Series(_text(raw), dtype=object).str.lower()
+    known = words.isna() | words.isin(ACCESS_YES) | words.isin(ACCESS_NO)
+    context.report.add(~known.to_numpy(), "unknown_access", f"access field '{raw.name}' = " + _quoted(raw)
+                       + " is read neither as yes nor as no; taken as accessible")  # fmt: skip
+    return ~words.isin(ACCESS_NO).to_numpy()
+
+
+def _pipe_columns(context: _Context) -> dict[str, np.ndarray]:
+    numbers = _numbers(context, PIPE_NUMBERS, PIPE_UNITS)
+    shape = _shapes(context, numbers)
+    circular = shape == "circular"
+    fill = np.where(np.isnan(numbers["height"]), numbers["width"], numbers["height"])
+    numbers["diameter"] = np.where(circular & np.isnan(numbers["diameter"]), fill, numbers["diameter"])
+    texts = _texts(context, ("from_node", "to_node", "material"))
+    return {**texts, "shape": shape, **numbers}
+
+
+def _manhole_columns(context: _Context) -> dict[str, np.ndarray]:
+    return {**_numbers(context, MANHOLE_NUMBERS, MANHOLE_UNITS), "access": _access(context)}
+
+
+PIPE_ORDER = ("pipe_id", "from_node", "to_node", "shape", "diameter", "height", "width", "upstream_invert",
+              "downstream_invert", "length", "roughness", "material", "install_year", "flow")  # fmt: skip
+MANHOLE_ORDER = ("manhole_id", "rim", "invert", "depth", "inflow", "access")
+
+
+def _read_layer(source: LayerSource, key: str, *, config: Config, findings: FindingLog,
+                crs: pyproj.CRS | None) -> LayerData:  # fmt: skip
+    """Read one layer; ``crs`` is the working CRS, or None to choose it from this layer."""
+    frame, layer = _read_original(source, key, engine=config.input.engine)
+    where = _where(source, layer)
+    source_crs = _source_crs(frame, source, key, layer)
+    if crs is None:
+        crs = working_crs(frame.geometry.set_crs(source_crs, allow_override=True), where=where)
+    lines = key == "pipes"
+    id_field = source.fields.get("id")
+    raw_id = None if id_field is None else _field(frame, id_field, key=f"{key}.fields.id", where=where)
+    ids, missing = _ids(raw_id, count=len(frame))
+    geometry, flags = _geometry(frame, source_crs, crs, lines=lines)
+    report = _Reporter(findings, key, ids, *_locations(geometry, lines=lines))
+    _report_geometry(report, flags, kinds=frame.geometry.geom_type.astype("string").fillna(""))
+    _report_ids(report, missing, field=None if raw_id is None else str(raw_id.name))
+    context = _Context(frame, source, key, where, report, config.input.sentinels)
+    columns = _pipe_columns(context) if lines else _manhole_columns(context)
+    id_column, order = ("pipe_id", PIPE_ORDER) if lines else ("manhole_id", MANHOLE_ORDER)
+    columns[id_column] = ids
+    canonical = gpd.GeoDataFrame({name: columns[name] for name in order}, geometry=geometry, index=frame.index)
+    mapping = {"pipe_id": "id", "manhole_id": "id"}
+    absent = tuple(name for name in order if mapping.get(name, name) not in source.fields and name != "shape")
+    return LayerData(source.path, layer, frame, canonical, absent)
+
+
+def read_layers(config: Config, findings: FindingLog) -> Layers:
+    """Read the configured pipe and manhole layers.
+
+    Parameters
+    ----------
+    config : the loaded configuration
+    findings : the log that receives every data problem found while reading
+
+    Returns
+    -------
+    the :class:`Layers`: original and canonical frames, working CRS [m]
+
+    Raises
+    ------
+    InputError
+        A file or layer is missing or unreadable, a mapped field is not in the layer, or a
+        layer has no CRS and the config gives none; the message names file, layer and key.
+    """
+    pipes = _read_layer(config.pipes, "pipes", config=config, findings=findings, crs=None)
+    crs = pyproj.CRS.from_user_input(pipes.canonical.crs)
+    manholes = None
+    if config.manholes is not None:
+        manholes = _read_layer(config.manholes, "manholes", config=config, findings=findings, crs=crs)
+    return Layers(pipes=pipes, manholes=manholes, crs=crs)
