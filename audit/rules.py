@@ -16,10 +16,9 @@ or design flow that a velocity would have needed are not raised.
 
 from __future__ import annotations
 
-from collections.abc import Iterable
-
 import numpy as np
 import pandas as pd
+import pyarrow as pa
 
 from audit._errors import ConfigError
 from audit._rule_settings import (
@@ -33,6 +32,7 @@ from audit._rule_settings import (
     RuleSettings,
 )
 from audit._spacing import access_runs, run_totals
+from audit._text import concat, fixed, join, pick, rows, strings
 
 __all__ = [
     "DEFAULT_SEVERITY",
@@ -61,7 +61,7 @@ HYDRAULIC_STATUSES: tuple[str, ...] = (
 # Sizes closer than this are equal: absorbs unit-conversion noise, not real steps [m].
 _SIZE_TOLERANCE = 1e-6
 
-Hit = tuple[np.ndarray, np.ndarray | str]
+Hit = tuple[np.ndarray, pa.Array | str]
 
 
 def check_pipes(
@@ -157,13 +157,8 @@ def _size(columns: dict[str, np.ndarray]) -> np.ndarray:
     return np.where(np.isfinite(columns["diameter"]), columns["diameter"], columns["height"])
 
 
-def _size_word(columns: dict[str, np.ndarray], mask: np.ndarray) -> np.ndarray:
-    return np.where(np.isfinite(columns["diameter"][mask]), "diameter ", "height ").astype(object)
-
-
-def _text(values: np.ndarray, spec: str) -> np.ndarray:
-    """Numbers formatted with a printf-style ``spec``, as an object array of str."""
-    return np.char.mod(spec, np.asarray(values, dtype=float)).astype(object)
+def _size_word(columns: dict[str, np.ndarray], mask: np.ndarray) -> pa.Array:
+    return pick(("height ", "diameter "), np.isfinite(columns["diameter"][mask]))
 
 
 def _load_ratio(columns: dict[str, np.ndarray]) -> np.ndarray:
@@ -178,8 +173,8 @@ def _capacity_hits(columns: dict[str, np.ndarray], *, settings: RuleSettings) ->
     over = flowing & (columns["q_design"] > settings.max_load_ratio * columns["q_full"])
     near = flowing & ~over & (ratio > settings.near_capacity_ratio)
     return {
-        "surcharge": (over, "load ratio " + _text(ratio[over], "%.2f") + f" > {settings.max_load_ratio:.2f}"),
-        "near_capacity": (near, "load ratio " + _text(ratio[near], "%.2f") + f" > {settings.near_capacity_ratio:.2f}"),
+        "surcharge": (over, concat("load ratio ", fixed(ratio[over], 2), f" > {settings.max_load_ratio:.2f}")),
+        "near_capacity": (near, concat("load ratio ", fixed(ratio[near], 2), f" > {settings.near_capacity_ratio:.2f}")),
     }
 
 
@@ -190,18 +185,18 @@ def _velocity_hits(columns: dict[str, np.ndarray], *, settings: RuleSettings) ->
     weak = np.zeros_like(slow)
     if settings.min_shear is not None:
         weak = flowing & (columns["shear"] < settings.min_shear)
-    parts = _accumulate(
-        len(slow),
+    parts = join(
         [
-            (slow, "velocity " + _text(velocity[slow], "%.2f") + f" m/s < {settings.min_velocity:.2f} m/s"),
-            (weak, "shear " + _text(columns["shear"][weak], "%.2f") + f" Pa < {settings.min_shear or 0:.2f} Pa"),
+            (slow, concat("velocity ", fixed(velocity[slow], 2), f" m/s < {settings.min_velocity:.2f} m/s")),
+            (weak, concat("shear ", fixed(columns["shear"][weak], 2), f" Pa < {settings.min_shear or 0:.2f} Pa")),
         ],
         sep=" and ",
+        count=len(slow),
     )
     fast = flowing & (velocity > settings.max_velocity)
     return {
-        "silting": (slow | weak, parts[slow | weak]),
-        "high_velocity": (fast, "velocity " + _text(velocity[fast], "%.2f") + f" m/s > {settings.max_velocity:.2f} m/s"),
+        "silting": (slow | weak, rows(parts, slow | weak)),
+        "high_velocity": (fast, concat("velocity ", fixed(velocity[fast], 2), f" m/s > {settings.max_velocity:.2f} m/s")),
     }
 
 
@@ -211,17 +206,14 @@ def _grade_hits(columns: dict[str, np.ndarray], *, size: np.ndarray, settings: R
     least = np.full(len(slope), np.nan) if settings.min_slope is None else settings.min_slope.lookup(size)
     zero = slope == 0
     shy = (slope > 0) & (slope < least)
-    reasons = _accumulate(
-        len(slope),
-        [
-            (zero, "zero slope"),
-            (shy, "slope " + _text(100 * slope[shy], "%.3f") + " % < " + _text(100 * least[shy], "%.3f") + " %"),
-        ],
+    reasons = join(
+        [(zero, "zero slope"), (shy, concat("slope ", fixed(100 * slope[shy], 3), " % < ", fixed(100 * least[shy], 3), " %"))],
         sep=" ",
+        count=len(slope),
     )
     return {
-        "reverse_grade": (reverse, "slope " + _text(100 * slope[reverse], "%.3f") + " % falls against the flow"),
-        "flat_grade": (zero | shy, reasons[zero | shy]),
+        "reverse_grade": (reverse, concat("slope ", fixed(100 * slope[reverse], 3), " % falls against the flow")),
+        "flat_grade": (zero | shy, rows(reasons, zero | shy)),
     }
 
 
@@ -235,17 +227,16 @@ def _spacing_hit(
     np.minimum.at(run_limit, run, limit)
     limit = run_limit[run]
     long = run_length > limit
-    reason = (
-        "access run " + _text(run_length[long], "%.1f") + " m > " + _text(limit[long], "%.1f")
-        + " m (" + _text(run_pipes[long], "%d") + " pipes)"
-    )  # fmt: skip
+    reason = concat(
+        "access run ", fixed(run_length[long], 1), " m > ", fixed(limit[long], 1), " m (", fixed(run_pipes[long], 0), " pipes)"
+    )
     return long, reason
 
 
 def _diameter_hit(columns: dict[str, np.ndarray], *, size: np.ndarray, settings: RuleSettings) -> Hit:
     size_mm = np.round(size * 1000.0, 6)
     small = size_mm < settings.min_diameter_mm
-    return small, _size_word(columns, small) + _text(size_mm[small], "%.0f") + f" mm < {settings.min_diameter_mm:.0f} mm"
+    return small, concat(_size_word(columns, small), fixed(size_mm[small], 0), f" mm < {settings.min_diameter_mm:.0f} mm")
 
 
 def _decrease_hit(
@@ -259,17 +250,16 @@ def _decrease_hit(
     known = upstream >= 0
     entering[known] = largest_in[upstream[known]]
     step = size < entering - _SIZE_TOLERANCE
-    reason = (
-        _size_word(columns, step) + _text(1000 * size[step], "%.0f") + " mm < "
-        + _text(1000 * entering[step], "%.0f") + " mm entering upstream"
-    )  # fmt: skip
+    reason = concat(
+        _size_word(columns, step), fixed(1000 * size[step], 0), " mm < ", fixed(1000 * entering[step], 0), " mm entering upstream"
+    )
     return step, reason
 
 
 def _cover_hit(columns: dict[str, np.ndarray], *, settings: RuleSettings) -> Hit:
     cover = np.fmin(columns["up_cover"], columns["down_cover"])
     shallow = cover < settings.min_cover_m
-    return shallow, "cover " + _text(cover[shallow], "%.2f") + f" m < {settings.min_cover_m:.2f} m"
+    return shallow, concat("cover ", fixed(cover[shallow], 2), f" m < {settings.min_cover_m:.2f} m")
 
 
 def _missing_hit(columns: dict[str, np.ndarray], *, size: np.ndarray) -> Hit:
@@ -284,46 +274,28 @@ def _missing_hit(columns: dict[str, np.ndarray], *, size: np.ndarray) -> Hit:
     no_slope = np.isnan(slope) | (status == "missing_slope")
     odd = hydraulic & ~np.isin(status, HYDRAULIC_STATUSES)
     no_size = ~np.isfinite(size) | (status == "missing_size")
-    items = _accumulate(
-        len(slope),
-        [
-            (no_size, np.where(columns["shape"][no_size] == "circular", "no size: diameter missing",
-                               "no size: height missing")),
-            (no_slope, _slope_words(columns, no_slope)),
-            (np.isnan(columns["length_m"]), "no length"),
-            (hydraulic & (status == "missing_roughness"), "no roughness"),
-            (no_flow, "no design flow"),
-            (loop, "no design flow: pipe lies on a loop"),
-            (odd, "hydraulics not computed (status '" + status[odd] + "')"),
-            (np.isnan(columns["up_cover"]) & np.isnan(columns["down_cover"]), "no cover at either end"),
-        ],
-        sep=", ",
-    )
-    missing = items != ""
-    return missing, items[missing]
+    circular = columns["shape"][no_size] == "circular"
+    hits: list[Hit] = [
+        (no_size, pick(("no size: height missing", "no size: diameter missing"), circular)),
+        (no_slope, _slope_words(columns, no_slope)),
+        (np.isnan(columns["length_m"]), "no length"),
+        (hydraulic & (status == "missing_roughness"), "no roughness"),
+        (no_flow, "no design flow"),
+        (loop, "no design flow: pipe lies on a loop"),
+        (odd, concat("hydraulics not computed (status '", strings(status[odd]), "')")),
+        (np.isnan(columns["up_cover"]) & np.isnan(columns["down_cover"]), "no cover at either end"),
+    ]
+    missing = np.logical_or.reduce([mask for mask, _ in hits])
+    return missing, rows(join(hits, sep=", ", count=len(slope)), missing)
 
 
-def _slope_words(columns: dict[str, np.ndarray], mask: np.ndarray) -> np.ndarray:
-    count = int(mask.sum())
-    up = columns.get("upstream_invert", np.zeros(len(mask)))[mask]
-    down = columns.get("downstream_invert", np.zeros(len(mask)))[mask]
-    choices = ["no slope: both inverts missing", "no slope: upstream invert missing",
-               "no slope: downstream invert missing"]  # fmt: skip
-    conditions = [np.isnan(up) & np.isnan(down), np.isnan(up), np.isnan(down)]
-    return np.select(conditions, choices, default="no slope").astype(object).reshape(count)
-
-
-def _accumulate(count: int, hits: Iterable[Hit], *, sep: str) -> np.ndarray:
-    """Join the texts of the hits that apply to each row, in order, with ``sep``."""
-    joined = np.full(count, "", dtype=object)
-    for mask, text in hits:
-        rows = np.flatnonzero(mask)
-        if rows.size == 0:
-            continue
-        text = np.broadcast_to(np.asarray(text, dtype=object), rows.shape)
-        current = joined[rows]
-        joined[rows] = np.where(current == "", text, current + sep + text)
-    return joined
+def _slope_words(columns: dict[str, np.ndarray], mask: np.ndarray) -> pa.Array:
+    """Which invert is missing, where the frame carries the inverts."""
+    up = np.isnan(columns.get("upstream_invert", np.zeros(len(mask)))[mask])
+    down = np.isnan(columns.get("downstream_invert", np.zeros(len(mask)))[mask])
+    choices = ("no slope", "no slope: upstream invert missing", "no slope: downstream invert missing",
+               "no slope: both inverts missing")  # fmt: skip
+    return pick(choices, up + 2 * down)
 
 
 def _assemble(
@@ -334,11 +306,12 @@ def _assemble(
     rank = np.zeros(count, dtype=np.int8)
     for code, (mask, _) in live.items():
         rank = np.maximum(rank, mask * np.int8(SEVERITY_ORDER.index(settings.severity[code]) + 1))
+    flags = join([(mask, code) for code, (mask, _) in live.items()], sep=";", count=count)
     return pd.DataFrame(
         {
-            "flags": _accumulate(count, ((mask, code) for code, (mask, _) in live.items()), sep=";"),
-            "severity": np.asarray(("", *SEVERITY_ORDER), dtype=object)[rank],
-            "reasons": _accumulate(count, live.values(), sep="; "),
+            "flags": pd.array(flags, dtype="str"),
+            "severity": pd.array(pick(("", *SEVERITY_ORDER), rank), dtype="str"),
+            "reasons": pd.array(join(list(live.values()), sep="; ", count=count), dtype="str"),
             "access_run_m": run_length,
         },
         index=index,
