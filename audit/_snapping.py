@@ -2,6 +2,7 @@
 
 Everything here works on all pipes at once: one coordinate extraction for every line, one
 spatial-tree query for every end, one sparse-graph labelling for the ends that meet each other.
+Ends and manholes are points, so the trees are k-d trees over coordinates (scipy.spatial).
 """
 
 from __future__ import annotations
@@ -10,6 +11,7 @@ import numpy as np
 import shapely
 from scipy.sparse import coo_matrix
 from scipy.sparse.csgraph import connected_components
+from scipy.spatial import cKDTree
 
 
 def line_ends(geometry: np.ndarray) -> np.ndarray:
@@ -75,11 +77,15 @@ def snap_to_points(
 ) -> tuple[np.ndarray, np.ndarray]:
     """Nearest point within the tolerance for every end, by one spatial-tree query.
 
+    The tree is a k-d tree over the target points (``scipy.spatial.cKDTree``): for points it
+    answers a bounded nearest-neighbour query for millions of ends several times faster than an
+    R-tree of geometries, with the same result.
+
     Parameters
     ----------
     ends_xy : float array (m, 2) of end coordinates [m]; rows with NaN never snap
     points_xy : float array (k, 2) of target coordinates [m]; rows with NaN are never targets
-    tolerance_m : largest distance at which an end still snaps [m]
+    tolerance_m : largest distance at which an end still snaps (inclusive) [m]
 
     Returns
     -------
@@ -92,6 +98,8 @@ def snap_to_points(
     ...                            np.array([[0.0, 0.0], [9.0, 9.0]]), tolerance_m=0.5)
     >>> hit.tolist(), round(float(dist[0]), 6)
     ([0, -1], 0.3)
+    >>> snap_to_points(np.array([[0.5, 0.0]]), np.array([[0.0, 0.0]]), tolerance_m=0.5)[0].tolist()
+    [0]
     """
     hit = np.full(len(ends_xy), -1, dtype=np.int64)
     distance = np.full(len(ends_xy), np.nan)
@@ -99,15 +107,11 @@ def snap_to_points(
     target_ok = np.flatnonzero(~np.isnan(points_xy).any(axis=1))
     if end_ok.size == 0 or target_ok.size == 0:
         return hit, distance
-    tree = shapely.STRtree(shapely.points(points_xy[target_ok]))
-    pairs, found = tree.query_nearest(
-        shapely.points(ends_xy[end_ok]),
-        max_distance=tolerance_m,
-        return_distance=True,
-        all_matches=False,
-    )
-    hit[end_ok[pairs[0]]] = target_ok[pairs[1]]
-    distance[end_ok[pairs[0]]] = found
+    bound = np.nextafter(tolerance_m, np.inf)  # the tree's bound is strict; the tolerance is not
+    found, nearest = cKDTree(points_xy[target_ok]).query(ends_xy[end_ok], k=1, distance_upper_bound=bound)
+    within = nearest < target_ok.size  # a miss comes back as index == size, distance inf
+    hit[end_ok[within]] = target_ok[nearest[within]]
+    distance[end_ok[within]] = found[within]
     return hit, distance
 
 
@@ -132,9 +136,8 @@ def cluster_points(xy: np.ndarray, *, tolerance_m: float) -> np.ndarray:
     count = len(xy)
     if count == 0:
         return np.zeros(0, dtype=np.int64)
-    tree = shapely.STRtree(shapely.points(xy))
-    left, right = tree.query(shapely.points(xy), predicate="dwithin", distance=tolerance_m)
-    graph = coo_matrix((np.ones(left.size, dtype=np.int8), (left, right)), shape=(count, count))
+    pairs = cKDTree(xy).query_pairs(tolerance_m, output_type="ndarray")
+    graph = coo_matrix((np.ones(len(pairs), dtype=np.int8), (pairs[:, 0], pairs[:, 1])), shape=(count, count))
     _, raw = connected_components(graph, directed=False)
     return first_appearance_labels(raw)
 
