@@ -93,8 +93,8 @@ def order_pipes(
 
     Parameters
     ----------
-    upstream, downstream : int64 node index per pipe, -1 where the pipe is not placed
-    node_count : number of nodes
+    upstream, downstream : node index of each pipe's ends in flow direction (-1: not placed)
+    node_count : how many nodes the indices refer to
 
     Returns
     -------
