@@ -102,64 +102,41 @@ def test_rules_table_is_kept_raw_and_read_only(tmp_path: Path) -> None:
         rules["by_diameter"][0]["min_slope"] = 0.0  # type: ignore[index]
 
 
-def test_unknown_key_suggests_the_close_one(tmp_path: Path) -> None:
-    message = _problem(tmp_path, '[pipes]\npath = "a.gpkg"\n[pipes.fields]\ndiametre = "DIA"\n')
-    assert "pipes.fields.diametre: unknown key; did you mean 'diameter'?" in message
+P = '[pipes]\npath = "a.gpkg"\n'
 
 
-def test_unknown_top_level_table_lists_the_known_ones(tmp_path: Path) -> None:
-    message = _problem(tmp_path, '[pipes]\npath = "a.gpkg"\n[colours]\npipe = "red"\n')
-    assert "colours: unknown key" in message and "hydraulics" in message
-
-
-def test_wrong_type_names_the_dotted_key(tmp_path: Path) -> None:
-    message = _problem(tmp_path, '[pipes]\npath = "a.gpkg"\n[network]\nsnap_tolerance_m = "one"\n')
-    assert "network.snap_tolerance_m: expected a number" in message and "'one'" in message
-
-
-def test_boolean_is_not_a_number(tmp_path: Path) -> None:
-    message = _problem(tmp_path, '[pipes]\npath = "a.gpkg"\n[hydraulics]\nmanning_n = true\n')
-    assert "hydraulics.manning_n: expected a number" in message
-
-
-def test_unknown_unit_names_the_key_and_accepted_units(tmp_path: Path) -> None:
-    message = _problem(tmp_path, '[pipes]\npath = "a.gpkg"\n[pipes.units]\ndiameter = "cm"\n')
-    assert "pipes.units.diameter: expected a length unit, one of m, mm, ft, in, got 'cm'" in message
-
-
-def test_flow_unit_on_a_level_is_refused(tmp_path: Path) -> None:
-    message = _problem(tmp_path, '[pipes]\npath = "a.gpkg"\n[manholes]\npath = "b.gpkg"\n[manholes.units]\nrim = "l/s"\n')
-    assert "manholes.units.rim: expected a length unit" in message
-
-
-def test_unknown_choice_lists_the_choices(tmp_path: Path) -> None:
-    message = _problem(tmp_path, '[pipes]\npath = "a.gpkg"\n[hydraulics]\nformula = "chezy"\n')
-    assert "hydraulics.formula: expected one of 'manning', 'colebrook-white', got 'chezy'" in message
-
-
-def test_unknown_engine_is_refused(tmp_path: Path) -> None:
-    message = _problem(tmp_path, '[input]\nengine = "gdal"\n[pipes]\npath = "a.gpkg"\n')
-    assert "input.engine: expected one of 'pyogrio', 'fiona'" in message
-
-
-def test_shape_code_must_map_to_a_known_shape(tmp_path: Path) -> None:
-    message = _problem(tmp_path, '[pipes]\npath = "a.gpkg"\n[pipes.shapes]\nOV = "oval"\n')
-    assert "pipes.shapes.OV: expected one of 'circular', 'rectangular', 'egg', got 'oval'" in message
-
-
-def test_sentinels_must_be_numbers(tmp_path: Path) -> None:
-    message = _problem(tmp_path, '[input]\nsentinels = ["none"]\n[pipes]\npath = "a.gpkg"\n')
-    assert "input.sentinels: expected an array of numbers" in message
-
-
-def test_unknown_crs_is_refused(tmp_path: Path) -> None:
-    message = _problem(tmp_path, '[pipes]\npath = "a.gpkg"\ncrs = "EPSG:0"\n')
-    assert "pipes.crs: expected a CRS" in message
-
-
-def test_pipes_path_is_required(tmp_path: Path) -> None:
-    message = _problem(tmp_path, '[pipes]\nlayer = "sewers"\n')
-    assert "pipes.path: expected the path of the layer's file (required)" in message
+@pytest.mark.parametrize(
+    ("text", "expected"),
+    [
+        pytest.param(P + '[pipes.fields]\ndiametre = "DIA"\n',
+                     "pipes.fields.diametre: unknown key; did you mean 'diameter'?", id="unknown-key-close"),
+        pytest.param(P + '[colours]\npipe = "red"\n', "colours: unknown key; known keys: input, pipes",
+                     id="unknown-table"),
+        pytest.param(P + '[network]\nsnap_tolerance_m = "one"\n',
+                     "network.snap_tolerance_m: expected a number >= 0, got 'one'", id="wrong-type"),
+        pytest.param(P + "[hydraulics]\nmanning_n = true\n", "hydraulics.manning_n: expected a number",
+                     id="boolean-not-number"),
+        pytest.param(P + '[pipes.units]\ndiameter = "cm"\n',
+                     "pipes.units.diameter: expected a length unit, one of m, mm, ft, in, got 'cm'", id="unit"),
+        pytest.param(P + '[manholes]\npath = "b.gpkg"\n[manholes.units]\nrim = "l/s"\n',
+                     "manholes.units.rim: expected a length unit", id="flow-unit-on-level"),
+        pytest.param(P + '[hydraulics]\nformula = "chezy"\n',
+                     "hydraulics.formula: expected one of 'manning', 'colebrook-white', got 'chezy'", id="choice"),
+        pytest.param('[input]\nengine = "gdal"\n' + P, "input.engine: expected one of 'pyogrio', 'fiona'",
+                     id="engine"),
+        pytest.param(P + '[pipes.shapes]\nOV = "oval"\n',
+                     "pipes.shapes.OV: expected one of 'circular', 'rectangular', 'egg', got 'oval'", id="shape"),
+        pytest.param('[input]\nsentinels = ["none"]\n' + P, "input.sentinels: expected an array of numbers",
+                     id="sentinels"),
+        pytest.param(P + 'crs = "EPSG:0"\n', "pipes.crs: expected a CRS", id="crs"),
+        pytest.param('[pipes]\nlayer = "sewers"\n',
+                     "pipes.path: expected the path of the layer's file (required)", id="path-required"),
+        pytest.param(P + "[hydraulics]\nwater_temp_c = 120\n", "hydraulics.water_temp_c: expected a water",
+                     id="temperature"),
+    ],
+)  # fmt: skip
+def test_bad_value_names_file_and_dotted_key(tmp_path: Path, text: str, expected: str) -> None:
+    assert expected in _problem(tmp_path, text)
 
 
 def test_all_problems_are_reported_at_once(tmp_path: Path) -> None:
