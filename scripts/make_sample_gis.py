@@ -18,6 +18,7 @@ from __future__ import annotations
 
 import os
 import sys
+from collections.abc import Iterator
 from dataclasses import dataclass
 from pathlib import Path
 
@@ -58,7 +59,9 @@ POPULATION = {"W": (150, 550), "E": (60, 250)}  # persons served per manhole
 BREWERY_LOAD_LS, OLD_LATERAL_MM = 100.0, 225  # trade load on an old lateral: overloaded
 SILT_GRADE, SILT_MM = 0.00025, 900  # East outfall culvert: large and too flat
 SHALLOW_DEPTH_M, LENGTH_TYPO_RATIO, REVERSE_RISE_M = 1.0, 1.4, 0.12
-CHAMBER_MM = ((300, 1050), (525, 1200), (750, 1500), (10_000, 1800))
+CONCRETE_FROM_MM, PVC_FROM_YEAR = 375, 1975  # material by size and age
+SURVEY_COLUMN, SURVEY_MARGIN = 5, 1.05  # flow survey: given flows on a few trunk pipes
+CHAMBER_MM = np.array([[300, 525, 750, 10_000], [1050, 1200, 1500, 1800]])  # widest pipe -> chamber
 
 
 @dataclass(frozen=True)
@@ -80,6 +83,7 @@ CATCHMENTS = (
     Catchment("W", ORIGIN_E, 1.0, 15, 1890, 1965, egg_columns=6, long_run_column=8),
     Catchment("E", ORIGIN_E + TOWN_SPAN_M, -1.0, 12, 1955, 2015, bank_column=2),
 )
+BANK_X = ORIGIN_E + TOWN_SPAN_M - (CATCHMENTS[1].bank_column + 0.5) * TRUNK_STEP_M  # between two trunk manholes
 
 
 def terrain(x: np.ndarray, y: np.ndarray) -> np.ndarray:
@@ -91,7 +95,7 @@ def terrain(x: np.ndarray, y: np.ndarray) -> np.ndarray:
     z += UNDULATION_M[0] * np.sin(2 * np.pi * x / UNDULATION_WAVE_M[0])
     z += UNDULATION_M[1] * np.cos(2 * np.pi * y / UNDULATION_WAVE_M[1])
     east = 0.5 * (1 + np.tanh((x - x_mid) / RIDGE_SOFT_M))
-    return z + BANK_HEIGHT_M * east * 0.5 * (1 + np.tanh((bank_x() - x) / BANK_WIDTH_M))
+    return z + BANK_HEIGHT_M * east * 0.5 * (1 + np.tanh((BANK_X - x) / BANK_WIDTH_M))
 
 
 def valley(x: np.ndarray) -> np.ndarray:
@@ -104,12 +108,6 @@ def column_x(c: Catchment, column: np.ndarray) -> np.ndarray:
     return c.outfall_x + c.direction * (column + 1) * TRUNK_STEP_M
 
 
-def bank_x() -> float:
-    """Easting [m] of the terrace bank, halfway between two East trunk manholes."""
-    east = CATCHMENTS[1]
-    return float(column_x(east, np.array(east.bank_column - 0.5)))
-
-
 def tree_layout(c: Catchment, rng: np.random.Generator) -> pd.DataFrame:
     """Manholes of one comb-shaped catchment: outfall, trunk, laterals both sides, spurs.
 
@@ -118,7 +116,7 @@ def tree_layout(c: Catchment, rng: np.random.Generator) -> pd.DataFrame:
     """
     rmax = LATERAL_NODES[1]
     sides = rng.integers(LATERAL_NODES[0], rmax + 1, size=(c.columns, 2))
-    sides[c.long_run_column] = 0 if c.long_run_column >= 0 else sides[c.long_run_column]
+    sides[c.long_run_column] *= c.long_run_column < 0  # no laterals at the buried junction
     col, row = np.meshgrid(np.arange(c.columns), np.arange(-rmax, rmax + 1), indexing="ij")
     keep = (row == 0) | ((row > 0) & (row <= sides[:, [0]])) | ((row < 0) & (-row <= sides[:, [1]]))
     label = np.full(col.shape, -1)
@@ -130,7 +128,6 @@ def tree_layout(c: Catchment, rng: np.random.Generator) -> pd.DataFrame:
     y = valley(x) + rr * LATERAL_STEP_M
     spur = (rr != 0) & (rng.random(rr.size) < SPUR_SHARE)
     spur &= np.abs(cc - c.bank_column + 0.5) > 1 if c.bank_column >= 0 else True
-    n = len(cc) + 1
     frame = pd.DataFrame({
         "x": np.r_[c.outfall_x, x, x[spur] + c.direction * SPUR_STEP_M],
         "y": np.r_[valley(np.array(c.outfall_x)), y, y[spur]],
@@ -139,7 +136,6 @@ def tree_layout(c: Catchment, rng: np.random.Generator) -> pd.DataFrame:
         "row": np.r_[0, rr, rr[spur]],
         "down": np.r_[-1, down, np.flatnonzero(spur) + 1],
     })
-    frame.index = np.arange(n + spur.sum())
     shift = rng.uniform(-JITTER_M, JITTER_M, size=(len(frame), 2))
     shift[0] = 0.0
     frame[["x", "y"]] += shift
@@ -157,11 +153,15 @@ def levels(down: np.ndarray) -> np.ndarray:
     return level
 
 
+def sweep(level: np.ndarray, up: np.ndarray) -> Iterator[np.ndarray]:
+    """Pipe indices level by level from the heads of runs down (few levels, not one per pipe)."""
+    return (np.flatnonzero(level[up] == lvl) for lvl in range(level.max(), 0, -1))
+
+
 def accumulate(load: np.ndarray, up: np.ndarray, dn: np.ndarray, level: np.ndarray) -> np.ndarray:
     """Load [l/s] arriving at each node from itself and everything upstream of it."""
     acc = load.astype(float).copy()
-    for lvl in range(level.max(), 0, -1):
-        p = level[up] == lvl
+    for p in sweep(level, up):
         np.add.at(acc, dn[p], acc[up[p]])
     return acc
 
@@ -188,8 +188,7 @@ def size_pipes(pipes: pd.DataFrame, flow_ls: np.ndarray, level: np.ndarray, n_no
     need = np.where(ok.any(axis=1), np.where(ok, sizes, np.inf).min(axis=1), sizes.max())
     width, node_w = need.copy(), np.zeros(n_nodes)
     up, dn = pipes["up"].to_numpy(), pipes["dn"].to_numpy()
-    for lvl in range(level.max(), 0, -1):
-        p = np.flatnonzero(level[up] == lvl)
+    for p in sweep(level, up):
         width[p] = np.maximum(width[p], node_w[up[p]])
         np.maximum.at(node_w, dn[p], width[p])
     return _round_up(width, np.where(egg, 1, 0))
@@ -210,7 +209,7 @@ def build_town(rng: np.random.Generator) -> tuple[pd.DataFrame, pd.DataFrame]:
     offset = np.cumsum([0] + [len(p) for p in parts[:-1]])
     for part, off in zip(parts, offset):
         part["down"] = np.where(part["down"] >= 0, part["down"] + off, -1)
-        part["ref"] = [f"{part['zone'].iat[0]}{k:03d}" for k in range(len(part))]
+        part["ref"] = part["zone"] + part.index.astype(str).str.zfill(3)
     nodes = pd.concat(parts, ignore_index=True)
     nodes["ground"] = terrain(nodes["x"].to_numpy(), nodes["y"].to_numpy())
     up = np.flatnonzero(nodes["down"].to_numpy() >= 0)
@@ -218,8 +217,7 @@ def build_town(rng: np.random.Generator) -> tuple[pd.DataFrame, pd.DataFrame]:
     pipes["geometry"] = _pipe_lines(nodes, pipes, rng)
     pipes["length"] = shapely.length(pipes["geometry"].to_numpy())
     level = levels(nodes["down"].to_numpy())
-    zone = nodes["zone"].to_numpy()
-    low, high = np.array([POPULATION[z] for z in zone]).T
+    low, high = (nodes["zone"].map({z: span[i] for z, span in POPULATION.items()}).to_numpy() for i in (0, 1))
     people = rng.integers(low, high + 1)
     nodes["load"] = np.where(nodes["kind"] == "outfall", 0.0,
                              np.round(people * PER_CAPITA_L_DAY / 86_400 * PEAK_FACTOR, 2))
@@ -252,13 +250,11 @@ def _pipe_lines(nodes: pd.DataFrame, pipes: pd.DataFrame, rng: np.random.Generat
 def _set_history(nodes: pd.DataFrame, pipes: pd.DataFrame, rng: np.random.Generator) -> None:
     """Install year and section type: old town near the West outfall, estates further out."""
     up = nodes.iloc[pipes["up"]]
-    info = {c.zone: c for c in CATCHMENTS}
-    first = np.array([info[z].first_year for z in up["zone"]])
-    spread = np.array([info[z].last_year - info[z].first_year for z in up["zone"]])
-    cols = np.array([info[z].columns for z in up["zone"]])
-    growth = 0.7 * up["column"].to_numpy() / cols + 0.3 * np.abs(up["row"].to_numpy()) / LATERAL_NODES[1]
-    year = first + spread * growth + rng.uniform(0, 10, len(up))
-    eggs = np.array([info[z].egg_columns for z in up["zone"]])
+    info = pd.DataFrame([vars(c) for c in CATCHMENTS]).set_index("zone").loc[up["zone"]]
+    first, eggs = info["first_year"].to_numpy(), info["egg_columns"].to_numpy()
+    growth = 0.7 * up["column"].to_numpy() / info["columns"].to_numpy()
+    growth += 0.3 * np.abs(up["row"].to_numpy()) / LATERAL_NODES[1]
+    year = first + (info["last_year"].to_numpy() - first) * growth + rng.uniform(0, 10, len(up))
     pipes["egg"] = (up["kind"].to_numpy() == "trunk") & (up["column"].to_numpy() < eggs)
     year = np.where(pipes["egg"], first + rng.uniform(0, 15, len(up)), year)
     pipes["laid"] = np.clip(np.round(year), 1890, 2015).astype(int)
@@ -268,8 +264,7 @@ def _inverts(target: np.ndarray, pipes: pd.DataFrame, level: np.ndarray) -> np.n
     """Node inverts [m]: the target depth below ground, lowered so every pipe falls MIN_GRADE."""
     inv = target.copy()
     up, dn, length = pipes["up"].to_numpy(), pipes["dn"].to_numpy(), pipes["length"].to_numpy()
-    for lvl in range(level.max(), 0, -1):
-        p = level[up] == lvl
+    for p in sweep(level, up):
         np.minimum.at(inv, dn[p], inv[up[p]] - MIN_GRADE * length[p])
     return np.round(inv, 2)
 
@@ -309,7 +304,6 @@ def network_errors(nodes: pd.DataFrame, pipes: pd.DataFrame, book: ErrorBook) ->
         nodes.loc[book.pick("manholes", (kind == "lateral") & (np.abs(row) == 2) & fed_by_lateral), "lid"] = "N"
     head = book.pick("manholes", (zone == "W") & (kind == "lateral") & ~fed_by_lateral & np.isin(np.abs(row), (3, 4)))
     nodes.loc[head, "load"] += BREWERY_LOAD_LS
-    book.taken["manholes"][head] = False
     chain = (zone[up] == "W") & (col[up] == col[head]) & (kind[up] == "lateral")
     chain &= (np.sign(row[up]) == np.sign(row[head])) & (np.abs(row[up]) <= abs(row[head]))
     level = nodes["level"].to_numpy()
@@ -324,7 +318,8 @@ def network_errors(nodes: pd.DataFrame, pipes: pd.DataFrame, book: ErrorBook) ->
     _shrink_one(nodes, pipes, book)
     shallow = book.pick("manholes", (kind == "lateral") & ~fed_by_lateral & (zone == "E"))
     nodes.loc[shallow, "invert"] = round(nodes.ground[shallow] - SHALLOW_DEPTH_M, 2)
-    book.note("shallow_cover", "pipes", int(np.flatnonzero(up == shallow)[0]), f"invert only {SHALLOW_DEPTH_M} m below cover")
+    book.note("shallow_cover", "pipes", int(np.flatnonzero(up == shallow)[0]),
+              f"invert only {SHALLOW_DEPTH_M} m below cover")
     nodes["acc"] = accumulate(nodes["load"].to_numpy(), up, dn, level)
 
 
@@ -358,13 +353,14 @@ def register_tables(nodes: pd.DataFrame, pipes: pd.DataFrame) -> tuple[pd.DataFr
     """The two attribute tables in the town's own field names, in internal order."""
     up, dn, egg, span = pipes["up"], pipes["dn"], pipes["egg"].to_numpy(), pipes["span"].to_numpy()
     refs = nodes["ref"].to_numpy()
-    mat = np.select([egg, span >= 375, pipes["laid"] < 1975], ["BRICK", "CONC", "VC"], "PVC")
+    mat = np.select([egg, span >= CONCRETE_FROM_MM, pipes["laid"] < PVC_FROM_YEAR], ["BRICK", "CONC", "VC"], "PVC")
     given = np.flatnonzero(nodes["kind"].to_numpy()[dn] == "outfall")
-    given = np.r_[given, np.flatnonzero((nodes["kind"].to_numpy()[up] == "trunk") & (nodes["column"].to_numpy()[up] == 5))]
+    survey = (nodes["kind"].to_numpy()[up] == "trunk") & (nodes["column"].to_numpy()[up] == SURVEY_COLUMN)
+    given = np.r_[given, np.flatnonzero(survey)]
     flow = np.full(len(pipes), np.nan)
-    flow[given] = np.round(nodes["acc"].to_numpy()[up.to_numpy()[given]] * 1.05, 1)
+    flow[given] = np.round(nodes["acc"].to_numpy()[up.to_numpy()[given]] * SURVEY_MARGIN, 1)
     table = pd.DataFrame({
-        "asset_ref": [f"{r}.1" for r in refs[up]], "mh_up": refs[up], "mh_down": refs[dn],
+        "asset_ref": np.char.add(refs[up].astype(str), ".1"), "mh_up": refs[up], "mh_down": refs[dn],
         "profile": np.where(egg, "OV", "C"),
         "bore_mm": np.where(egg, np.nan, span), "rise_mm": np.where(egg, span * EGG_RISE_RATIO, np.nan),
         "span_mm": np.where(egg, span, np.nan),
@@ -374,11 +370,11 @@ def register_tables(nodes: pd.DataFrame, pipes: pd.DataFrame) -> tuple[pd.DataFr
     })
     widest = np.zeros(len(nodes))
     np.maximum.at(widest, np.r_[up, dn], np.r_[span, span])
-    chamber = np.array([m for limit, m in CHAMBER_MM])[np.searchsorted([lim for lim, _ in CHAMBER_MM], widest)]
+    chamber = CHAMBER_MM[1][np.searchsorted(CHAMBER_MM[0], widest)]
     open_chamber = (nodes["lid"] == "Y") & (nodes["kind"] != "outfall")
     holes = pd.DataFrame({
         "mh_ref": refs, "cover_lvl": np.round(nodes["ground"].to_numpy(), 2), "sump_lvl": nodes["invert"].to_numpy(),
-        "chamber_d": pd.array(np.where(open_chamber, chamber, 0), dtype="Int32").astype("Int32"),
+        "chamber_d": pd.array(chamber, dtype="Int32"),
         "dwf_ls": nodes["load"].to_numpy(), "lid": nodes["lid"].to_numpy(),
         "geometry": shapely.points(nodes[["x", "y"]].to_numpy()),
     })
@@ -414,7 +410,7 @@ def typing_errors(table: pd.DataFrame, holes: pd.DataFrame, lateral: np.ndarray,
     y = float(valley(np.array(x_mid))) + LATERAL_STEP_M
     ground = round(float(terrain(np.array(x_mid), np.array(y))), 2)
     orphan = pd.DataFrame({"mh_ref": ["X001"], "cover_lvl": [ground], "sump_lvl": [round(ground - DEPTH_MIN_M, 2)],
-                           "chamber_d": pd.array([CHAMBER_MM[0][1]], dtype="Int32"), "dwf_ls": [0.0], "lid": ["Y"],
+                           "chamber_d": pd.array([CHAMBER_MM[1, 0]], dtype="Int32"), "dwf_ls": [0.0], "lid": ["Y"],
                            "geometry": [shapely.Point(x_mid, y)]})
     holes = pd.concat([holes, orphan], ignore_index=True)
     book.taken["manholes"] = np.r_[book.taken["manholes"], False]

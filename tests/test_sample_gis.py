@@ -49,7 +49,8 @@ def _read(folder: Path, layer: str) -> gpd.GeoDataFrame:
 def _errors(folder: Path) -> pd.DataFrame:
     rows = [line.strip("|").split("|") for line in (folder / "ERRORS.md").read_text().splitlines()
             if line.startswith("| ") and not line.startswith("| code")]
-    table = pd.DataFrame([[cell.strip() for cell in row] for row in rows], columns=["code", "layer", "fid", "ref", "detail"])
+    cells = [[cell.strip() for cell in row] for row in rows]
+    table = pd.DataFrame(cells, columns=["code", "layer", "fid", "ref", "detail"])
     return table.astype({"fid": int})
 
 
