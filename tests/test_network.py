@@ -302,3 +302,9 @@ def test_cycles_components_and_order_agree_with_networkx(seed: int) -> None:
     for i, j in [(i, j) for i in range(110) for j in range(110) if strong[target[i]] == strong[source[j]]]:
         if not network.in_cycle[i] and not network.in_cycle[j]:
             assert position[i] < position[j]
+
+
+def test_an_end_exactly_at_the_tolerance_still_snaps() -> None:
+    pipes = gpd.GeoDataFrame({"pipe_id": ["T1"]}, geometry=[LineString([(0.5, 10.0), (5.0, 4.5)])])
+    network = build_network(pipes, manhole_layer(MANHOLE_XY), snap_tolerance_m=0.5, findings=FindingLog())
+    assert joins(network) == [("A", "C")]  # both ends 0.5 m off, read off the drawing
