@@ -17,3 +17,7 @@ class ConfigError(AuditError):
 
 class InputError(AuditError):
     """An input layer cannot be used: missing file or layer, unmapped required field, no CRS."""
+
+
+class OutputExistsError(AuditError):
+    """The output folder already holds files and ``--overwrite`` was not given, or a target is an input."""

@@ -1,0 +1,74 @@
+"""The result of an audit: what the pipeline hands to the outputs stage and to Python users.
+
+``audit.run(config)`` returns an :class:`AuditResult`. Its GeoDataFrames hold every input
+feature, in input order, with every original field unchanged and in the input's CRS, followed by
+the computed columns listed here (units in the tables; SI throughout).
+"""
+
+from __future__ import annotations
+
+from collections.abc import Mapping
+from dataclasses import dataclass
+from pathlib import Path
+from typing import Any
+
+import geopandas as gpd
+
+from .rules import RuleSettings
+
+PIPE_COLUMNS: dict[str, str] = {
+    "length_m": "pipe length used [m]: the length attribute, else the drawn length",
+    "slope": "bed slope in the flow direction [m/m]: (upstream invert - downstream invert) / length",
+    "up_invert_m": "invert level at the upstream end [m]",
+    "down_invert_m": "invert level at the downstream end [m]",
+    "up_cover_m": "cover over the crown at the upstream end [m]: rim - (invert + height)",
+    "down_cover_m": "cover over the crown at the downstream end [m]",
+    "q_full": "full-bore capacity [m3/s]",
+    "v_full": "full-bore velocity [m/s]",
+    "q_design": "design flow [m3/s]: given, or accumulated from manhole inflows upstream",
+    "flow_source": "where q_design comes from: given, accumulated, missing or cycle",
+    "load_ratio": "q_design / q_full [-]",
+    "depth_ratio": "normal depth / internal height [-]; 1.0 when surcharged",
+    "v_design": "mean velocity at the design flow [m/s]",
+    "shear": "boundary shear stress at the design flow, rho g R S [Pa]",
+    "hydraulic_status": "ok, above_full_bore, surcharged, or why the hydraulics could not run",
+    "flags": "rule flag codes joined by ';' (empty when none)",
+    "severity": "worst severity among the flags: high, medium, low (empty when none)",
+    "reasons": "one reason per flag with the numbers, joined by '; '",
+    "from_node_id": "the node the pipe flows from (manhole id, or J<n> for an unnamed junction)",
+    "to_node_id": "the node the pipe flows into",
+    "upstream_length_m": "total length of this pipe and every pipe upstream of it [m]",
+    "access_run_m": "length of the run between access points that holds this pipe [m]",
+}
+"""Computed pipe columns, in output order, with their units and meaning."""
+
+MANHOLE_COLUMNS: dict[str, str] = {
+    "pipes_in": "number of pipes flowing into the manhole",
+    "pipes_out": "number of pipes flowing out of the manhole",
+    "total_inflow": "flow leaving the manhole [m3/s]: its own inflow plus everything upstream",
+    "findings": "data finding codes about this manhole, joined by ';'",
+}
+"""Computed manhole columns, in output order."""
+
+FINDING_COLUMNS: dict[str, str] = {
+    "layer": "the layer the finding is about: pipes, manholes or network",
+    "feature": "the feature's id in that layer (or * for the whole layer)",
+    "code": "short finding code, e.g. duplicate_id, length_mismatch",
+    "message": "what is wrong, with the numbers",
+}
+"""Columns of the findings point layer (geometry: where the problem is)."""
+
+
+@dataclass(frozen=True)
+class AuditResult:
+    """Everything an audit produced, ready to write or to use in Python."""
+
+    pipes: gpd.GeoDataFrame  # original fields + PIPE_COLUMNS, input order, input CRS
+    manholes: gpd.GeoDataFrame | None  # original fields + MANHOLE_COLUMNS
+    findings: gpd.GeoDataFrame  # FINDING_COLUMNS + Point geometry, in the pipes' output CRS
+    rules: RuleSettings  # the rule values used
+    settings: Mapping[str, Any]  # hydraulics and network settings used (JSON-safe)
+    totals: Mapping[str, Any]  # network totals: pipes, length_m, manholes, outfalls, components, ...
+    missing_fields: Mapping[str, tuple[str, ...]]  # per layer, canonical fields with no mapping
+    inputs: tuple[Path, ...]  # the input files (never written)
+    config_path: Path | None  # the config file the audit ran from
