@@ -13,9 +13,11 @@ from __future__ import annotations
 import argparse
 import sys
 from collections.abc import Sequence
+from pathlib import Path
 
 from . import __version__
-from ._errors import AuditError
+from ._errors import AuditError, InputError, OutputExistsError
+from .rules import SEVERITY_ORDER, worst_severity_at_least
 
 EXIT_OK = 0
 EXIT_BAD_INPUT = 1
@@ -26,6 +28,16 @@ CAUTION = (
     "Screening aid only: results are uniform-flow checks against configurable design rules. "
     "They do not replace a calibrated model; local codes and a licensed engineer's judgement govern."
 )
+
+OUTPUTS_HELP = """\
+Writes into OUTDIR:
+  audit.gpkg       layers pipes and manholes (every input feature and field, plus results and
+                   flags) and findings (a point at each data problem)
+  summary.json     counts and lengths per flag, network totals, data findings, rules used
+  candidates.csv   pipes ranked for renewal, with their reasons
+Field names and units: docs/outputs.md."""
+
+DEMO_CONFIG = Path(__file__).resolve().parent.parent / "sample_gis" / "town.toml"
 
 DESCRIPTION = f"""\
 Screen a gravity sewer network held as GIS layers (pipes as lines, manholes as points).
@@ -66,12 +78,20 @@ def _build_parser() -> argparse.ArgumentParser:
     )
     for name, summary in (
         ("run", "audit the network described by a TOML config and write the results to a folder"),
-        ("demo", "run the audit on the bundled invented town"),
+        ("demo", "run the audit on the bundled invented town (sample_gis/town.toml)"),
     ):
-        stage = commands.add_parser(name, help=summary, description=summary)
+        stage = commands.add_parser(name, help=summary, description=f"{summary}.\n\n{OUTPUTS_HELP}", formatter_class=argparse.RawDescriptionHelpFormatter)
         if name == "run":
-            stage.add_argument("config", help="the TOML config (see docs/config.md)")
-        stage.add_argument("-o", "--output", required=True, metavar="OUTDIR", help="folder for the results")
+            stage.add_argument("config", help="the TOML config (see docs/config.md; `sewer-audit inspect` writes a starter)")
+        stage.add_argument("-o", "--output", required=True, metavar="OUTDIR", help="folder for the results (created if missing)")
+        stage.add_argument("--overwrite", action="store_true", help="replace our output files in an existing folder (other files are left alone)")
+        stage.add_argument(
+            "--fail-on",
+            choices=SEVERITY_ORDER,
+            metavar="SEVERITY",
+            help=f"exit with code 3 when any pipe has a flag of this severity or worse ({', '.join(SEVERITY_ORDER)})",
+        )
+        stage.add_argument("-q", "--quiet", action="store_true", help="no progress bars and no summary table")
     return parser
 
 
@@ -84,13 +104,33 @@ def main(argv: Sequence[str] | None = None) -> int:
             from .inspection import inspect_command
 
             return inspect_command(args)
-        print(f"sewer-audit {args.command}: not yet built; the end-to-end audit is in progress.")
-        return EXIT_OK
+        return _audit_command(args)
+    except OutputExistsError as error:
+        print(f"sewer-audit: {error}", file=sys.stderr)
+        return EXIT_USAGE
     except AuditError as error:
         print(f"sewer-audit: {error}", file=sys.stderr)
         return EXIT_BAD_INPUT
     parser.error(f"unknown command {args.command!r}")
     return EXIT_USAGE  # pragma: no cover - parser.error exits
+
+
+def _audit_command(args: argparse.Namespace) -> int:
+    """``run`` and ``demo``: audit, write the outputs, print the table, pick the exit code."""
+    from .outputs import print_summary_table, write_outputs
+    from .pipeline import run
+
+    config = Path(args.config) if args.command == "run" else DEMO_CONFIG
+    if args.command == "demo" and not config.exists():
+        raise InputError(f"{config}: the bundled sample is missing; run `python scripts/make_sample_gis.py` from a source checkout")
+    show = not args.quiet and sys.stderr.isatty()
+    result = run(config, progress=show)
+    paths = write_outputs(result, Path(args.output), overwrite=args.overwrite, progress=show)
+    if not args.quiet:
+        print_summary_table(result, paths, file=sys.stdout)
+    if args.fail_on and worst_severity_at_least(result.pipes["severity"].to_numpy(dtype=object), args.fail_on).any():
+        return EXIT_FLAGGED
+    return EXIT_OK
 
 
 if __name__ == "__main__":  # pragma: no cover

@@ -18,7 +18,7 @@ from __future__ import annotations
 import difflib
 import tomllib
 from collections.abc import Mapping
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from pathlib import Path
 from types import MappingProxyType
 from typing import Any
@@ -26,6 +26,7 @@ from typing import Any
 import pyproj
 
 from ._errors import ConfigError
+from .rules import RuleSettings
 from .units import FACTORS, SPELLING, normalise_unit
 
 PIPE_FIELDS = (
@@ -109,7 +110,8 @@ class HydraulicsOptions:
 
 @dataclass(frozen=True)
 class Config:
-    """The whole configuration; ``rules_table`` is the raw ``[rules]`` table, read-only."""
+    """The whole configuration; ``rules_table`` is the raw ``[rules]`` table, read-only, and
+    ``rules`` the thresholds parsed from it (``audit.rules.RuleSettings``)."""
 
     source: Path
     pipes: LayerSource
@@ -118,6 +120,7 @@ class Config:
     network: NetworkOptions = NetworkOptions()
     hydraulics: HydraulicsOptions = HydraulicsOptions()
     rules_table: Mapping[str, Any] = field(default_factory=lambda: MappingProxyType({}))
+    rules: RuleSettings = RuleSettings()
 
 
 class _Checker:
@@ -322,4 +325,5 @@ def load_config(path: str | Path) -> Config:
         rules_table=_frozen(check.table(data.get("rules", {}), "rules", None)),  # type: ignore[arg-type]
     )
     check.raise_if_any()
-    return config
+    rules = RuleSettings.from_table(dict(config.rules_table), source=str(source))
+    return replace(config, rules=rules)

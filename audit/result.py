@@ -17,6 +17,7 @@ import geopandas as gpd
 from .rules import RuleSettings
 
 PIPE_COLUMNS: dict[str, str] = {
+    "height_m": "internal height used [m]: the diameter of a circular pipe",
     "length_m": "pipe length used [m]: the length attribute, else the drawn length",
     "slope": "bed slope in the flow direction [m/m]: (upstream invert - downstream invert) / length",
     "up_invert_m": "invert level at the upstream end [m]",

@@ -1,0 +1,223 @@
+"""The audit from end to end: config -> layers -> network -> flows -> hydraulics -> rules.
+
+``run(config)`` returns an :class:`audit.result.AuditResult` (GeoDataFrames, nothing written);
+``audit.outputs.write_outputs`` writes it. ``prepare(config)`` stops after the network and the
+slopes, for users who want the graph itself.
+"""
+
+from __future__ import annotations
+
+from dataclasses import asdict, dataclass
+from pathlib import Path
+
+import geopandas as gpd
+import numpy as np
+import pandas as pd
+from tqdm import tqdm
+
+from .config import Config, load_config
+from .findings import FindingLog
+from .flows import DesignFlows, design_flows
+from .friction import Friction
+from .hydraulics import FlowState, FlowStatus, normal_depth
+from .layers import Layers, read_layers
+from .network import Network, build_network, pipe_labels
+from .result import PIPE_COLUMNS, AuditResult
+from .rules import check_pipes
+from .sections import PipeSections
+from .slopes import derive_levels
+from ._assemble import finding_points, manhole_output, network_totals, with_columns
+
+STAGES = ("reading layers", "building the network", "slopes", "design flows", "hydraulics", "rules", "assembling")
+
+# hydraulic statuses as the rules stage reads them: a flow above full bore still has a normal
+# depth (the load-ratio rules judge it); zero flow and an unknown shape leave a check unrun.
+_RULE_STATUS = {FlowStatus.ABOVE_FULL_BORE: "ok", FlowStatus.ZERO_FLOW: "missing_flow", FlowStatus.UNKNOWN_SHAPE: "missing_size"}
+
+
+@dataclass(frozen=True, eq=False)
+class Prepared:
+    """The network ready for hydraulics: layers, graph, levels (SI) and the findings so far."""
+
+    config: Config
+    layers: Layers
+    network: Network
+    levels: pd.DataFrame
+    findings: FindingLog
+
+
+def prepare(config: Config | str | Path, *, progress: tqdm | None = None) -> Prepared:
+    """Read the layers, build the network and derive lengths, slopes and cover."""
+    config = config if isinstance(config, Config) else load_config(config)
+    findings = FindingLog()
+    _step(progress, 0)
+    layers = read_layers(config, findings)
+    pipes = layers.pipes.canonical
+    manholes = layers.manholes.canonical if layers.manholes is not None else None
+    _step(progress, 1)
+    network = build_network(
+        pipes, manholes, snap_tolerance_m=config.network.snap_tolerance_m, direction=config.network.direction, findings=findings
+    )
+    _step(progress, 2)
+    levels = derive_levels(
+        pipes,
+        network,
+        manholes,
+        length_tolerance_ratio=config.network.length_tolerance_ratio,
+        length_tolerance_m=config.network.length_tolerance_m,
+        findings=findings,
+    )
+    return Prepared(config, layers, network, levels, findings)
+
+
+def run(config: Config | str | Path, *, progress: bool = False) -> AuditResult:
+    """Audit the network a config describes; return every feature with its results."""
+    with tqdm(total=len(STAGES), desc="audit", unit="stage", disable=not progress, leave=False) as bar:
+        ready = prepare(config, progress=bar)
+        pipes, network = ready.layers.pipes.canonical, ready.network
+        _step(bar, 3)
+        flows = design_flows(
+            upstream=network.upstream,
+            downstream=network.downstream,
+            order=network.order,
+            in_cycle=network.in_cycle,
+            node_inflow=network.nodes["inflow"].to_numpy(dtype=float),
+            given_flow=pipes["flow"].to_numpy(dtype=float),
+            length=ready.levels["length_m"].to_numpy(dtype=float),
+            pipe_labels=pipe_labels(pipes),
+            node_labels=network.nodes["node_id"].to_numpy(dtype=object),
+            findings=ready.findings,
+        )
+        _step(bar, 4)
+        state = _hydraulics(ready, flows)
+        _step(bar, 5)
+        computed = _computed_columns(ready, flows, state)
+        checks = check_pipes(
+            _metrics(pipes, computed, state),
+            upstream=network.upstream,
+            downstream=network.downstream,
+            node_access=network.nodes["access"].to_numpy(dtype=bool),
+            settings=ready.config.rules,
+        )
+        _step(bar, 6)
+        return _result(ready, flows, computed.join(checks[["flags", "severity", "reasons", "access_run_m"]]))
+
+
+def _step(bar: tqdm | None, index: int) -> None:
+    if bar is not None:
+        bar.set_description(STAGES[index])
+        bar.n = index
+        bar.refresh()
+
+
+def pipe_sizes(pipes: pd.DataFrame) -> tuple[np.ndarray, np.ndarray]:
+    """Height and width [m] per pipe from the canonical sizes, by shape.
+
+    Circular: the diameter, else the height or width. Egg: the height, else 1.5 x the width.
+    Rectangular and tabulated: the height and width as given (width = height if missing).
+    """
+    shape = pipes["shape"].to_numpy(dtype=object)
+    diameter, height, width = (pipes[name].to_numpy(dtype=float) for name in ("diameter", "height", "width"))
+    round_size = np.where(np.isfinite(diameter), diameter, np.where(np.isfinite(height), height, width))
+    egg_height = np.where(np.isfinite(height), height, 1.5 * width)
+    other_width = np.where(np.isfinite(width), width, height)
+    circular, egg = shape == "circular", shape == "egg"
+    out_height = np.select([circular, egg], [round_size, egg_height], height)
+    out_width = np.select([circular, egg], [round_size, egg_height / 1.5], other_width)
+    return out_height, out_width
+
+
+def _hydraulics(ready: Prepared, flows: DesignFlows) -> FlowState:
+    """Normal depth of the design flow in every pipe, with the config's friction formula."""
+    pipes, options = ready.layers.pipes.canonical, ready.config.hydraulics
+    height, width = pipe_sizes(pipes)
+    sections = PipeSections.from_names(pipes["shape"].to_numpy(dtype=object), height, width)
+    default = options.manning_n if options.formula == "manning" else options.ks_mm
+    roughness = pipes["roughness"].to_numpy(dtype=float)
+    friction = Friction.uniform(options.formula, default, len(pipes), temperature_c=options.water_temp_c)  # type: ignore[arg-type]
+    friction = Friction(friction.formula, np.where(np.isfinite(roughness), roughness, default), friction.kinematic_viscosity)
+    slope = ready.levels["slope"].to_numpy(dtype=float)
+    return normal_depth(flows.q_design, sections, slope, friction, temperature_c=options.water_temp_c)
+
+
+def _computed_columns(ready: Prepared, flows: DesignFlows, state: FlowState) -> pd.DataFrame:
+    """The computed pipe columns of ``PIPE_COLUMNS`` (all but the rule results)."""
+    levels, network = ready.levels, ready.network
+    node_ids = network.nodes["node_id"].to_numpy(dtype=object)
+    status = np.array([FlowStatus(code).label for code in range(len(FlowStatus))], dtype=object)[state.status]
+    height, _ = pipe_sizes(ready.layers.pipes.canonical)
+    columns = {
+        "height_m": height,
+        "length_m": levels["length_m"],
+        "slope": levels["slope"],
+        "up_invert_m": levels["up_invert"],
+        "down_invert_m": levels["down_invert"],
+        "up_cover_m": levels["up_cover"],
+        "down_cover_m": levels["down_cover"],
+        "q_full": state.q_full,
+        "v_full": state.v_full,
+        "q_design": flows.q_design,
+        "flow_source": flows.source.astype(object),
+        "load_ratio": flows.q_design / state.q_full,
+        "depth_ratio": state.depth_ratio,
+        "v_design": state.velocity,
+        "shear": state.shear,
+        "hydraulic_status": status,
+        "from_node_id": np.where(network.upstream >= 0, node_ids[np.maximum(network.upstream, 0)], None),
+        "to_node_id": np.where(network.downstream >= 0, node_ids[np.maximum(network.downstream, 0)], None),
+        "upstream_length_m": flows.upstream_length,
+    }
+    return pd.DataFrame(columns, index=ready.layers.pipes.canonical.index)
+
+
+def _metrics(pipes: pd.DataFrame, computed: pd.DataFrame, state: FlowState) -> pd.DataFrame:
+    """The frame the rules read (``audit.rules.METRIC_COLUMNS``)."""
+    rule_status = computed["hydraulic_status"].to_numpy(dtype=object).copy()
+    for code, label in _RULE_STATUS.items():
+        rule_status[state.status == code] = label
+    height, _ = pipe_sizes(pipes)
+    return pd.DataFrame(
+        {
+            "pipe_id": pipe_labels(pipes),
+            "shape": pipes["shape"].to_numpy(dtype=object),
+            "diameter": np.where(pipes["shape"] == "circular", height, np.nan),
+            "height": height,
+            "length_m": computed["length_m"],
+            "slope": computed["slope"],
+            "q_full": computed["q_full"],
+            "q_design": computed["q_design"],
+            "load_ratio": computed["load_ratio"],
+            "depth_ratio": computed["depth_ratio"],
+            "v_design": computed["v_design"],
+            "shear": computed["shear"],
+            "up_cover": computed["up_cover_m"],
+            "down_cover": computed["down_cover_m"],
+            "upstream_invert": computed["up_invert_m"],
+            "downstream_invert": computed["down_invert_m"],
+            "hydraulic_status": rule_status,
+            "flow_status": computed["flow_source"],
+        },
+        index=computed.index,
+    )
+
+
+def _result(ready: Prepared, flows: DesignFlows, computed: pd.DataFrame) -> AuditResult:
+    """Put the computed columns beside the original features and gather the totals."""
+    layers, config = ready.layers, ready.config
+    crs = layers.pipes.original.crs or config.pipes.crs
+    pipes = with_columns(layers.pipes.original, computed[list(PIPE_COLUMNS)], ready.findings, layer="pipes")
+    manholes = manhole_output(layers, ready.network, flows.node_total, ready.findings) if layers.manholes is not None else None
+    findings = finding_points(ready.findings, source_crs=layers.crs, target_crs=crs)
+    inputs = tuple(dict.fromkeys(source.path for source in (config.pipes, config.manholes) if source is not None))
+    settings = {"hydraulics": asdict(config.hydraulics), "network": asdict(config.network), "working_crs": layers.crs.to_string()}
+    return AuditResult(
+        pipes=gpd.GeoDataFrame(pipes, geometry=layers.pipes.original.geometry.name, crs=crs),
+        manholes=manholes,
+        findings=findings,
+        rules=config.rules,
+        settings=settings,
+        totals=network_totals(layers, ready.network, computed),
+        missing_fields=layers.missing_fields,
+        inputs=inputs,
+        config_path=config.source,
+    )
