@@ -2,6 +2,7 @@
 
 from pathlib import Path
 
+import numpy as np
 import pytest
 
 from audit._errors import ConfigError
@@ -70,8 +71,8 @@ snap_tolerance_m = 0.25
 formula = "colebrook-white"
 ks_mm = 0.6
 [rules]
-min_velocity_m_s = 0.6
-by_diameter = [{diameter_mm = 150, min_slope = 0.0067}]
+min_velocity = 0.7
+min_slope = [[150, 0.0067], [225, 0.004]]
 """
 
 
@@ -92,14 +93,23 @@ def test_full_config_is_read_into_frozen_dataclasses(tmp_path: Path) -> None:
         config.network.direction = "ids"  # type: ignore[misc]
 
 
-def test_rules_table_is_kept_raw_and_read_only(tmp_path: Path) -> None:
-    rules = load_config(_write(tmp_path, FULL)).rules_table
-    assert rules["min_velocity_m_s"] == 0.6
-    assert rules["by_diameter"][0]["diameter_mm"] == 150
+def test_rules_are_parsed_at_load_and_the_raw_table_is_read_only(tmp_path: Path) -> None:
+    config = load_config(_write(tmp_path, FULL))
+    assert config.rules.min_velocity == 0.7
+    assert config.rules.min_slope is not None
+    assert list(config.rules.min_slope.lookup(np.array([0.15, 0.2, 0.3]))) == [0.0067, 0.0067, 0.004]
+    rules = config.rules_table
+    assert rules["min_velocity"] == 0.7
     with pytest.raises(TypeError):
-        rules["min_velocity_m_s"] = 1.0  # type: ignore[index]
+        rules["min_velocity"] = 1.0  # type: ignore[index]
     with pytest.raises(TypeError):
-        rules["by_diameter"][0]["min_slope"] = 0.0  # type: ignore[index]
+        rules["min_slope"][0][1] = 0.0  # type: ignore[index]
+
+
+def test_a_misspelt_rule_fails_at_load_naming_file_and_key(tmp_path: Path) -> None:
+    path = _write(tmp_path, '[pipes]\npath = "a.gpkg"\n[rules]\nmax_velocty = 2.5\n')
+    with pytest.raises(ConfigError, match=r"town.toml: rules.max_velocty: unknown key \(did you mean 'max_velocity'\?\)"):
+        load_config(path)
 
 
 P = '[pipes]\npath = "a.gpkg"\n'
