@@ -2,6 +2,11 @@
 
 The package is a chain of plain stages (see DEVELOPERS.md):
 config -> layers -> network -> design flows -> hydraulics -> rules -> outputs.
+
+>>> import audit
+>>> result = audit.run("sample_gis/town.toml")   # doctest: +SKIP
+>>> result.pipes[["flags", "load_ratio"]]        # doctest: +SKIP
+
 Results are a screening aid; local codes and a licensed engineer's judgement govern.
 """
 
@@ -12,4 +17,6 @@ try:
 except PackageNotFoundError:  # running from a source tree that was never installed
     __version__ = "0.0.0+unknown"
 
-__all__ = ["__version__"]
+from .pipeline import prepare, run  # noqa: E402  (the version is needed by later imports)
+
+__all__ = ["__version__", "prepare", "run"]

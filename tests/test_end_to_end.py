@@ -1,0 +1,163 @@
+"""The audit from a config to flags and numbers, checked against an independent computation.
+
+The small network is built here. Its expected numbers come from Manning's formula and the
+circle's geometry written out in this file (Chow 1959), with scipy.optimize.brentq as the root
+solver, and from the default rule values of docs/rules.md; none comes from the project's own
+hydraulics.
+"""
+
+from pathlib import Path
+
+import geopandas as gpd
+import numpy as np
+import pytest
+import shapely
+from scipy.optimize import brentq
+
+from audit.pipeline import run
+
+N = 0.013
+RHO_15C = 999.10  # kg/m3 at 15 C, to 5 figures (Tanaka et al. 2001, from memory)
+G = 9.80665
+
+# manholes: id, x, y, rim [m], inflow [l/s]
+MANHOLES = [
+    ("A", 0.0, 0.0, 20.0, 10.0),
+    ("B", 60.0, 0.0, 19.8, 5.0),
+    ("C", 120.0, 0.0, 19.5, 20.0),
+    ("D", 160.0, 0.0, 19.0, 0.0),
+    ("E", 240.0, 0.0, 18.5, 0.0),
+    ("F", 60.0, 40.0, 20.5, 0.5),
+]
+# pipes: id, from, to, diameter [mm], upstream invert, downstream invert [m]
+PIPES = [
+    ("P1", "A", "B", 300, 18.00, 17.52),  # 0.8 %: an ordinary pipe, no flag
+    ("P2", "B", "C", 300, 17.40, 17.46),  # rises 0.06 m: reverse grade
+    ("P3", "C", "D", 150, 17.30, 17.26),  # 0.1 %, 150 mm after 300 mm, overloaded
+    ("P4", "D", "E", 300, 17.20, 5.20),  # 15 %: too fast
+    ("P5", "F", "B", 200, 18.80, 18.60),  # 0.5 %, 0.5 l/s: silts
+]
+# loads add up down the tree: P5 = F; P1 = A; P2 = A + B + F; P3 = P2 + C; P4 = P3 + D
+DESIGN_FLOW_LS = {"P1": 10.0, "P2": 15.5, "P3": 35.5, "P4": 35.5, "P5": 0.5}
+EXPECTED_FLAGS = {
+    "P1": set(),
+    "P2": {"reverse_grade"},
+    "P3": {"surcharge", "below_min_diameter", "diameter_decrease"},
+    "P4": {"high_velocity"},
+    "P5": {"silting"},
+}
+
+
+def write_town(folder: Path, driver: str, suffix: str) -> Path:
+    """Write the pipes and manholes with the given OGR driver, and a config that maps them."""
+    xy = {name: (x, y) for name, x, y, _, _ in MANHOLES}
+    manholes = gpd.GeoDataFrame(
+        {"MH": [m[0] for m in MANHOLES], "COVER": [m[3] for m in MANHOLES], "LOAD_LS": [m[4] for m in MANHOLES]},
+        geometry=[shapely.Point(m[1], m[2]) for m in MANHOLES],
+        crs="EPSG:32630",
+    )
+    pipes = gpd.GeoDataFrame(
+        {
+            "REF": [p[0] for p in PIPES],
+            "US_MH": [p[1] for p in PIPES],
+            "DS_MH": [p[2] for p in PIPES],
+            "DIA": [p[3] for p in PIPES],
+            "IL_US": [p[4] for p in PIPES],
+            "IL_DS": [p[5] for p in PIPES],
+            "Remarks": ["survey 1998", None, "CCTV: roots", None, "note with spaces"],
+        },
+        geometry=[shapely.LineString([xy[p[1]], xy[p[2]]]) for p in PIPES],
+        crs="EPSG:32630",
+    )
+    pipes.to_file(folder / f"pipes{suffix}", driver=driver)
+    manholes.to_file(folder / f"manholes{suffix}", driver=driver)
+    config = folder / "town.toml"
+    config.write_text(
+        f"""
+[pipes]
+path = "pipes{suffix}"
+[pipes.fields]
+id = "REF"
+from_node = "US_MH"
+to_node = "DS_MH"
+diameter = "DIA"
+upstream_invert = "IL_US"
+downstream_invert = "IL_DS"
+[manholes]
+path = "manholes{suffix}"
+[manholes.fields]
+id = "MH"
+rim = "COVER"
+inflow = "LOAD_LS"
+[hydraulics]
+formula = "manning"
+manning_n = {N}
+""",
+        encoding="utf-8",
+    )
+    return config
+
+
+def independent_hydraulics(diameter: float, slope: float, q: float) -> dict[str, float]:
+    """Full-bore capacity, normal depth, velocity and shear of a circular pipe, by hand."""
+    full_area, full_radius = np.pi * diameter**2 / 4, diameter / 4
+    q_full = full_area * full_radius ** (2 / 3) * slope**0.5 / N
+
+    def area(theta: float) -> float:
+        return diameter**2 / 8 * (theta - np.sin(theta))
+
+    def excess(theta: float) -> float:
+        return area(theta) * (area(theta) / (diameter * theta / 2)) ** (2 / 3) * slope**0.5 / N - q
+
+    theta_peak = 2 * np.arccos(1 - 2 * 0.9382)  # y/D of peak discharge (common practice, no source)
+    if excess(theta_peak) < 0:
+        return {"q_full": q_full, "depth_ratio": 1.0, "v_design": q / full_area, "shear": RHO_15C * G * full_radius * slope}
+    theta = brentq(excess, 1e-9, theta_peak, xtol=1e-14)
+    radius = area(theta) / (diameter * theta / 2)
+    return {
+        "q_full": q_full,
+        "depth_ratio": (1 - np.cos(theta / 2)) / 2,
+        "v_design": q / area(theta),
+        "shear": RHO_15C * G * radius * slope,
+    }
+
+
+@pytest.mark.parametrize(("driver", "suffix"), [("GPKG", ".gpkg"), ("ESRI Shapefile", ".shp")])
+def test_flags_and_numbers_match_an_independent_computation(tmp_path: Path, driver: str, suffix: str) -> None:
+    result = run(write_town(tmp_path, driver, suffix))
+    pipes = result.pipes.set_index("REF")
+    for ref, _, _, diameter_mm, up_invert, down_invert in PIPES:
+        row = pipes.loc[ref]
+        length = float(shapely.length(row.geometry))
+        slope = (up_invert - down_invert) / length
+        assert row["slope"] == pytest.approx(slope, rel=1e-12)
+        assert row["q_design"] == pytest.approx(DESIGN_FLOW_LS[ref] / 1000, rel=1e-12)
+        assert set(filter(None, row["flags"].split(";"))) == EXPECTED_FLAGS[ref], ref
+        if slope <= 0:
+            assert np.isnan(row["q_full"]) and np.isnan(row["v_design"])
+            assert row["hydraulic_status"] == "nonpositive_slope"
+            continue
+        expected = independent_hydraulics(diameter_mm / 1000, slope, DESIGN_FLOW_LS[ref] / 1000)
+        for name, value in expected.items():
+            tolerance = 1e-5 if name == "shear" else 1e-6  # the density above has 5 figures
+            assert row[name] == pytest.approx(value, rel=tolerance), (ref, name)
+        assert row["load_ratio"] == pytest.approx(DESIGN_FLOW_LS[ref] / 1000 / expected["q_full"], rel=1e-6)
+    assert pipes.loc["P3", "severity"] == "high" and pipes.loc["P2", "severity"] == "high"
+    assert pipes.loc["P1", "severity"] == ""
+    assert result.totals["outfalls"] == 1 and result.totals["pipes"] == 5
+    # the reasons carry the numbers: P3's load ratio by hand
+    p3 = independent_hydraulics(0.15, 0.04 / 40.0, 0.0355)
+    assert f"load ratio {0.0355 / p3['q_full']:.2f}" in pipes.loc["P3", "reasons"]
+
+
+def test_every_input_feature_and_field_comes_back_unchanged(tmp_path: Path) -> None:
+    config = write_town(tmp_path, "ESRI Shapefile", ".shp")
+    original = gpd.read_file(tmp_path / "pipes.shp")
+    result = run(config)
+    assert len(result.pipes) == len(original)
+    for column in original.columns:
+        if column == "geometry":
+            assert result.pipes.geometry.geom_equals_exact(original.geometry, tolerance=0).all()
+        else:
+            assert result.pipes[column].equals(original[column]), column
+    assert result.pipes.crs == original.crs
