@@ -3,9 +3,8 @@
 The package is a chain of plain stages (see DEVELOPERS.md):
 config -> layers -> network -> design flows -> hydraulics -> rules -> outputs.
 
->>> import audit
->>> result = audit.run("sample_gis/town.toml")   # doctest: +SKIP
->>> result.pipes[["flags", "load_ratio"]]        # doctest: +SKIP
+In Python: ``result = audit.run("sample_gis/town.toml")`` gives GeoDataFrames such as
+``result.pipes[["flags", "load_ratio"]]``; ``audit.prepare(config)`` stops after the network.
 
 Results are a screening aid; local codes and a licensed engineer's judgement govern.
 """
