@@ -220,4 +220,5 @@ def _result(ready: Prepared, flows: DesignFlows, computed: pd.DataFrame) -> Audi
         missing_fields=layers.missing_fields,
         inputs=inputs,
         config_path=config.source,
+        canonical_pipes=pd.DataFrame(layers.pipes.canonical.drop(columns="geometry")),
     )

@@ -13,6 +13,7 @@ from pathlib import Path
 from typing import Any
 
 import geopandas as gpd
+import pandas as pd
 
 from .rules import RuleSettings
 
@@ -73,3 +74,4 @@ class AuditResult:
     missing_fields: Mapping[str, tuple[str, ...]]  # per layer, canonical fields with no mapping
     inputs: tuple[Path, ...]  # the input files (never written)
     config_path: Path | None  # the config file the audit ran from
+    canonical_pipes: pd.DataFrame | None = None  # the canonical SI pipe columns (DEVELOPERS.md), same order
