@@ -16,7 +16,7 @@ from audit import outputs
 from audit._errors import AuditError, OutputExistsError
 from audit.outputs import CAUTION, print_summary_table, rank_candidates, write_outputs
 from audit.result import FINDING_COLUMNS, MANHOLE_COLUMNS, PIPE_COLUMNS, AuditResult
-from audit.rules import RSWF_MAX_SPACING, RuleSettings
+from audit.rules import RuleSettings
 
 CRS = "EPSG:27700"
 ORIGINAL = ["Pipe ID", "DIAM_MM_10", "Up Level", "note", "laid", "isPublic", "fid", "geom"]
@@ -253,9 +253,10 @@ def test_summary_header_rules_settings_and_nan_as_null(tmp_path: Path) -> None:
     assert summary["settings"] == {"formula": "manning", "snap_tolerance_m": 0.5, "unset": None}
     assert summary["missing_fields"] == {"pipes": ["flow"], "manholes": []}
     rules = summary["rules"]
+    # Source: Recommended Standards for Wastewater Facilities, 400 ft up to 15 in, 500 ft from 18 in
+    # (from memory): 400 ft = 121.92 m, 500 ft = 152.4 m
     assert rules["max_spacing_m"] == [[0.0, 121.92], [457.0, 152.4]]  # type: ignore[index]
     assert rules["min_slope"] is None and rules["severity"]["surcharge"] == "high"  # type: ignore[index]
-    assert RSWF_MAX_SPACING.values == (121.92, 152.4)
 
 
 def _ranking_frame() -> pd.DataFrame:
