@@ -1,7 +1,12 @@
 """The command line's help and exit codes."""
 
+import json
+from pathlib import Path
+
+import geopandas as gpd
 import pytest
 
+from _small_town import write_town
 from audit import cli
 
 
@@ -18,3 +23,63 @@ def test_unknown_command_is_a_usage_error() -> None:
     with pytest.raises(SystemExit) as stop:
         cli.main(["frobnicate"])
     assert stop.value.code == cli.EXIT_USAGE
+
+
+def _town(tmp_path: Path, driver: str = "GPKG", suffix: str = ".gpkg") -> Path:
+    data = tmp_path / "data"
+    data.mkdir()
+    return write_town(data, driver, suffix)
+
+
+@pytest.mark.parametrize(("driver", "suffix"), [("GPKG", ".gpkg"), ("ESRI Shapefile", ".shp")])
+def test_run_writes_layers_that_hand_back_every_feature_and_field(tmp_path: Path, driver: str, suffix: str) -> None:
+    config = _town(tmp_path, driver, suffix)
+    before = {path.name: path.read_bytes() for path in config.parent.iterdir()}
+    assert cli.main(["run", str(config), "-o", str(tmp_path / "out"), "-q"]) == cli.EXIT_OK
+    assert {path.name: path.read_bytes() for path in config.parent.iterdir()} == before
+    original = gpd.read_file(config.parent / f"pipes{suffix}")
+    written = gpd.read_file(tmp_path / "out" / "audit.gpkg", layer="pipes")
+    assert len(written) == len(original)
+    for column in original.columns.drop("geometry"):
+        assert written[column].equals(original[column]), column
+    assert written.geometry.geom_equals_exact(original.geometry, tolerance=0).all()
+    assert written.crs == original.crs
+    assert set(written.loc[written["REF"] == "P3", "flags"].iloc[0].split(";")) == {"surcharge", "below_min_diameter", "diameter_decrease"}
+    manholes = gpd.read_file(tmp_path / "out" / "audit.gpkg", layer="manholes")
+    assert len(manholes) == 6 and manholes.loc[manholes["MH"] == "E", "pipes_in"].iloc[0] == 1
+    summary = json.loads((tmp_path / "out" / "summary.json").read_text())
+    assert summary["flags"]["surcharge"]["pipes"] == 1
+    assert "licensed engineer" in summary["caution"]
+
+
+def test_exit_codes_for_scripts(tmp_path: Path, capsys: pytest.CaptureFixture[str]) -> None:
+    config = _town(tmp_path)
+    out = tmp_path / "out"
+    assert cli.main(["run", str(config), "-o", str(out), "-q", "--fail-on", "high"]) == cli.EXIT_FLAGGED
+    # the folder now holds our files: refused without --overwrite, nothing replaced
+    stamp = (out / "summary.json").stat().st_mtime_ns
+    assert cli.main(["run", str(config), "-o", str(out), "-q"]) == cli.EXIT_USAGE
+    assert "--overwrite" in capsys.readouterr().err
+    assert (out / "summary.json").stat().st_mtime_ns == stamp
+    assert cli.main(["run", str(config), "-o", str(out), "-q", "--overwrite"]) == cli.EXIT_OK
+    # a bad config: exit 1 with the file and key named, no traceback
+    bad = tmp_path / "bad.toml"
+    bad.write_text('[pipes]\npath = "data/pipes.gpkg"\n[hydraulics]\nformula = "darcy"\n', encoding="utf-8")
+    capsys.readouterr()
+    assert cli.main(["run", str(bad), "-o", str(tmp_path / "o2")]) == cli.EXIT_BAD_INPUT
+    error = capsys.readouterr().err
+    assert "bad.toml" in error and "hydraulics.formula" in error and "Traceback" not in error
+    # a mapped field that the layer does not have: exit 1 naming the field
+    config.write_text(config.read_text().replace('diameter = "DIA"', 'diameter = "BORE"'), encoding="utf-8")
+    assert cli.main(["run", str(config), "-o", str(tmp_path / "o3")]) == cli.EXIT_BAD_INPUT
+    assert "BORE" in capsys.readouterr().err
+    with pytest.raises(SystemExit) as stop:
+        cli.main(["run", str(config)])
+    assert stop.value.code == cli.EXIT_USAGE
+
+
+def test_demo_runs_on_the_bundled_town_and_prints_a_table(tmp_path: Path, capsys: pytest.CaptureFixture[str]) -> None:
+    assert cli.main(["demo", "-o", str(tmp_path / "demo")]) == cli.EXIT_OK
+    text = capsys.readouterr().out
+    assert "surcharge" in text and "audit.gpkg" in text and "licensed engineer" in text
+    assert {path.name for path in (tmp_path / "demo").iterdir()} >= {"audit.gpkg", "summary.json", "candidates.csv"}
