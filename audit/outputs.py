@@ -51,6 +51,7 @@ __all__ = ["CAUTION", "OUTPUT_FILES", "print_summary_table", "rank_candidates", 
 #: The files the outputs stage writes, by role.
 OUTPUT_FILES: Mapping[str, str] = {"geopackage": "audit.gpkg", "summary": "summary.json", "candidates": "candidates.csv"}
 
+CANONICAL_FOR_CANDIDATES = ("pipe_id", "shape", "diameter", "height", "install_year", "material")
 _ID_NAMES = ("fid", "gpkg_fid", "feature_fid")
 _GEOMETRY_NAMES = ("geom", "geometry", "feature_geom")
 _ARROW_ERRORS = (pa.ArrowException, TypeError)
@@ -97,7 +98,7 @@ def write_outputs(
             summary = build_summary(result, pipes=result.pipes, findings=findings)
             write_summary(summary, temp["summary"])
             bar.update()
-            write_candidates(rank_candidates(result.pipes, include_low=include_low), temp["candidates"])
+            write_candidates(rank_candidates(_with_canonical(result), include_low=include_low), temp["candidates"])
             bar.update()
     return targets
 
@@ -132,6 +133,16 @@ def safe_field_names(columns: list[Hashable]) -> dict[str, str]:
         renamed[name] = f"{name}_{suffix}"
         taken.add(renamed[name].casefold())
     return renamed
+
+
+def _with_canonical(result: AuditResult) -> pd.DataFrame:
+    """The pipes with the canonical id, shape, size, year and material in place of same-named fields."""
+    if result.canonical_pipes is None:
+        return result.pipes
+    wanted = [name for name in CANONICAL_FOR_CANDIDATES if name in result.canonical_pipes.columns]
+    canonical = result.canonical_pipes[wanted].reset_index(drop=True)
+    computed = pd.DataFrame(result.pipes.drop(columns=wanted, errors="ignore")).reset_index(drop=True)
+    return pd.concat([computed, canonical], axis=1)
 
 
 def _optional(path: Path | None) -> tuple[Path, ...]:

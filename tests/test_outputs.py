@@ -319,3 +319,15 @@ def test_summary_table() -> None:
     assert "data findings: 9" in lines
     assert "geopackage: out/audit.gpkg" in lines
     assert lines[-1] == CAUTION
+
+
+def test_candidates_take_ids_sizes_and_materials_from_the_canonical_columns(tmp_path: Path) -> None:
+    canonical = pd.DataFrame({
+        "pipe_id": ["P1", "P2", "P3", "P4"], "shape": ["circular", "circular", "egg", "rectangular"],
+        "diameter": [0.225, 0.3, np.nan, np.nan], "height": [0.225, 0.3, 0.9, 1.2],
+        "install_year": [1968.0, np.nan, 2001.0, 1985.0], "material": ["clay", None, "concrete", "brick"],
+    })  # fmt: skip
+    with _written(tmp_path, canonical_pipes=canonical)["candidates"].open(encoding="utf-8", newline="") as handle:
+        rows = list(csv.DictReader(handle))
+    picked = [[row[name] for name in ("pipe_id", "diameter_mm", "install_year", "material")] for row in rows]
+    assert picked == [["P1", "225.0", "1968.0", "clay"], ["P4", "1200.0", "1985.0", "brick"]]
