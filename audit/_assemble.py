@@ -20,10 +20,12 @@ COMPUTED_PREFIX = "audit_"
 def with_columns(original: gpd.GeoDataFrame, computed: pd.DataFrame, findings: FindingLog, *, layer: str) -> pd.DataFrame:
     """The original features unchanged, followed by the computed columns.
 
-    A computed column whose name the user's layer already uses is written as ``audit_<name>``
-    so that no original field is ever overwritten; a finding says so.
+    A computed column whose name the user's layer already uses (ignoring case, as GeoPackage
+    does) is written as ``audit_<name>`` so that no original field is ever overwritten; a
+    finding says so. ``AuditResult.computed`` keeps the documented names.
     """
-    clashes = [name for name in computed.columns if name in original.columns]
+    taken = {str(name).casefold() for name in original.columns}
+    clashes = [name for name in computed.columns if name.casefold() in taken]
     if clashes:
         computed = computed.rename(columns={name: COMPUTED_PREFIX + name for name in clashes})
         findings.add_many(layer, ["*"] * len(clashes), "field_renamed", [f"the layer already has a field {name!r}; the computed one is written as {COMPUTED_PREFIX + name!r}" for name in clashes])

@@ -20,14 +20,9 @@ import numpy as np
 import pandas as pd
 
 from audit import __version__
-from audit.result import AuditResult
+from audit.result import CAUTION, AuditResult
 from audit.rules import FLAG_CODES, SEVERITY_ORDER, DiameterTable, RuleSettings
 
-#: Said by every output: what the results are and what they are not.
-CAUTION = (
-    "Screening aid only: these are uniform-flow checks against configurable design rules, not a "
-    "calibrated model; local codes and a licensed engineer's judgement govern."
-)
 
 #: Feature ids listed per finding code in summary.json.
 EXAMPLES_PER_CODE = 5
@@ -142,7 +137,7 @@ def json_safe(value: Any) -> Any:
 
 def print_summary_table(result: AuditResult, paths: Mapping[str, Path], *, file: TextIO) -> None:
     """Print the flags (code, severity, pipes, length [km]), the findings count, the outputs and the caution."""
-    table = flag_totals(result.pipes, rules=result.rules)
+    table = flag_totals(result.pipe_results, rules=result.rules)
     width = max([len("flag"), *map(len, table.index)])
     lines = [f"{'flag':<{width}}  {'severity':<8}  {'pipes':>8}  {'length km':>10}"]
     for code, row in table.iterrows():

@@ -17,6 +17,7 @@ from pathlib import Path
 
 from . import __version__
 from ._errors import AuditError, InputError, OutputExistsError
+from .result import CAUTION
 from .rules import SEVERITY_ORDER, worst_severity_at_least
 
 EXIT_OK = 0
@@ -24,10 +25,6 @@ EXIT_BAD_INPUT = 1
 EXIT_USAGE = 2
 EXIT_FLAGGED = 3
 
-CAUTION = (
-    "Screening aid only: results are uniform-flow checks against configurable design rules. "
-    "They do not replace a calibrated model; local codes and a licensed engineer's judgement govern."
-)
 
 OUTPUTS_HELP = """\
 Writes into OUTDIR:
@@ -128,7 +125,7 @@ def _audit_command(args: argparse.Namespace) -> int:
     paths = write_outputs(result, Path(args.output), overwrite=args.overwrite, progress=show)
     if not args.quiet:
         print_summary_table(result, paths, file=sys.stdout)
-    if args.fail_on and worst_severity_at_least(result.pipes["severity"].to_numpy(dtype=object), args.fail_on).any():
+    if args.fail_on and worst_severity_at_least(result.pipe_results["severity"].to_numpy(dtype=object), args.fail_on).any():
         return EXIT_FLAGGED
     return EXIT_OK
 

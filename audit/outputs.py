@@ -95,7 +95,7 @@ def write_outputs(
     with tqdm(total=steps, desc="writing outputs", unit="part", file=sys.stderr, disable=not progress) as bar:
         with _staged(outdir, targets) as temp:
             _write_geopackage(temp["geopackage"], pipes=pipes, manholes=manholes, findings=findings, step=bar.update)
-            summary = build_summary(result, pipes=result.pipes, findings=findings)
+            summary = build_summary(result, pipes=result.pipe_results, findings=findings)
             write_summary(summary, temp["summary"])
             bar.update()
             write_candidates(rank_candidates(_with_canonical(result), include_low=include_low), temp["candidates"])
@@ -138,10 +138,10 @@ def safe_field_names(columns: list[Hashable]) -> dict[str, str]:
 def _with_canonical(result: AuditResult) -> pd.DataFrame:
     """The pipes with the canonical id, shape, size, year and material in place of same-named fields."""
     if result.canonical_pipes is None:
-        return result.pipes
+        return result.pipe_results
     wanted = [name for name in CANONICAL_FOR_CANDIDATES if name in result.canonical_pipes.columns]
     canonical = result.canonical_pipes[wanted].reset_index(drop=True)
-    computed = pd.DataFrame(result.pipes.drop(columns=wanted, errors="ignore")).reset_index(drop=True)
+    computed = pd.DataFrame(result.pipe_results.drop(columns=wanted, errors="ignore")).reset_index(drop=True)
     return pd.concat([computed, canonical], axis=1)
 
 
@@ -188,12 +188,20 @@ def _staged(outdir: Path, targets: Mapping[str, Path]) -> Iterator[dict[str, Pat
             os.close(handle)
             temp[role] = Path(name)
         yield temp
+        mode = 0o666 & ~_umask()  # mkstemp makes owner-only files; outputs are ordinary files
         for role, target in targets.items():
+            os.chmod(temp[role], mode)
             os.replace(temp[role], target)
     except _WRITE_ERRORS as error:
         raise AuditError(f"{outdir}: cannot write the outputs: {error}") from error
     finally:
         _remove(temp.values())
+
+
+def _umask() -> int:
+    current = os.umask(0)
+    os.umask(current)
+    return current
 
 
 def _remove(paths: Iterable[Path]) -> None:

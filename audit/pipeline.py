@@ -221,4 +221,5 @@ def _result(ready: Prepared, flows: DesignFlows, computed: pd.DataFrame) -> Audi
         inputs=inputs,
         config_path=config.source,
         canonical_pipes=pd.DataFrame(layers.pipes.canonical.drop(columns="geometry")),
+        computed=computed[list(PIPE_COLUMNS)],
     )

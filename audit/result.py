@@ -17,6 +17,12 @@ import pandas as pd
 
 from .rules import RuleSettings
 
+CAUTION = (
+    "Screening aid only: these are uniform-flow checks against configurable design rules, not a "
+    "calibrated model; local codes and a licensed engineer's judgement govern."
+)
+"""Said by every output, the README and the command line: what the results are and are not."""
+
 PIPE_COLUMNS: dict[str, str] = {
     "height_m": "internal height used [m]: the diameter of a circular pipe",
     "length_m": "pipe length used [m]: the length attribute, else the drawn length",
@@ -75,3 +81,13 @@ class AuditResult:
     inputs: tuple[Path, ...]  # the input files (never written)
     config_path: Path | None  # the config file the audit ran from
     canonical_pipes: pd.DataFrame | None = None  # the canonical SI pipe columns (DEVELOPERS.md), same order
+    computed: pd.DataFrame | None = None  # PIPE_COLUMNS under their documented names, same order
+
+    @property
+    def pipe_results(self) -> pd.DataFrame:
+        """The computed pipe columns under their documented names.
+
+        In ``pipes`` a computed column whose name the user's layer already uses is written as
+        ``audit_<name>``; read results from here to be sure of getting the computed value.
+        """
+        return self.pipes if self.computed is None else self.computed

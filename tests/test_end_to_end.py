@@ -83,3 +83,18 @@ def test_every_input_feature_and_field_comes_back_unchanged(tmp_path: Path) -> N
         else:
             assert result.pipes[column].equals(original[column]), column
     assert result.pipes.crs == original.crs
+
+
+def test_a_user_field_named_like_a_result_is_kept_and_the_result_renamed(tmp_path: Path) -> None:
+    config = write_town(tmp_path, "GPKG", ".gpkg")
+    pipes = gpd.read_file(tmp_path / "pipes.gpkg")
+    pipes["Slope"] = "as surveyed"
+    pipes["flags"] = 7
+    pipes.to_file(tmp_path / "pipes.gpkg", driver="GPKG")
+    result = run(config)
+    assert result.pipes["Slope"].eq("as surveyed").all() and result.pipes["flags"].eq(7).all()
+    assert "audit_slope" in result.pipes.columns and "audit_flags" in result.pipes.columns
+    p2 = result.pipe_results.loc[result.pipes["REF"] == "P2"].iloc[0]
+    assert p2["flags"] == "reverse_grade" and p2["slope"] < 0
+    renamed = result.findings[result.findings["code"] == "field_renamed"]
+    assert len(renamed) == 2 and renamed["message"].str.contains("audit_slope").any()

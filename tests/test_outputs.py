@@ -331,3 +331,16 @@ def test_candidates_take_ids_sizes_and_materials_from_the_canonical_columns(tmp_
         rows = list(csv.DictReader(handle))
     picked = [[row[name] for name in ("pipe_id", "diameter_mm", "install_year", "material")] for row in rows]
     assert picked == [["P1", "225.0", "1968.0", "clay"], ["P4", "1200.0", "1985.0", "brick"]]
+
+
+def test_outputs_are_ordinary_readable_files(tmp_path: Path) -> None:
+    from _small_town import write_town
+
+    from audit.outputs import write_outputs
+    from audit.pipeline import run
+
+    data = tmp_path / "data"
+    data.mkdir()
+    paths = write_outputs(run(write_town(data, "GPKG", ".gpkg")), tmp_path / "out")
+    for path in paths.values():
+        assert path.stat().st_mode & 0o044 == 0o044, path  # group and others may read (umask 022)
