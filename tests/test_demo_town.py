@@ -1,0 +1,64 @@
+"""The audit finds every error planted in the invented demo town (sample_gis/ERRORS.md)."""
+
+from pathlib import Path
+
+import pytest
+
+import audit
+
+SAMPLE = Path(__file__).resolve().parent.parent / "sample_gis"
+
+# planted error (ERRORS.md code) -> the pipe flag or the data finding that must report it
+FLAG_FOR = {
+    "long_access_run": "long_spacing",
+    "overloaded": "surcharge",
+    "silting": "silting",
+    "too_steep": "high_velocity",
+    "diameter_decrease": "diameter_decrease",
+    "shallow_cover": "shallow_cover",
+    "reverse_grade": "reverse_grade",
+    "flat_grade": "flat_grade",
+    "null_diameter": "missing_data",
+}
+FINDING_FOR = {
+    "sentinel_diameter": "sentinel_value",
+    "zero_diameter": "nonpositive_size",
+    "length_mismatch": "length_mismatch",
+    "duplicate_id": "duplicate_id",
+    "unknown_node": "unknown_node",
+    "orphan_manhole": "orphan_manhole",
+}
+
+
+def planted_errors() -> list[tuple[str, str, str]]:
+    """(code, layer, ref) rows of the ERRORS.md table."""
+    rows = []
+    for line in (SAMPLE / "ERRORS.md").read_text(encoding="utf-8").splitlines():
+        cells = [cell.strip() for cell in line.strip().strip("|").split("|")]
+        if len(cells) == 5 and cells[0] not in ("code", "---") and not set(cells[0]) <= {"-"}:
+            rows.append((cells[0], cells[1], cells[3]))
+    return rows
+
+
+@pytest.fixture(scope="module")
+def demo() -> audit.result.AuditResult:
+    return audit.run(SAMPLE / "town.toml")
+
+
+def test_the_error_list_is_read(demo: audit.result.AuditResult) -> None:
+    codes = {code for code, _, _ in planted_errors()}
+    assert codes >= set(FLAG_FOR) | set(FINDING_FOR) | {"digitised_backwards"}
+
+
+@pytest.mark.parametrize(("code", "layer", "ref"), planted_errors())
+def test_every_planted_error_is_reported(demo: audit.result.AuditResult, code: str, layer: str, ref: str) -> None:
+    if code in FINDING_FOR:
+        found = demo.findings[(demo.findings["feature"] == ref) & (demo.findings["layer"] == layer)]
+        assert FINDING_FOR[code] in set(found["code"]), (code, ref)
+        return
+    rows = demo.pipe_results[demo.pipes["asset_ref"] == ref]
+    if code == "digitised_backwards":  # the ids give the flow direction, whatever the drawing
+        assert (rows["from_node_id"] == demo.pipes.loc[rows.index, "mh_up"]).all()
+        return
+    flags = {flag for text in rows["flags"] for flag in text.split(";")}
+    assert FLAG_FOR[code] in flags, (code, ref, flags)
