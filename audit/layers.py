@@ -40,6 +40,7 @@ import shapely
 
 from ._errors import InputError
 from .config import MANHOLE_UNITS, PIPE_UNITS, SHAPES, Config, LayerSource
+from ._geometry import GEOMETRY_MESSAGES, clean_geometry
 from .findings import FindingLog
 from .units import to_si
 
@@ -236,53 +237,6 @@ def _report_ids(report: _Reporter, missing: np.ndarray, *, field: str | None) ->
                + uses.fillna(0).astype(int).astype(str) + " features")  # fmt: skip
 
 
-def _longest_parts(multi: np.ndarray) -> np.ndarray:
-    """The longest part of each multi-line, vectorised over all of them."""
-    parts, owner = shapely.get_parts(multi, return_index=True)
-    order = np.lexsort((-shapely.length(parts), owner))
-    _, first = np.unique(owner[order], return_index=True)
-    return parts[order][first]
-
-
-def _merge_lines(geometry: np.ndarray, multi: np.ndarray) -> np.ndarray:
-    """Merge multi-lines in place (directed) where they join; else keep their longest part.
-
-    Returns the mask of the multi-lines that did not join.
-    """
-    index = np.flatnonzero(multi)
-    merged = shapely.line_merge(geometry[index], directed=True)
-    joined = shapely.get_type_id(merged) == shapely.GeometryType.LINESTRING
-    geometry[index[joined]] = merged[joined]
-    geometry[index[~joined]] = _longest_parts(geometry[index[~joined]])
-    return np.isin(np.arange(len(geometry)), index[~joined])
-
-
-def _clean_geometry(geometry: np.ndarray, *, lines: bool) -> tuple[np.ndarray, dict[str, np.ndarray]]:
-    """2D LineStrings (pipes) or Points (manholes; a multi-point keeps its first point)."""
-    kinds = shapely.GeometryType
-    single, several = (kinds.LINESTRING, kinds.MULTILINESTRING) if lines else (kinds.POINT, kinds.MULTIPOINT)
-    geometry = shapely.force_2d(geometry)
-    kind = shapely.get_type_id(geometry)
-    empty = (kind < 0) | shapely.is_empty(geometry)
-    multi = (kind == several) & ~empty
-    flags = {"no_geometry": empty, "wrong_geometry_type": ~empty & ~np.isin(kind, [single, several])}
-    if lines:
-        flags["multipart_line"] = _merge_lines(geometry, multi)
-    else:
-        flags["multipart_point"] = multi & (shapely.get_num_geometries(geometry) > 1)
-        geometry[multi] = shapely.get_geometry(geometry[multi], 0)
-    geometry[empty | flags["wrong_geometry_type"]] = None
-    return geometry, flags
-
-
-GEOMETRY_MESSAGES = {
-    "no_geometry": "the feature has no geometry",
-    "wrong_geometry_type": "not of the layer's kind (lines for pipes, points for manholes); it is left out",
-    "multipart_line": "the parts of the line do not join into one line; the longest part is kept",
-    "multipart_point": "the manhole has several points; the first is kept",
-}
-
-
 def _report_geometry(report: _Reporter, flags: dict[str, np.ndarray], *, kinds: pd.Series) -> None:
     for code, mask in flags.items():
         shown = "the geometry is a " + kinds + ", " if code == "wrong_geometry_type" else ""
@@ -292,7 +246,7 @@ def _report_geometry(report: _Reporter, flags: dict[str, np.ndarray], *, kinds: 
 def _geometry(frame: gpd.GeoDataFrame, source_crs: pyproj.CRS, crs: pyproj.CRS, *, lines: bool) -> tuple[
     gpd.GeoSeries, dict[str, np.ndarray]
 ]:  # fmt: skip
-    geometry, flags = _clean_geometry(frame.geometry.to_numpy().copy(), lines=lines)
+    geometry, flags = clean_geometry(frame.geometry.to_numpy().copy(), lines=lines)
     series = gpd.GeoSeries(geometry, index=frame.index, crs=source_crs).to_crs(crs)
     return series, flags
 
