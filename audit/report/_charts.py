@@ -85,9 +85,9 @@ def part_full_chart(
     for name in reversed(list(CLASS_COLOURS)):
         chosen = shown & (classes == name)
         if chosen.any():
-            parts.append(element("path", d=dot_path_data(x[chosen], y[chosen]), stroke=CLASS_COLOURS[name], stroke_width=4, stroke_linecap="round", data_class=name))
+            parts.append(element("path", d=dot_path_data(x[chosen], y[chosen]), stroke=CLASS_COLOURS[name], stroke_width=6, stroke_linecap="round", stroke_opacity=0.85, data_class=name))
     parts.append(_curve_key(curves, x=plot.left + plot.width + 16, y=plot.top + 20))
-    return svg("".join(parts), width=plot.left + plot.width + 150, height=plot.top + plot.height + 48, title="Load ratio against depth ratio")
+    return svg("".join(parts), width=plot.left + plot.width + 190, height=plot.top + plot.height + 48, title="Load ratio against depth ratio")
 
 
 def _curve_key(curves: Mapping[str, tuple[Array, Array]], *, x: float, y: float) -> str:

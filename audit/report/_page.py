@@ -51,6 +51,7 @@ svg{max-width:100%;height:auto;display:block}
 .legend{list-style:none;padding:0;display:flex;flex-wrap:wrap;gap:6px 22px;font-size:.9em}
 .swatch{display:inline-block;width:22px;height:6px;margin-right:6px;vertical-align:middle;border-radius:2px}
 .note{color:#555;font-size:.85em}
+#candidate-table td:nth-child(2),#candidate-table td:nth-child(3){white-space:nowrap}
 """
 
 
@@ -183,12 +184,15 @@ def _rule_value(name: str, value: object) -> str:
 
 def _rules(result: AuditResult, *, created: datetime) -> str:
     rules = [(element("code", cell(item.name)), cell(_RULE_UNITS.get(item.name, "")), cell(_rule_value(item.name, getattr(result.rules, item.name)))) for item in dataclasses.fields(result.rules)]
-    hydraulics = result.settings.get("hydraulics", {})
-    settings = [(element("code", cell(f"hydraulics.{key}")), "", cell(value)) for key, value in hydraulics.items()]
+    settings = [
+        (element("code", cell(f"{group}.{key}")), "", cell(value))
+        for group in ("hydraulics", "network")
+        for key, value in (result.settings.get(group) or {}).items()
+    ]
     run = [
         ("Tool", cell(f"sewer-audit {__version__}")),
         ("Config", cell("(none)" if result.config_path is None else str(result.config_path))),
         ("Inputs", cell(", ".join(str(path) for path in result.inputs) or "(none)")),
-        ("Report written", cell(created.strftime("%Y-%m-%d %H:%M:%S %Z").strip())),
+        ("Run time (report written)", cell(created.strftime("%Y-%m-%d %H:%M:%S %Z").strip())),
     ]
     return table(("Rule", "Unit", "Value"), rules + settings, id="rule-table") + table(("Run", ""), run, id="run-table")
