@@ -26,6 +26,7 @@ from typing import Any
 import pyproj
 
 from ._errors import ConfigError
+from ._flow_settings import FlowOptions, parse_flows
 from .rules import RuleSettings
 from .units import FACTORS, SPELLING, normalise_unit
 
@@ -35,8 +36,12 @@ PIPE_FIELDS = (
 )  # fmt: skip
 """Canonical pipe keys of ``[pipes.fields]``."""
 
-MANHOLE_FIELDS = ("id", "rim", "invert", "depth", "inflow", "access")
+MANHOLE_FIELDS = ("id", "rim", "invert", "depth", "inflow", "access", "population", "point_load")
 """Canonical manhole keys of ``[manholes.fields]``."""
+
+CATCHMENT_FIELDS = ("id", "drains_to", "population", "dwellings", "occupancy", "area_ha", "runoff_coefficient",
+                    "impervious_fraction")  # fmt: skip
+"""Canonical catchment keys of ``[catchments.fields]``."""
 
 PIPE_UNITS: Mapping[str, tuple[str, str]] = MappingProxyType(
     {
@@ -52,7 +57,8 @@ PIPE_UNITS: Mapping[str, tuple[str, str]] = MappingProxyType(
 """Keys of ``[pipes.units]``: (quantity, default unit)."""
 
 MANHOLE_UNITS: Mapping[str, tuple[str, str]] = MappingProxyType(
-    {"rim": ("length", "m"), "invert": ("length", "m"), "depth": ("length", "m"), "inflow": ("flow", "l/s")}
+    {"rim": ("length", "m"), "invert": ("length", "m"), "depth": ("length", "m"), "inflow": ("flow", "l/s"),
+     "point_load": ("flow", "l/s")}
 )
 """Keys of ``[manholes.units]``: (quantity, default unit)."""
 
@@ -60,7 +66,7 @@ SHAPES = ("circular", "rectangular", "egg")
 ENGINES = ("pyogrio", "fiona")
 DIRECTIONS = ("ids", "digitised", "inverts")
 FORMULAS = ("manning", "colebrook-white")
-TOP_LEVEL = ("input", "pipes", "manholes", "network", "hydraulics", "rules")
+TOP_LEVEL = ("input", "pipes", "manholes", "catchments", "network", "hydraulics", "flows", "rules")
 
 
 @dataclass(frozen=True)
@@ -73,7 +79,7 @@ class InputOptions:
 
 @dataclass(frozen=True)
 class LayerSource:
-    """``[pipes]`` or ``[manholes]``: where a layer is and how its fields map to canonical names.
+    """``[pipes]``, ``[manholes]`` or ``[catchments]``: where a layer is and how its fields map to canonical names.
 
     ``fields`` maps canonical key -> the user's field name (mapped keys only); ``units`` holds
     every unit key with its default filled in; ``shapes`` maps the user's shape codes to
@@ -116,6 +122,8 @@ class Config:
     source: Path
     pipes: LayerSource
     manholes: LayerSource | None = None
+    catchments: LayerSource | None = None
+    flows: FlowOptions = FlowOptions()
     input: InputOptions = InputOptions()
     network: NetworkOptions = NetworkOptions()
     hydraulics: HydraulicsOptions = HydraulicsOptions()
@@ -238,9 +246,18 @@ def _shape_map(check: _Checker, data: object, key: str) -> Mapping[str, str]:
     return MappingProxyType(shapes)
 
 
+_LAYER_KEYS: Mapping[str, tuple[tuple[str, ...], Mapping[str, tuple[str, str]]]] = MappingProxyType(
+    {"pipes": (PIPE_FIELDS, PIPE_UNITS), "manholes": (MANHOLE_FIELDS, MANHOLE_UNITS), "catchments": (CATCHMENT_FIELDS, {})}
+)
+
+
+def _optional_layer(check: _Checker, data: dict[str, Any], key: str, folder: Path) -> LayerSource | None:
+    return _layer_source(check, data[key], key, folder) if key in data else None
+
+
 def _layer_source(check: _Checker, data: object, key: str, folder: Path) -> LayerSource:
-    names, units = (PIPE_FIELDS, PIPE_UNITS) if key == "pipes" else (MANHOLE_FIELDS, MANHOLE_UNITS)
-    allowed = ("path", "layer", "crs", "fields", "units") + (("shapes",) if key == "pipes" else ())
+    names, units = _LAYER_KEYS[key]
+    allowed = ("path", "layer", "crs", "fields") + (("units",) if units else ()) + (("shapes",) if key == "pipes" else ())
     table = check.table(data, key, allowed)
     path = check.text(table, "path", key, None)
     if path is None and "path" not in table:
@@ -318,12 +335,16 @@ def load_config(path: str | Path) -> Config:
     config = Config(
         source=source,
         pipes=_layer_source(check, data.get("pipes", {}), "pipes", source.parent),
-        manholes=_layer_source(check, data["manholes"], "manholes", source.parent) if "manholes" in data else None,
+        manholes=_optional_layer(check, data, "manholes", source.parent),
+        catchments=_optional_layer(check, data, "catchments", source.parent),
+        flows=parse_flows(check, data.get("flows", {})),
         input=_input_options(check, data.get("input", {})),
         network=_network_options(check, data.get("network", {})),
         hydraulics=_hydraulics_options(check, data.get("hydraulics", {})),
         rules_table=_frozen(check.table(data.get("rules", {}), "rules", None)),  # type: ignore[arg-type]
     )
+    if config.flows.needs_rainfall and config.catchments is None:
+        check.fail("catchments", f"a catchment layer for flows.kind = {config.flows.kind!r} (storm runoff needs areas)")
     check.raise_if_any()
     rules = RuleSettings.from_table(dict(config.rules_table), source=str(source))
     return replace(config, rules=rules)

@@ -162,3 +162,77 @@ def test_not_toml_names_the_file(tmp_path: Path) -> None:
 def test_missing_file_names_the_file(tmp_path: Path) -> None:
     with pytest.raises(ConfigError, match="nowhere.toml: configuration file not found"):
         load_config(tmp_path / "nowhere.toml")
+
+
+def test_flows_default_to_the_given_flows_as_before(tmp_path: Path) -> None:
+    config = load_config(_write(tmp_path, '[pipes]\npath = "p.gpkg"\n'))
+    assert config.flows.kind == "given" and config.flows.rainfall is None and config.catchments is None
+    assert config.flows.growth_factor == 1.0 and config.flows.peaking == "harmon"
+    assert config.manholes is None
+
+
+COMBINED = """
+[pipes]
+path = "p.gpkg"
+[manholes]
+path = "p.gpkg"
+[manholes.fields]
+population = "POP"
+point_load = "TRADE"
+[manholes.units]
+point_load = "m3/s"
+[catchments]
+path = "areas.gpkg"
+layer = "subareas"
+[catchments.fields]
+id = "AREA_ID"
+drains_to = "OUTLET_MH"
+impervious_fraction = "IMP"
+[flows]
+kind = "combined"
+per_capita_l_day = 250
+peaking = [[1000, 3.5], [10000, 2.5]]
+infiltration_l_s_km = 0.2
+growth_factor = 1.25
+[flows.rainfall]
+table = [[5, 120.0], [60, 30.0]]
+inlet_time_min = 7
+"""
+
+
+def test_flows_catchments_and_manhole_loads_are_read(tmp_path: Path) -> None:
+    config = load_config(_write(tmp_path, COMBINED))
+    flows, rain = config.flows, config.flows.rainfall
+    assert flows.kind == "combined" and flows.builds_sanitary and flows.needs_rainfall
+    assert flows.per_capita_l_day == 250.0 and flows.peaking == "table"
+    assert flows.peaking_table == ((1000.0, 3.5), (10000.0, 2.5))
+    assert flows.infiltration_l_s_km == 0.2 and flows.growth_factor == 1.25
+    assert rain is not None and rain.a is None and rain.table == ((5.0, 120.0), (60.0, 30.0)) and rain.inlet_time_min == 7.0
+    assert config.catchments is not None and config.catchments.layer == "subareas"
+    assert dict(config.catchments.fields) == {"id": "AREA_ID", "drains_to": "OUTLET_MH", "impervious_fraction": "IMP"}
+    assert config.manholes is not None and config.manholes.units["point_load"] == "m3/s"
+    assert config.manholes.fields["population"] == "POP"
+
+
+@pytest.mark.parametrize(
+    ("body", "expected"),
+    [
+        ('[flows]\nkind = "foul"\n', "flows.kind: expected one of"),
+        ('[flows]\npeaking = "harman"\n', "flows.peaking: expected one of"),
+        ('[flows]\npeaking = [[1000, 3.0], [500, 2.0]]\n', "flows.peaking: expected an array of at least two"),
+        ('[flows]\ngrowth_factor = 0\n', "flows.growth_factor: expected a number"),
+        ('[flows]\nc_pervious = 1.5\n', "flows.c_pervious: expected a runoff coefficient"),
+        ('[flows]\ntc_max_iterations = 0\n', "flows.tc_max_iterations: expected a whole number"),
+        ('[flows]\nper_capita = 200\n', "flows.per_capita: unknown key; did you mean 'per_capita_l_day'?"),
+        ('[flows]\nkind = "storm"\n', "flows.rainfall: expected a rainfall table"),
+        ('[flows]\nkind = "storm"\n[flows.rainfall]\na = 1000\n', "catchments: expected a catchment layer"),
+        ('[flows.rainfall]\na = 1000\ntable = [[5, 100], [10, 80]]\n', "flows.rainfall: expected either a"),
+        ('[flows.rainfall]\nb = 10\n', "flows.rainfall: expected either a"),
+        ('[flows.rainfall]\na = 1000\nduration = 5\n', "flows.rainfall.duration: unknown key"),
+        ('[catchments]\npath = "a.gpkg"\n[catchments.fields]\nrunoff = "C"\n', "catchments.fields.runoff: unknown key"),
+        ('[catchments]\npath = "a.gpkg"\nunits = {}\n', "catchments.units: unknown key"),
+        ('[manholes]\npath = "m.gpkg"\n[manholes.units]\npoint_load = "litres"\n', "manholes.units.point_load: expected a flow unit"),
+    ],
+)
+def test_bad_flow_settings_name_file_and_key(tmp_path: Path, body: str, expected: str) -> None:
+    assert expected in _problem(tmp_path, '[pipes]\npath = "p.gpkg"\n' + body)
