@@ -314,3 +314,16 @@ def test_report_of_100000_pipes_stays_under_8_mb(tmp_path: Path) -> None:
     assert {row[0]: int(row[2].replace(",", "")) for row in page.table_rows("flag-table")} == dict(expected)
     (drawing,) = page.section("map").find_all("svg")
     assert len([node for node in drawing.find_all("path") if "data-class" in node.attrs]) == 5  # one path for each class
+
+
+def test_each_part_of_a_multi_part_line_is_a_subpath_and_a_missing_geometry_is_skipped(town: AuditResult) -> None:
+    pipes = town.pipes.copy()
+    geometry = pipes.geometry.to_numpy().copy()
+    first = shapely.get_coordinates(geometry[0])
+    geometry[0] = shapely.multilinestrings([first[:2], first[-2:] + 5.0])
+    geometry[1] = None
+    pipes = gpd.GeoDataFrame(pipes.drop(columns=pipes.geometry.name), geometry=geometry, crs=town.pipes.crs)
+    page = Page(render_report(dataclasses.replace(town, pipes=pipes)))
+    (drawing,) = page.section("map").find_all("svg")
+    data = "".join(node.attrs["d"] for node in drawing.find_all("path") if "data-class" in node.attrs)
+    assert data.count("M") == len(pipes)  # one pipe drawn twice, one not at all

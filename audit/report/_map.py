@@ -80,7 +80,7 @@ def network_map(geometry: np.ndarray, classes: np.ndarray, *, metres: bool) -> s
     classes : map class of each pipe
     metres : whether the coordinates are known to be metres (else no scale bar)
     """
-    parts, pipe_of_part = shapely.get_parts(geometry, return_index=True)
+    parts, pipe_of_part = _single_parts(geometry)
     coords, part_of_vertex = shapely.get_coordinates(parts, return_index=True)
     if coords.shape[0] == 0:
         return svg(label(20, 40, "No pipe has a geometry to draw."), width=MAP_WIDTH_PX, height=80, title="Network map")
@@ -98,6 +98,13 @@ def network_map(geometry: np.ndarray, classes: np.ndarray, *, metres: bool) -> s
     if metres:
         content += scale_bar(frame, x=_MARGIN_PX, y=frame.height - 14.0)
     return svg(content, width=frame.width, height=frame.height, title="Network map coloured by each pipe's worst flag")
+
+
+def _single_parts(geometry: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Every single-part line and the pipe it belongs to (splitting only when a multi-part exists)."""
+    if np.all(shapely.get_type_id(geometry) == 1):  # LineString only: nothing to split
+        return geometry, np.arange(len(geometry))
+    return shapely.get_parts(geometry, return_index=True)
 
 
 def _fit(coords: np.ndarray) -> Frame:

@@ -27,6 +27,15 @@ def numbers(values: ArrayLike) -> NDArray[np.object_]:
     ['0', '12.3', '8', '-0.3']
     """
     tenths = np.rint(np.asarray(values, dtype=float) / RESOLUTION_PX).astype(np.int64)
+    if tenths.size == 0:
+        return np.empty(0, dtype=object)
+    low, high = int(tenths.min()), int(tenths.max())
+    if high - low < max(tenths.size, 1024):  # a drawing's range: format each value once, then look up
+        return _tenths_text(np.arange(low, high + 1))[tenths - low]
+    return _tenths_text(tenths)
+
+
+def _tenths_text(tenths: NDArray[np.int64]) -> NDArray[np.object_]:
     sign = np.where(tenths < 0, "-", "").astype(object)
     whole = (np.abs(tenths) // 10).astype(str).astype(object)
     digit = (np.abs(tenths) % 10).astype(str).astype(object)
@@ -72,11 +81,11 @@ def dot_path_data(x: ArrayLike, y: ArrayLike) -> str:
     >>> dot_path_data([1, 1.01, 3], [2, 2, 4])
     'M1 2h0M3 4h0'
     """
-    xs, ys = numbers(x), numbers(y)
-    if xs.size == 0:
+    tenths = np.rint(np.stack([np.asarray(x, dtype=float), np.asarray(y, dtype=float)]) / RESOLUTION_PX).astype(np.int64)
+    if tenths.shape[1] == 0:
         return ""
-    pairs = np.unique(np.stack([xs.astype(str), ys.astype(str)], axis=1), axis=0)
-    token = "M" + pairs[:, 0].astype(object) + " " + pairs[:, 1].astype(object) + "h0"
+    tenths = np.unique(tenths, axis=1)
+    token = "M" + numbers(tenths[0] * RESOLUTION_PX) + " " + numbers(tenths[1] * RESOLUTION_PX) + "h0"
     return "".join(token.tolist())
 
 

@@ -76,23 +76,24 @@ def flag_totals(pipes: pd.DataFrame, *, severity: Mapping[str, str]) -> pd.DataF
     A pipe with several flags counts once under each. Columns: ``flag``, ``severity`` (from the
     rules used), ``pipes``, ``length_m``.
     """
-    codes = texts(pipes, "flags").str.split(";")
-    length = pd.Series(numeric(pipes, "length_m"), index=pipes.index)
-    long = pd.DataFrame({"flag": codes, "length_m": length}).explode("flag")
+    combined = pd.DataFrame({"flags": texts(pipes, "flags").to_numpy(dtype=object), "length_m": numeric(pipes, "length_m")})
+    combos = combined.groupby("flags").agg(pipes=("flags", "size"), length_m=("length_m", "sum")).reset_index()
+    combos["flag"] = combos["flags"].str.split(";")  # a handful of distinct flag sets, not every pipe
+    long = combos.explode("flag")
     long = long[long["flag"] != ""]
-    grouped = long.groupby("flag").agg(pipes=("flag", "size"), length_m=("length_m", lambda v: float(np.nansum(v))))
+    grouped = long.groupby("flag").agg(pipes=("pipes", "sum"), length_m=("length_m", "sum"))
     order = [code for code in FLAG_CODES if code in grouped.index] + sorted(set(grouped.index) - set(FLAG_CODES))
     table = grouped.reindex(order).reset_index()
     table.insert(1, "severity", [severity.get(code, "") for code in table["flag"]])
     return table.astype({"pipes": int})
 
 
-def pipe_labels(pipes: pd.DataFrame, *, id_field: str | None) -> np.ndarray:
-    """The id of each pipe: the ``id_field`` column, else ``pipe_id``, else ``#<row>``."""
+def pipe_labels(pipes: pd.DataFrame, rows: np.ndarray, *, id_field: str | None) -> np.ndarray:
+    """The id of the pipes at positions ``rows``: the ``id_field`` column, else ``pipe_id``, else ``#<row>``."""
     for name in (id_field, "pipe_id"):
         if name is not None and name in pipes.columns:
-            return texts(pipes, name).to_numpy(dtype=object)
-    return ("#" + pd.RangeIndex(len(pipes)).astype(str)).to_numpy(dtype=object)
+            return texts(pipes.iloc[rows], name).to_numpy(dtype=object)
+    return ("#" + pd.Index(rows).astype(str)).to_numpy(dtype=object)
 
 
 def renewal_candidates(pipes: pd.DataFrame, *, id_field: str | None, limit: int = 20) -> pd.DataFrame:
@@ -104,20 +105,21 @@ def renewal_candidates(pipes: pd.DataFrame, *, id_field: str | None, limit: int 
     rank = {word: place for place, word in enumerate(SEVERITY_ORDER, start=1)}
     severity = texts(pipes, "severity")
     flagged = np.flatnonzero(severity.isin(list(rank)).to_numpy())
-    keys = [np.arange(len(pipes))]
-    keys += [np.nan_to_num(-numeric(pipes, name), nan=np.inf) for name in ("upstream_length_m", "load_ratio")]
-    keys.append(-severity.map(rank).fillna(0).to_numpy(dtype=float))
-    rows = flagged[np.lexsort([key[flagged] for key in keys])][:limit]
+    keys = [flagged]
+    keys += [np.nan_to_num(-numeric(pipes, name)[flagged], nan=np.inf) for name in ("upstream_length_m", "load_ratio")]
+    keys.append(-severity.iloc[flagged].map(rank).to_numpy(dtype=float))
+    rows = flagged[np.lexsort(keys)][:limit]
+    chosen = pipes.iloc[rows]
     return pd.DataFrame(
         {
-            "pipe": pipe_labels(pipes, id_field=id_field)[rows],
-            "from_to": (texts(pipes, "from_node_id") + " \u2192 " + texts(pipes, "to_node_id")).to_numpy(dtype=object)[rows],
+            "pipe": pipe_labels(pipes, rows, id_field=id_field),
+            "from_to": (texts(chosen, "from_node_id") + " \u2192 " + texts(chosen, "to_node_id")).to_numpy(dtype=object),
             "severity": severity.to_numpy(dtype=object)[rows],
-            "load_ratio": numeric(pipes, "load_ratio")[rows],
-            "height_mm": numeric(pipes, "height_m")[rows] * 1000.0,
-            "length_m": numeric(pipes, "length_m")[rows],
-            "upstream_length_m": numeric(pipes, "upstream_length_m")[rows],
-            "reasons": texts(pipes, "reasons").to_numpy(dtype=object)[rows],
+            "load_ratio": numeric(chosen, "load_ratio"),
+            "height_mm": numeric(chosen, "height_m") * 1000.0,
+            "length_m": numeric(chosen, "length_m"),
+            "upstream_length_m": numeric(chosen, "upstream_length_m"),
+            "reasons": texts(chosen, "reasons").to_numpy(dtype=object),
         }
     )
 
