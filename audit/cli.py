@@ -32,6 +32,7 @@ Writes into OUTDIR:
                    flags) and findings (a point at each data problem)
   summary.json     counts and lengths per flag, network totals, data findings, rules used
   candidates.csv   pipes ranked for renewal, with their reasons
+  report.html      one self-contained page for readers without a GIS: map, charts, tables
 Field names and units: docs/outputs.md."""
 
 DEMO_CONFIG = Path(__file__).resolve().parent.parent / "sample_gis" / "town.toml"
@@ -116,6 +117,7 @@ def _audit_command(args: argparse.Namespace) -> int:
     """``run`` and ``demo``: audit, write the outputs, print the table, pick the exit code."""
     from .outputs import print_summary_table, write_outputs
     from .pipeline import run
+    from .report import write_report
 
     config = Path(args.config) if args.command == "run" else DEMO_CONFIG
     if args.command == "demo" and not config.exists():
@@ -123,6 +125,7 @@ def _audit_command(args: argparse.Namespace) -> int:
     show = not args.quiet and sys.stderr.isatty()
     result = run(config, progress=show)
     paths = write_outputs(result, Path(args.output), overwrite=args.overwrite, progress=show)
+    paths["report"] = write_report(result, Path(args.output))
     if not args.quiet:
         print_summary_table(result, paths, file=sys.stdout)
     if args.fail_on and worst_severity_at_least(result.pipe_results["severity"].to_numpy(dtype=object), args.fail_on).any():

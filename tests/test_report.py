@@ -275,7 +275,7 @@ def test_report_is_never_written_over_an_input(tmp_path: Path) -> None:
 
 def test_result_without_computed_field_is_refused_naming_it(town: AuditResult) -> None:
     with pytest.raises(InputError, match="load_ratio"):
-        render_report(dataclasses.replace(town, pipes=town.pipes.drop(columns=["load_ratio"])))
+        render_report(dataclasses.replace(town, pipes=town.pipes.drop(columns=["load_ratio"]), computed=None))
 
 
 def synthetic_result(count: int, *, seed: int = 7) -> AuditResult:

@@ -44,7 +44,7 @@ def render_report(result: AuditResult, *, id_field: str | None = None, created: 
     ----------
     result : the audit (``audit.pipeline.run``)
     id_field : the original pipe field that holds the pipe ids (the config's ``[pipes.fields] id``);
-        None: a ``pipe_id`` column if there is one, else ``#<row>``
+        None: the canonical pipe id the audit read, else ``#<row>``
     created : time stamp printed as the run time; None: now (UTC)
 
     Raises
@@ -52,7 +52,7 @@ def render_report(result: AuditResult, *, id_field: str | None = None, created: 
     InputError
         when the result's pipes lack a computed column the report needs
     """
-    check_columns(result.pipes)
+    check_columns(result.pipe_results)
     return render_page(result, id_field=id_field, created=created or datetime.now(UTC))
 
 

@@ -57,7 +57,7 @@ svg{max-width:100%;height:auto;display:block}
 
 def render_page(result: AuditResult, *, id_field: str | None, created: datetime) -> str:
     """The whole report as one HTML string."""
-    pipes = result.pipes
+    pipes = analysis_frame(result)
     classes = map_classes(pipes)
     totals = flag_totals(pipes, severity=result.rules.severity)
     body = "".join(
@@ -75,6 +75,21 @@ def render_page(result: AuditResult, *, id_field: str | None, created: datetime)
     )
     head = element("head", '<meta charset="utf-8"><meta name="viewport" content="width=device-width, initial-scale=1">' + element("title", "Sewer audit report") + element("style", _CSS))
     return "<!DOCTYPE html>\n" + element("html", head + element("body", element("h1", "Sewer audit report") + element("main", body)), lang="en")
+
+
+def analysis_frame(result: AuditResult) -> pd.DataFrame:
+    """The computed pipe columns under their documented names, with the canonical pipe id.
+
+    The ids come from the result's canonical columns where it has them (whatever the user's id
+    field is called); an ``id_field`` given to the report still takes precedence.
+    """
+    pipes = result.pipe_results
+    if result.canonical_pipes is not None and "pipe_id" not in pipes.columns:
+        pipes = pipes.assign(pipe_id=result.canonical_pipes["pipe_id"].to_numpy(dtype=object))
+    if result.pipes is not pipes:
+        extra = [name for name in result.pipes.columns if name not in pipes.columns]
+        pipes = pd.concat([pipes.reset_index(drop=True), pd.DataFrame(result.pipes[extra]).reset_index(drop=True)], axis=1)
+    return pipes
 
 
 def _totals(totals: Mapping[str, Any]) -> str:
