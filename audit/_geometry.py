@@ -31,37 +31,56 @@ def _merge_lines(geometry: np.ndarray, multi: np.ndarray) -> np.ndarray:
     return np.isin(np.arange(len(geometry)), index[~joined])
 
 
-def clean_geometry(geometry: np.ndarray, *, lines: bool) -> tuple[np.ndarray, dict[str, np.ndarray]]:
-    """2D LineStrings (pipes) or Points (manholes; a multi-point keeps its first point).
+_KINDS = {
+    "line": (shapely.GeometryType.LINESTRING, shapely.GeometryType.MULTILINESTRING),
+    "point": (shapely.GeometryType.POINT, shapely.GeometryType.MULTIPOINT),
+    "polygon": (shapely.GeometryType.POLYGON, shapely.GeometryType.MULTIPOLYGON),
+}
+
+
+def clean_geometry(geometry: np.ndarray, *, kind: str) -> tuple[np.ndarray, dict[str, np.ndarray]]:
+    """2D geometries of one kind: LineStrings, Points or (multi-)Polygons.
+
+    A multi-line keeps its merged line, else its longest part; a multi-point keeps its first
+    point; a multi-polygon stays whole (its area is the sum of its parts).
 
     Parameters
     ----------
     geometry : shapely geometries of one layer (modified in place and returned)
-    lines : True for a line layer, False for a point layer
+    kind : ``"line"`` (pipes), ``"point"`` (manholes) or ``"polygon"`` (catchments)
 
     Returns
     -------
     the cleaned geometries (None where unusable) and one boolean mask per finding code
     """
-    kinds = shapely.GeometryType
-    single, several = (kinds.LINESTRING, kinds.MULTILINESTRING) if lines else (kinds.POINT, kinds.MULTIPOINT)
+    single, several = _KINDS[kind]
     geometry = shapely.force_2d(geometry)
-    kind = shapely.get_type_id(geometry)
-    empty = (kind < 0) | shapely.is_empty(geometry)
-    multi = (kind == several) & ~empty
-    flags = {"no_geometry": empty, "wrong_geometry_type": ~empty & ~np.isin(kind, [single, several])}
-    if lines:
+    type_id = shapely.get_type_id(geometry)
+    empty = (type_id < 0) | shapely.is_empty(geometry)
+    multi = (type_id == several) & ~empty
+    flags = {"no_geometry": empty, "wrong_geometry_type": ~empty & ~np.isin(type_id, [single, several])}
+    if kind == "line":
         flags["multipart_line"] = _merge_lines(geometry, multi)
-    else:
+    elif kind == "point":
         flags["multipart_point"] = multi & (shapely.get_num_geometries(geometry) > 1)
         geometry[multi] = shapely.get_geometry(geometry[multi], 0)
     geometry[empty | flags["wrong_geometry_type"]] = None
     return geometry, flags
 
 
+def representative_points(geometry: np.ndarray, *, kind: str) -> tuple[np.ndarray, np.ndarray]:
+    """x and y [m] where a feature's findings are placed: a line's midpoint, a polygon's centroid."""
+    points = geometry
+    if kind == "line":
+        points = shapely.line_interpolate_point(points, 0.5, normalized=True)
+    elif kind == "polygon":
+        points = shapely.centroid(points)
+    return shapely.get_x(points), shapely.get_y(points)
+
+
 GEOMETRY_MESSAGES = {
     "no_geometry": "the feature has no geometry",
-    "wrong_geometry_type": "not of the layer's kind (lines for pipes, points for manholes); it is left out",
+    "wrong_geometry_type": "not of the layer's kind (lines for pipes, points for manholes, polygons for catchments); it is left out",
     "multipart_line": "the parts of the line do not join into one line; the longest part is kept",
     "multipart_point": "the manhole has several points; the first is kept",
 }

@@ -1,21 +1,21 @@
-"""Read the pipe and manhole layers into canonical, SI, projected GeoDataFrames.
+"""Read the pipe, manhole and catchment layers into canonical, SI, projected GeoDataFrames.
 
 Each layer comes back twice: ``original``, the GeoDataFrame exactly as read (every field, input
 order, source CRS), and ``canonical``, the columns of the data contract in DEVELOPERS.md with the
 same index, values in SI and geometry in a projected CRS in metres. Every input feature is kept.
 
 A geographic CRS (or a projected one not in metres) is replaced by the UTM zone of the pipes'
-extent; manholes are brought to the pipes' working CRS.
+extent; manholes and catchments are brought to the pipes' working CRS.
 
-Findings emitted (layer ``pipes`` or ``manholes``; each message names the field and raw value):
+Findings emitted (layer ``pipes``, ``manholes`` or ``catchments``; each message names the field and raw value):
 
 * ``no_geometry``: null or empty geometry; the row stays with no geometry;
-* ``wrong_geometry_type``: not a line (pipes) or not a point (manholes); geometry dropped;
+* ``wrong_geometry_type``: not a line (pipes), point (manholes) or polygon (catchments); dropped;
 * ``multipart_line``: parts that do not join into one line; the longest part is kept;
 * ``multipart_point``: a multi-point manhole; its first point is kept;
 * ``not_a_number``: a value where a number is needed is not one; it becomes NaN;
 * ``sentinel_value``: a value listed in ``[input] sentinels``; it becomes NaN;
-* ``nonpositive_size``: zero or negative diameter, height, width, length or depth; NaN;
+* ``nonpositive_size``: zero or negative diameter, height, width, length, depth or area; NaN;
 * ``missing_id``: an empty id; the feature is called ``#<row>``;
 * ``duplicate_id``: an id used by more than one feature;
 * ``unknown_shape``: a shape code neither mapped in ``[pipes.shapes]`` nor canonical;
@@ -40,14 +40,16 @@ import shapely
 
 from ._errors import InputError
 from .config import MANHOLE_UNITS, PIPE_UNITS, SHAPES, Config, LayerSource
-from ._geometry import GEOMETRY_MESSAGES, clean_geometry
+from ._geometry import GEOMETRY_MESSAGES, clean_geometry, representative_points
+from ._fields import Reporter, as_number, as_text, feature_ids, quoted, report_ids
 from .findings import FindingLog
 from .units import to_si
 
 PIPE_NUMBERS = ("diameter", "height", "width", "upstream_invert", "downstream_invert", "length",
                 "roughness", "install_year", "flow")  # fmt: skip
-MANHOLE_NUMBERS = ("rim", "invert", "depth", "inflow")
-SIZES = frozenset({"diameter", "height", "width", "length", "depth"})
+MANHOLE_NUMBERS = ("rim", "invert", "depth", "inflow", "population", "point_load")
+CATCHMENT_NUMBERS = ("population", "dwellings", "occupancy", "area_ha", "runoff_coefficient", "impervious_fraction")
+GEOMETRY_KINDS = {"pipes": "line", "manholes": "point", "catchments": "polygon"}
 ACCESS_YES = ("1", "true", "t", "yes", "y")  # common practice, no source
 ACCESS_NO = ("0", "false", "f", "no", "n")  # common practice, no source
 _READ_ERRORS = (OSError, RuntimeError, ValueError, fiona.errors.FionaError)
@@ -74,11 +76,12 @@ class LayerData:
 
 @dataclass(frozen=True)
 class Layers:
-    """The pipes, the manholes (None when not configured) and the working CRS [m]."""
+    """The pipes, the manholes and catchments (None when not configured) and the working CRS [m]."""
 
     pipes: LayerData
     manholes: LayerData | None
     crs: pyproj.CRS
+    catchments: LayerData | None = None
 
     @property
     def missing_fields(self) -> Mapping[str, tuple[str, ...]]:
@@ -86,24 +89,9 @@ class Layers:
         found = {"pipes": self.pipes.missing_fields}
         if self.manholes is not None:
             found["manholes"] = self.manholes.missing_fields
+        if self.catchments is not None:
+            found["catchments"] = self.catchments.missing_fields
         return found
-
-
-@dataclass(frozen=True)
-class _Reporter:
-    """Adds findings for one layer, naming each feature by id and placing it at (x, y)."""
-
-    findings: FindingLog
-    layer: str
-    ids: np.ndarray
-    x: np.ndarray
-    y: np.ndarray
-
-    def add(self, mask: np.ndarray, code: str, messages: pd.Series | str) -> None:
-        if mask.any():
-            if isinstance(messages, pd.Series):
-                messages = messages.to_numpy(dtype=object)[mask]
-            self.findings.add_many(self.layer, self.ids[mask], code, messages, x=self.x[mask], y=self.y[mask])
 
 
 def _where(source: LayerSource, layer: str | None = None) -> str:
@@ -182,80 +170,18 @@ def _field(frame: gpd.GeoDataFrame, wanted: str, *, key: str, where: str) -> pd.
     raise InputError(f"{where}: {key} = '{wanted}' is not a field of the layer; its fields are: {', '.join(fields)}")
 
 
-def _text(raw: pd.Series) -> np.ndarray:
-    """Values as stripped strings (None where null or blank); whole floats lose their '.0'."""
-    if pd.api.types.is_float_dtype(raw.dtype):
-        values = raw.to_numpy(dtype=float, na_value=np.nan)
-        text = np.full(len(values), None, dtype=object)
-        known = np.isfinite(values)
-        whole = known & (values == np.round(values))
-        text[whole] = values[whole].astype(np.int64).astype(str)
-        text[known & ~whole] = values[known & ~whole].astype(str)
-        return text
-    strings = raw.astype("string").str.strip()
-    strings = strings.mask((strings == "").fillna(False))
-    return strings.astype(object).where(strings.notna(), None).to_numpy(dtype=object)
-
-
-def _quoted(raw: pd.Series) -> pd.Series:
-    return "'" + raw.astype("string").fillna("") + "'"
-
-
-def _number(raw: pd.Series, *, name: str, field: str, sentinels: tuple[float, ...], report: _Reporter) -> np.ndarray:
-    """Numbers of one mapped field in the user's unit; bad values become NaN with a finding."""
-    blank = raw.isna().to_numpy() | (raw.astype("string").str.strip() == "").fillna(True).to_numpy()
-    coerced = pd.to_numeric(raw, errors="coerce")
-    values = np.array(pd.Series(coerced, dtype="float64").to_numpy(dtype=float, na_value=np.nan))
-    shown = _quoted(raw)
-    report.add(np.isnan(values) & ~blank, "not_a_number", f"{name} field '{field}' = " + shown + " is not a number")
-    sentinel = np.isin(values, sentinels)
-    report.add(sentinel, "sentinel_value", f"{name} field '{field}' = " + shown + " is a 'missing' sentinel")
-    values[sentinel] = np.nan
-    if name in SIZES:
-        nonpositive = values <= 0
-        report.add(nonpositive, "nonpositive_size", f"{name} field '{field}' = " + shown + " is not a positive size")
-        values[nonpositive] = np.nan
-    return values
-
-
-def _ids(raw: pd.Series | None, *, count: int) -> tuple[np.ndarray, np.ndarray]:
-    """Feature ids (``#<row>`` where none) and a mask of the rows whose id was missing."""
-    rows = "#" + pd.RangeIndex(count).astype(str).to_numpy(dtype=object)
-    if raw is None:
-        return rows, np.zeros(count, dtype=bool)
-    text = _text(raw)
-    missing = pd.isna(text)
-    return np.where(missing, rows, text), missing
-
-
-def _report_ids(report: _Reporter, missing: np.ndarray, *, field: str | None) -> None:
-    report.add(missing, "missing_id", f"id field '{field}' is empty; the feature is called by its row")
-    ids = pd.Series(report.ids, dtype=object).where(~missing)
-    uses = ids.groupby(ids, dropna=True).transform("size").reindex(ids.index)
-    duplicate = (uses > 1).to_numpy()
-    report.add(duplicate, "duplicate_id", f"id field '{field}' = '" + ids.astype(str) + "' is used by "
-               + uses.fillna(0).astype(int).astype(str) + " features")  # fmt: skip
-
-
-def _report_geometry(report: _Reporter, flags: dict[str, np.ndarray], *, kinds: pd.Series) -> None:
+def _report_geometry(report: Reporter, flags: dict[str, np.ndarray], *, kinds: pd.Series) -> None:
     for code, mask in flags.items():
         shown = "the geometry is a " + kinds + ", " if code == "wrong_geometry_type" else ""
         report.add(mask, code, shown + GEOMETRY_MESSAGES[code])
 
 
-def _geometry(frame: gpd.GeoDataFrame, source_crs: pyproj.CRS, crs: pyproj.CRS, *, lines: bool) -> tuple[
+def _geometry(frame: gpd.GeoDataFrame, source_crs: pyproj.CRS, crs: pyproj.CRS, *, kind: str) -> tuple[
     gpd.GeoSeries, dict[str, np.ndarray]
 ]:  # fmt: skip
-    geometry, flags = clean_geometry(frame.geometry.to_numpy().copy(), lines=lines)
+    geometry, flags = clean_geometry(frame.geometry.to_numpy().copy(), kind=kind)
     series = gpd.GeoSeries(geometry, index=frame.index, crs=source_crs).to_crs(crs)
     return series, flags
-
-
-def _locations(geometry: gpd.GeoSeries, *, lines: bool) -> tuple[np.ndarray, np.ndarray]:
-    points = geometry.to_numpy()
-    if lines:
-        points = shapely.line_interpolate_point(points, 0.5, normalized=True)
-    return shapely.get_x(points), shapely.get_y(points)
 
 
 @dataclass(frozen=True)
@@ -266,7 +192,7 @@ class _Context:
     source: LayerSource
     key: str
     where: str
-    report: _Reporter
+    report: Reporter
     sentinels: tuple[float, ...]
 
 
@@ -284,7 +210,7 @@ def _numbers(context: _Context, names: tuple[str, ...], units: Mapping[str, tupl
         if raw is None:
             columns[name] = np.full(len(context.frame), np.nan)
             continue
-        values = _number(raw, name=name, field=str(raw.name), sentinels=context.sentinels, report=context.report)
+        values = as_number(raw, name=name, field=str(raw.name), sentinels=context.sentinels, report=context.report)
         columns[name] = to_si(values, context.source.units[name], quantity=units[name][0]) if name in units else values
     return columns
 
@@ -293,7 +219,7 @@ def _texts(context: _Context, names: tuple[str, ...]) -> dict[str, np.ndarray]:
     columns = {}
     for name in names:
         raw = _raw(context, name)
-        columns[name] = np.full(len(context.frame), None, dtype=object) if raw is None else _text(raw)
+        columns[name] = np.full(len(context.frame), None, dtype=object) if raw is None else as_text(raw)
     return columns
 
 
@@ -305,11 +231,11 @@ def _shapes(context: _Context, sizes: dict[str, np.ndarray]) -> np.ndarray:
     raw = _raw(context, "shape")
     if raw is None:
         return inferred.to_numpy(dtype=object)
-    codes = pd.Series(_text(raw), dtype=object)
+    codes = pd.Series(as_text(raw), dtype=object)
     lower = {code.lower(): shape for code, shape in context.source.shapes.items()} | {s: s for s in SHAPES}
     mapped = codes.map(dict(context.source.shapes)).fillna(codes.str.lower().map(lower))
     unknown = (codes.notna() & mapped.isna()).to_numpy()
-    context.report.add(unknown, "unknown_shape", f"shape field '{raw.name}' = " + _quoted(raw)
+    context.report.add(unknown, "unknown_shape", f"shape field '{raw.name}' = " + quoted(raw)
                        + " is neither in [pipes.shapes] nor one of " + ", ".join(SHAPES))  # fmt: skip
     return mapped.fillna(codes).fillna(inferred).to_numpy(dtype=object)
 
@@ -318,9 +244,9 @@ def _access(context: _Context) -> np.ndarray:
     raw = _raw(context, "access")
     if raw is None:
         return np.ones(len(context.frame), dtype=bool)
-    words = pd.Series(_text(raw), dtype=object).str.lower()
+    words = pd.Series(as_text(raw), dtype=object).str.lower()
     known = words.isna() | words.isin(ACCESS_YES) | words.isin(ACCESS_NO)
-    context.report.add(~known.to_numpy(), "unknown_access", f"access field '{raw.name}' = " + _quoted(raw)
+    context.report.add(~known.to_numpy(), "unknown_access", f"access field '{raw.name}' = " + quoted(raw)
                        + " is read neither as yes nor as no; taken as accessible")  # fmt: skip
     return ~words.isin(ACCESS_NO).to_numpy()
 
@@ -339,9 +265,19 @@ def _manhole_columns(context: _Context) -> dict[str, np.ndarray]:
     return {**_numbers(context, MANHOLE_NUMBERS, MANHOLE_UNITS), "access": _access(context)}
 
 
+def _catchment_columns(context: _Context) -> dict[str, np.ndarray]:
+    return {**_texts(context, ("drains_to",)), **_numbers(context, CATCHMENT_NUMBERS, {})}
+
+
+_COLUMNS = {"pipes": _pipe_columns, "manholes": _manhole_columns, "catchments": _catchment_columns}
+
+
 PIPE_ORDER = ("pipe_id", "from_node", "to_node", "shape", "diameter", "height", "width", "upstream_invert",
               "downstream_invert", "length", "roughness", "material", "install_year", "flow")  # fmt: skip
-MANHOLE_ORDER = ("manhole_id", "rim", "invert", "depth", "inflow", "access")
+MANHOLE_ORDER = ("manhole_id", "rim", "invert", "depth", "inflow", "access", "population", "point_load")
+CATCHMENT_ORDER = ("catchment_id", "drains_to", *CATCHMENT_NUMBERS)
+_ORDER = {"pipes": ("pipe_id", PIPE_ORDER), "manholes": ("manhole_id", MANHOLE_ORDER),
+          "catchments": ("catchment_id", CATCHMENT_ORDER)}  # fmt: skip
 
 
 def _read_layer(source: LayerSource, key: str, *, config: Config, findings: FindingLog,
@@ -352,26 +288,26 @@ def _read_layer(source: LayerSource, key: str, *, config: Config, findings: Find
     source_crs = _source_crs(frame, source, key, layer)
     if crs is None:
         crs = working_crs(frame.geometry.set_crs(source_crs, allow_override=True), where=where)
-    lines = key == "pipes"
+    kind = GEOMETRY_KINDS[key]
     id_field = source.fields.get("id")
     raw_id = None if id_field is None else _field(frame, id_field, key=f"{key}.fields.id", where=where)
-    ids, missing = _ids(raw_id, count=len(frame))
-    geometry, flags = _geometry(frame, source_crs, crs, lines=lines)
-    report = _Reporter(findings, key, ids, *_locations(geometry, lines=lines))
+    ids, missing = feature_ids(raw_id, count=len(frame))
+    geometry, flags = _geometry(frame, source_crs, crs, kind=kind)
+    report = Reporter(findings, key, ids, *representative_points(geometry.to_numpy(), kind=kind))
     _report_geometry(report, flags, kinds=frame.geometry.geom_type.astype("string").fillna(""))
-    _report_ids(report, missing, field=None if raw_id is None else str(raw_id.name))
+    report_ids(report, missing, field=None if raw_id is None else str(raw_id.name))
     context = _Context(frame, source, key, where, report, config.input.sentinels)
-    columns = _pipe_columns(context) if lines else _manhole_columns(context)
-    id_column, order = ("pipe_id", PIPE_ORDER) if lines else ("manhole_id", MANHOLE_ORDER)
+    columns = _COLUMNS[key](context)
+    id_column, order = _ORDER[key]
     columns[id_column] = ids
     canonical = gpd.GeoDataFrame({name: columns[name] for name in order}, geometry=geometry, index=frame.index)
-    mapping = {"pipe_id": "id", "manhole_id": "id"}
+    mapping = {id_column: "id"}
     absent = tuple(name for name in order if mapping.get(name, name) not in source.fields and name != "shape")
     return LayerData(source.path, layer, frame, canonical, absent)
 
 
 def read_layers(config: Config, findings: FindingLog) -> Layers:
-    """Read the configured pipe and manhole layers.
+    """Read the configured pipe, manhole and catchment layers.
 
     Parameters
     ----------
@@ -393,4 +329,7 @@ def read_layers(config: Config, findings: FindingLog) -> Layers:
     manholes = None
     if config.manholes is not None:
         manholes = _read_layer(config.manholes, "manholes", config=config, findings=findings, crs=crs)
-    return Layers(pipes=pipes, manholes=manholes, crs=crs)
+    catchments = None
+    if config.catchments is not None:
+        catchments = _read_layer(config.catchments, "catchments", config=config, findings=findings, crs=crs)
+    return Layers(pipes=pipes, manholes=manholes, crs=crs, catchments=catchments)

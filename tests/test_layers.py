@@ -153,7 +153,7 @@ def test_pipes_and_manholes_in_different_files_formats_and_crs(tmp_path: Path, m
     np.testing.assert_allclose(shapely.get_x(nodes.geometry.values), [500000, 500040, 500080, 500080], atol=1e-3)
     assert nodes["access"].tolist() == [True, True, False, True]
     np.testing.assert_allclose(nodes["rim"], [11.5, 11.2, 10.9, 10.4])
-    assert layers.missing_fields["manholes"] == ("invert", "depth", "inflow")
+    assert layers.missing_fields["manholes"] == ("invert", "depth", "inflow", "population", "point_load")
 
 
 def test_geographic_layer_is_projected_and_lengths_match_the_ellipsoid(tmp_path: Path, make_config: MapConfig) -> None:
@@ -365,3 +365,53 @@ def test_file_with_several_layers_needs_a_layer_name(tmp_path: Path, make_config
         _read(make_config(_pipes_config(path, 'layer = "drains"\n')))
     layers, _ = _read(make_config(_pipes_config(path, 'layer = "sewers"\n')))
     assert layers.pipes.layer == "sewers" and len(layers.pipes.canonical) == 3
+
+
+def _catchments() -> gpd.GeoDataFrame:
+    """Two invented catchments in EPSG:4326 (one a multi-polygon) and a line that is no area."""
+    square = shapely.box(500000, 5700000, 500100, 5700100)  # 1.0 ha
+    two = shapely.MultiPolygon([shapely.box(500100, 5700000, 500150, 5700100), shapely.box(500200, 5700000, 500250, 5700100)])
+    shapes = list(gpd.GeoSeries([square, two], crs=UTM).to_crs("EPSG:4326"))
+    return gpd.GeoDataFrame(
+        {"AREA": ["A1", "A2", "A3"], "OUTLET": ["M1", None, "M3"], "POP": [120.0, -9999.0, 5.0], "HOUSES": [None, 40.0, 2.0],
+         "IMP": [0.5, "lots", 0.2], "HA": [None, 0.0, 0.3]},
+        geometry=[*shapes, LineString([(-3.0, 51.46), (-3.0, 51.47)])],
+        crs="EPSG:4326",
+    )  # fmt: skip
+
+
+CATCHMENT_FIELDS = """
+[catchments]
+path = "{path}"
+[catchments.fields]
+id = "AREA"
+drains_to = "OUTLET"
+population = "POP"
+dwellings = "HOUSES"
+impervious_fraction = "IMP"
+area_ha = "HA"
+"""
+
+
+def test_catchments_are_read_as_polygons_in_the_working_crs(tmp_path: Path, make_config: MapConfig, unchanged: Check) -> None:
+    pipes = _write(_pipes(), tmp_path, "pipes", "gpkg")
+    areas = _write(_catchments(), tmp_path, "areas", "geojson")
+    unchanged()
+    layers, findings = _read(make_config(_pipes_config(pipes, PIPE_FIELDS) + CATCHMENT_FIELDS.format(path=areas.as_posix())))
+    unchanged()
+    assert layers.catchments is not None
+    areas_read = layers.catchments.canonical
+    assert areas_read.crs == pyproj.CRS(UTM) and areas_read["catchment_id"].tolist() == ["A1", "A2", "A3"]
+    # the projected square keeps its 10,000 m2 to well within a square metre
+    np.testing.assert_allclose(areas_read.geometry.area.to_numpy()[:2], [10_000.0, 10_000.0], rtol=1e-4)
+    assert areas_read.geometry.geom_type.tolist()[:2] == ["Polygon", "MultiPolygon"] and areas_read.geometry.iloc[2] is None
+    assert areas_read["drains_to"].fillna("none").tolist() == ["M1", "none", "M3"]
+    np.testing.assert_allclose(areas_read["population"], [120.0, np.nan, 5.0])
+    np.testing.assert_allclose(areas_read["impervious_fraction"], [0.5, np.nan, 0.2])
+    np.testing.assert_allclose(areas_read["area_ha"], [np.nan, np.nan, 0.3])
+    found = findings.to_frame()
+    assert sorted(zip(found["feature"], found["code"])) == [
+        ("A2", "nonpositive_size"), ("A2", "not_a_number"), ("A2", "sentinel_value"), ("A3", "wrong_geometry_type")
+    ]
+    assert set(found["layer"]) == {"catchments"}
+    assert "occupancy" in layers.missing_fields["catchments"] and "population" not in layers.missing_fields["catchments"]
