@@ -82,4 +82,4 @@ def test_demo_runs_on_the_bundled_town_and_prints_a_table(tmp_path: Path, capsys
     assert cli.main(["demo", "-o", str(tmp_path / "demo")]) == cli.EXIT_OK
     text = capsys.readouterr().out
     assert "surcharge" in text and "audit.gpkg" in text and "licensed engineer" in text
-    assert {path.name for path in (tmp_path / "demo").iterdir()} >= {"audit.gpkg", "summary.json", "candidates.csv"}
+    assert {path.name for path in (tmp_path / "demo").iterdir()} >= {"audit.gpkg", "summary.json", "candidates.csv", "report.html"}
