@@ -45,6 +45,62 @@ class DesignFlows:
     source: NDArray[np.str_]
     node_total: Array
     upstream_length: Array  # this pipe and every pipe upstream of it [m]
+    parts: FlowParts | None = None  # the parts of a flow built from the catchment, else None
+
+
+@dataclass(frozen=True)
+class FlowParts:
+    """The parts of a design flow built from the catchment, per pipe (NaN where not built)."""
+
+    q_sanitary: Array  # peaked domestic flow plus point loads and manhole inflows [m^3/s]
+    q_infiltration: Array  # infiltration [m^3/s]
+    q_storm: Array  # rational-method runoff [m^3/s]
+    tc_min: Array  # time of concentration at the pipe's upstream end [min]
+    population_served: Array  # persons upstream [-]
+    area_served_ha: Array  # catchment area upstream [ha]
+    iterations: int = 0  # passes of the time-of-concentration iteration (0 without storm)
+
+    @property
+    def total(self) -> Array:
+        """Sum of the parts [m^3/s]; a part that was not built counts as zero."""
+        return np.nansum(np.stack([self.q_sanitary, self.q_infiltration, self.q_storm]), axis=0)
+
+
+@dataclass(frozen=True)
+class Carrier:
+    """Carries node loads down a network once its split shares and loops are known.
+
+    ``usable`` marks the pipes whose carried value is defined: placed, on no loop and with no
+    loop upstream. Each call is one sparse triangular solve (:func:`accumulate`).
+    """
+
+    upstream: Index
+    downstream: Index
+    rank: Index
+    weight: Array  # share of the upstream node's total each pipe carries; 0 on loops
+    usable: NDArray[np.bool_]
+
+    @classmethod
+    def build(cls, *, upstream: Index, downstream: Index, order: Index, in_cycle: NDArray[np.bool_], node_count: int) -> Carrier:
+        """Equal split at bifurcations, loops cut out, pipes below a loop marked unusable."""
+        placed = (upstream >= 0) & (downstream >= 0)
+        rank = node_rank(upstream, downstream, order, node_count=node_count)
+        out_degree = np.bincount(upstream[placed], minlength=node_count)
+        carries = placed & ~in_cycle
+        weight = np.where(carries, 1.0 / np.maximum(out_degree[np.maximum(upstream, 0)], 1), 0.0)
+        cycle_nodes = np.zeros(node_count)
+        cycle_nodes[downstream[in_cycle & placed]] = 1.0
+        below, _ = accumulate(upstream, downstream, rank, node_load=cycle_nodes, pipe_weight=carries.astype(float), pipe_offset=np.zeros(upstream.size))
+        usable = carries & (below[np.maximum(upstream, 0)] == 0)
+        return cls(upstream, downstream, rank, weight, usable)
+
+    def carry(self, node_load: Array, pipe_load: Array | None = None) -> Array:
+        """Per pipe, the sum of ``node_load`` (per node) and ``pipe_load`` (per pipe, its own
+        included) upstream of it; NaN where not ``usable``. NaN loads count as zero."""
+        offset = np.zeros(self.upstream.size) if pipe_load is None else np.where(self.weight > 0, np.nan_to_num(pipe_load), 0.0)
+        _, carried = accumulate(self.upstream, self.downstream, self.rank, node_load=np.nan_to_num(node_load),
+                                pipe_weight=np.where(self.weight > 0, self.weight, 0.0), pipe_offset=offset)  # fmt: skip
+        return np.where(self.usable, carried, np.nan)
 
 
 def node_rank(upstream: Index, downstream: Index, order: Index, *, node_count: int) -> Index:
