@@ -27,7 +27,7 @@ import sys
 import tempfile
 import time
 from collections.abc import Callable, Sequence
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
 
@@ -112,10 +112,24 @@ def _pick(rng: np.random.Generator, count: int, share: float) -> np.ndarray:
     return rng.choice(count, size=max(1, int(share * count)), replace=False)
 
 
-def _sizes(rng: np.random.Generator, pipes: int) -> dict[str, np.ndarray]:
-    """Shape codes and sizes [mm]: mostly circular, some egg-shaped and box sections."""
+def upstream_counts(tree: Tree) -> np.ndarray:
+    """Nodes drained through each node, itself included: summed level by level from the top."""
+    count = np.ones(tree.parent.size, dtype=np.int64)
+    by_level = np.argsort(-tree.hops, kind="stable")
+    bounds = np.flatnonzero(np.diff(tree.hops[by_level])) + 1
+    for level in np.split(by_level, bounds)[:-1]:  # one step per level, not per node; the last is the outfall
+        np.add.at(count, tree.parent[level], count[level])
+    return count
+
+
+def _sizes(rng: np.random.Generator, drained: np.ndarray) -> dict[str, np.ndarray]:
+    """Shape codes and sizes [mm], growing with the manholes drained, a few a size too small."""
+    pipes = drained.size
     form = rng.choice(np.array(["C", "OV", "R"], dtype=object), size=pipes, p=[0.9, 0.06, 0.04])
-    bore = rng.choice(np.array([150.0, 225.0, 300.0, 375.0, 450.0, 600.0, 900.0]), size=pipes)
+    bores = np.array([225.0, 300.0, 375.0, 450.0, 600.0, 750.0, 900.0, 1200.0, 1500.0])
+    step = np.searchsorted(np.array([4, 12, 30, 80, 200, 500, 1500, 5000]), drained)
+    step = np.clip(step - (rng.random(pipes) < 0.05), 0, bores.size - 1)
+    bore = bores[step]
     round_pipe = form == "C"
     rise = np.where(round_pipe, np.nan, np.where(form == "OV", 1.5, 1.0) * bore)
     span = np.where(round_pipe, np.nan, bore)
@@ -123,8 +137,8 @@ def _sizes(rng: np.random.Generator, pipes: int) -> dict[str, np.ndarray]:
 
 
 def _levels(tree: Tree, rng: np.random.Generator) -> tuple[np.ndarray, np.ndarray]:
-    """Manhole invert and cover levels [m]: falling about 0.4 % towards the outfall."""
-    invert = 50.0 + 0.004 * SPACING_M * tree.hops + rng.uniform(-0.05, 0.05, tree.hops.size)
+    """Manhole invert and cover levels [m]: falling about 0.8 % towards the outfall."""
+    invert = 50.0 + 0.008 * SPACING_M * tree.hops + rng.uniform(-0.05, 0.05, tree.hops.size)
     return invert, invert + rng.uniform(1.2, 3.5, tree.hops.size)
 
 
@@ -141,7 +155,7 @@ def make_layers(pipes: int, *, seed: int) -> tuple[gpd.GeoDataFrame, gpd.GeoData
     ends[backwards] = ends[backwards, ::-1]
     refs = np.char.add("S", child.astype("U")).astype(object)
     refs[_pick(rng, pipes, PLANTED["duplicate_id"])] = "S1"
-    frame = {"ref": refs, "mh_up": names[up], "mh_dn": names[down], **_sizes(rng, pipes),
+    frame = {"ref": refs, "mh_up": names[up], "mh_dn": names[down], **_sizes(rng, upstream_counts(tree)[up]),
              "il_up": invert[up] - 0.02, "il_dn": invert[down] + 0.02}  # fmt: skip
     frame["bore_mm"][_pick(rng, pipes, PLANTED["zero_diameter"])] = 0.0
     frame["il_dn"][_pick(rng, pipes, PLANTED["sentinel_invert"])] = -9999.0
@@ -151,7 +165,7 @@ def make_layers(pipes: int, *, seed: int) -> tuple[gpd.GeoDataFrame, gpd.GeoData
               "laid": rng.integers(1890, 2024, pipes).astype(float)}  # fmt: skip
     pipe_layer = gpd.GeoDataFrame(frame, geometry=shapely.linestrings(ends), crs=CRS)
     manholes = gpd.GeoDataFrame(
-        {"mh": names, "cover": cover, "sump": invert, "load_ls": rng.uniform(0.0, 0.02, pipes + 1),
+        {"mh": names, "cover": cover, "sump": invert, "load_ls": rng.uniform(0.0, 4.0, pipes + 1),
          "lid": np.where(rng.random(pipes + 1) < 0.97, "Y", "N").astype(object)},
         geometry=shapely.points(tree.x, tree.y), crs=CRS,
     )  # fmt: skip
@@ -162,6 +176,7 @@ def write_network(pipes: int, folder: Path, *, seed: int) -> Path:
     """Write net.gpkg (layers ``pipes`` and ``manholes``) and net.toml into ``folder``."""
     pipe_layer, manholes = make_layers(pipes, seed=seed)
     gpkg = folder / "net.gpkg"
+    gpkg.unlink(missing_ok=True)  # the manholes are appended to the file the pipes start
     pyogrio.write_dataframe(pipe_layer, gpkg, layer="pipes", driver="GPKG", use_arrow=True)
     pyogrio.write_dataframe(manholes, gpkg, layer="manholes", driver="GPKG", use_arrow=True, append=True)
     config = folder / "net.toml"
@@ -273,7 +288,6 @@ class Row:
     pipes: int
     floor: dict[str, float]
     audit: dict[str, float]
-    stages: list[str] = field(default_factory=list)
 
 
 def bench(sizes: Sequence[int], *, repeat: int, seed: int, workdir: Path) -> list[Row]:
