@@ -100,7 +100,7 @@ def _rainfall(check: _Checker, data: object) -> Rainfall:
         b=check.number(table, "b", "flows.rainfall", defaults.b),
         c=check.number(table, "c", "flows.rainfall", defaults.c, low=1e-9),
         table=rows,
-        inlet_time_min=check.number(table, "inlet_time_min", "flows.rainfall", defaults.inlet_time_min),
+        inlet_time_min=check.number(table, "inlet_time_min", "flows.rainfall", defaults.inlet_time_min, low=1e-9),
     )
 
 
