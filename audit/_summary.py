@@ -1,4 +1,4 @@
-"""summary.json and the terminal table: counts, lengths and the settings an audit ran with.
+"""summary.json and the terminal table: counts, lengths, the settings and flow assumptions an audit ran with.
 
 Flag counts and lengths are computed over all pipes at once: the ``flags`` column is split on
 ";" and exploded, then grouped by code. Every value is made JSON-safe (NaN and infinities become
@@ -48,6 +48,7 @@ def build_summary(result: AuditResult, *, pipes: pd.DataFrame, findings: pd.Data
         "severity": severity_counts(pipes),
         "findings": finding_counts(findings),
         "rules": rule_values(result.rules),
+        "flows": result.settings.get("flows"),
         "settings": result.settings,
         "missing_fields": result.missing_fields,
     }

@@ -17,7 +17,7 @@ from tqdm import tqdm
 
 from .config import Config, load_config
 from .findings import FindingLog
-from .flows import DesignFlows, design_flows
+from .flows import DesignFlows
 from .friction import Friction
 from .hydraulics import FlowState, FlowStatus, normal_depth
 from .layers import Layers, read_layers
@@ -27,6 +27,8 @@ from .rules import check_pipes
 from .sections import PipeSections
 from .slopes import derive_levels
 from ._assemble import finding_points, manhole_output, network_totals, with_columns
+from ._design_flows import built_flows
+from .storm import PipeHydraulics
 
 STAGES = ("reading layers", "building the network", "slopes", "design flows", "hydraulics", "rules", "assembling")
 
@@ -76,20 +78,20 @@ def run(config: Config | str | Path, *, progress: bool = False) -> AuditResult:
         ready = prepare(config, progress=bar)
         pipes, network = ready.layers.pipes.canonical, ready.network
         _step(bar, 3)
-        flows = design_flows(
-            upstream=network.upstream,
-            downstream=network.downstream,
-            order=network.order,
-            in_cycle=network.in_cycle,
-            node_inflow=network.nodes["inflow"].to_numpy(dtype=float),
+        hydraulics = _pipe_hydraulics(ready)
+        layers = ready.layers
+        flows = built_flows(
+            network,
+            manholes=None if layers.manholes is None else layers.manholes.canonical,
+            catchments=None if layers.catchments is None else layers.catchments.canonical,
             given_flow=pipes["flow"].to_numpy(dtype=float),
-            length=ready.levels["length_m"].to_numpy(dtype=float),
+            pipes=hydraulics,
             pipe_labels=pipe_labels(pipes),
-            node_labels=network.nodes["node_id"].to_numpy(dtype=object),
+            options=ready.config.flows,
             findings=ready.findings,
         )
         _step(bar, 4)
-        state = _hydraulics(ready, flows)
+        state = normal_depth(flows.q_design, hydraulics.sections, hydraulics.slope, hydraulics.friction, temperature_c=hydraulics.temperature_c)
         _step(bar, 5)
         computed = _computed_columns(ready, flows, state)
         checks = check_pipes(
@@ -127,8 +129,8 @@ def pipe_sizes(pipes: pd.DataFrame) -> tuple[np.ndarray, np.ndarray]:
     return out_height, out_width
 
 
-def _hydraulics(ready: Prepared, flows: DesignFlows) -> FlowState:
-    """Normal depth of the design flow in every pipe, with the config's friction formula."""
+def _pipe_hydraulics(ready: Prepared) -> PipeHydraulics:
+    """Sections, slopes, friction (the config's formula) and lengths of every pipe."""
     pipes, options = ready.layers.pipes.canonical, ready.config.hydraulics
     height, width = pipe_sizes(pipes)
     sections = PipeSections.from_names(pipes["shape"].to_numpy(dtype=object), height, width)
@@ -137,7 +139,8 @@ def _hydraulics(ready: Prepared, flows: DesignFlows) -> FlowState:
     friction = Friction.uniform(options.formula, default, len(pipes), temperature_c=options.water_temp_c)  # type: ignore[arg-type]
     friction = Friction(friction.formula, np.where(np.isfinite(roughness), roughness, default), friction.kinematic_viscosity)
     slope = ready.levels["slope"].to_numpy(dtype=float)
-    return normal_depth(flows.q_design, sections, slope, friction, temperature_c=options.water_temp_c)
+    length = ready.levels["length_m"].to_numpy(dtype=float)
+    return PipeHydraulics(sections, slope, friction, length, temperature_c=options.water_temp_c)
 
 
 def _computed_columns(ready: Prepared, flows: DesignFlows, state: FlowState) -> pd.DataFrame:
@@ -166,8 +169,28 @@ def _computed_columns(ready: Prepared, flows: DesignFlows, state: FlowState) -> 
         "from_node_id": np.where(network.upstream >= 0, node_ids[np.maximum(network.upstream, 0)], None),
         "to_node_id": np.where(network.downstream >= 0, node_ids[np.maximum(network.downstream, 0)], None),
         "upstream_length_m": flows.upstream_length,
+        **_flow_parts(flows),
     }
     return pd.DataFrame(columns, index=ready.layers.pipes.canonical.index)
+
+
+def _flow_parts(flows: DesignFlows) -> dict[str, np.ndarray]:
+    """The parts of the design flow per pipe; NaN throughout for ``[flows] kind = "given"``."""
+    names = ("q_sanitary", "q_infiltration", "q_storm", "tc_min", "population_served", "area_served_ha")
+    if flows.parts is None:
+        return {name: np.full(flows.q_design.size, np.nan) for name in names}
+    return {name: getattr(flows.parts, name) for name in names}
+
+
+def flow_assumptions(config: Config, flows: DesignFlows) -> dict[str, object]:
+    """What the design flows assumed, for summary.json: the ``[flows]`` values used and the passes taken."""
+    options = asdict(config.flows)
+    options["tc_iterations"] = 0 if flows.parts is None else flows.parts.iterations
+    if config.flows.kind == "given":
+        return {"kind": "given", "note": "given pipe flows and manhole inflows only"}
+    if not config.flows.needs_rainfall:
+        options.pop("rainfall")
+    return options
 
 
 def _metrics(pipes: pd.DataFrame, computed: pd.DataFrame, state: FlowState) -> pd.DataFrame:
@@ -209,7 +232,8 @@ def _result(ready: Prepared, flows: DesignFlows, computed: pd.DataFrame) -> Audi
     manholes = manhole_output(layers, ready.network, flows.node_total, ready.findings) if layers.manholes is not None else None
     findings = finding_points(ready.findings, source_crs=layers.crs, target_crs=crs)
     inputs = tuple(dict.fromkeys(source.path for source in (config.pipes, config.manholes) if source is not None))
-    settings = {"hydraulics": asdict(config.hydraulics), "network": asdict(config.network), "working_crs": layers.crs.to_string()}
+    settings = {"hydraulics": asdict(config.hydraulics), "network": asdict(config.network), "working_crs": layers.crs.to_string(),
+                "flows": flow_assumptions(config, flows)}
     return AuditResult(
         pipes=gpd.GeoDataFrame(pipes, geometry=layers.pipes.original.geometry.name, crs=crs),
         manholes=manholes,

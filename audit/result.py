@@ -33,7 +33,7 @@ PIPE_COLUMNS: dict[str, str] = {
     "down_cover_m": "cover over the crown at the downstream end [m]",
     "q_full": "full-bore capacity [m3/s]",
     "v_full": "full-bore velocity [m/s]",
-    "q_design": "design flow [m3/s]: given, or accumulated from manhole inflows upstream",
+    "q_design": "design flow [m3/s]: given, else accumulated from manhole inflows or built from the catchment ([flows] kind)",
     "flow_source": "where q_design comes from: given, accumulated, missing or cycle",
     "load_ratio": "q_design / q_full [-]",
     "depth_ratio": "normal depth / internal height [-]; 1.0 when surcharged",
@@ -47,6 +47,12 @@ PIPE_COLUMNS: dict[str, str] = {
     "to_node_id": "the node the pipe flows into",
     "upstream_length_m": "total length of this pipe and every pipe upstream of it [m]",
     "access_run_m": "length of the run between access points that holds this pipe [m]",
+    "q_sanitary": "peaked sanitary flow plus point loads and manhole inflows [m3/s], growth included; empty for given flows",
+    "q_infiltration": "infiltration from the length of sewer and the area upstream [m3/s], growth included",
+    "q_storm": "rational-method storm runoff [m3/s], growth included",
+    "tc_min": "time of concentration at the pipe's upstream end [min]: inlet time plus the longest travel time",
+    "population_served": "persons upstream of the pipe [-]",
+    "area_served_ha": "catchment area upstream of the pipe [ha]",
 }
 """Computed pipe columns, in output order, with their units and meaning."""
 

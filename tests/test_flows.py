@@ -1,6 +1,7 @@
 """Design flows: hand-checked accumulation, given flows, splits and loops."""
 
 import numpy as np
+import pandas as pd
 import pytest
 
 from audit._graph import order_pipes
@@ -80,3 +81,57 @@ def test_a_random_tree_conserves_its_load() -> None:
     children_sum = np.zeros(count)
     np.add.at(children_sum, parent, result.q_design)
     np.testing.assert_allclose(result.q_design, load[1:] + children_sum[1:], rtol=1e-12)
+
+
+def _network(up: list[int], down: list[int], inflow: list[float]):  # type: ignore[no-untyped-def]
+    from audit.network import Network
+
+    upstream, downstream = np.array(up), np.array(down)
+    order, in_cycle = order_pipes(upstream, downstream, node_count=len(inflow))
+    count = len(inflow)
+    nodes = pd.DataFrame({"node_id": [f"N{i}" for i in range(count)], "kind": "manhole", "manhole_row": np.arange(count),
+                          "x": np.arange(count) * 50.0, "y": 0.0, "inflow": inflow})  # fmt: skip
+    return Network(nodes, upstream, downstream, np.zeros(len(up), bool), order, in_cycle, np.zeros(len(up), np.int64),
+                   np.array([count - 1]), "ids")  # fmt: skip
+
+
+def _hydraulics(count: int):  # type: ignore[no-untyped-def]
+    from audit.friction import Friction
+    from audit.sections import PipeSections
+    from audit.storm import PipeHydraulics
+
+    sections = PipeSections.from_names(np.full(count, "circular"), np.full(count, 0.3), np.full(count, 0.3))
+    return PipeHydraulics(sections, np.full(count, 0.005), Friction.uniform("manning", 0.013, count), np.full(count, 100.0))
+
+
+def test_built_sanitary_flows_scale_by_growth_and_a_given_flow_wins_only_in_its_pipe() -> None:
+    from audit._design_flows import built_flows
+    from audit._flow_settings import FlowOptions
+
+    # chain N0 -> N1 -> N2 -> N3; 2000 persons at N0 and N1, 1 l/s inflow at N1; pipe 1 has a study flow of 9 l/s
+    network = _network([0, 1, 2], [1, 2, 3], [0.0, 0.001, 0.0, 0.0])
+    manholes = pd.DataFrame({"population": [2000.0, 2000.0, 0.0, 0.0], "point_load": [0.0, 0.0, 0.0, 0.0]})
+    options = FlowOptions(kind="sanitary", per_capita_l_day=216.0, peaking="constant", peaking_factor=2.0,
+                          infiltration_l_s_km=1.0, growth_factor=1.5)  # fmt: skip
+    log = FindingLog()
+    flows = built_flows(network, manholes=manholes, catchments=None, given_flow=np.array([np.nan, 0.009, np.nan]), pipes=_hydraulics(3),
+                        pipe_labels=np.array(["P0", "P1", "P2"], dtype=object), options=options, findings=log)  # fmt: skip
+    assert flows.parts is not None
+    # by hand: 2000 x 216 l/day = 5 l/s average, x 2 peaking = 10 l/s; 4000 persons give 20 l/s plus the 1 l/s inflow
+    np.testing.assert_allclose(flows.parts.q_sanitary, np.array([10.0, 21.0, 21.0]) * 1.5e-3)
+    np.testing.assert_allclose(flows.parts.q_infiltration, np.array([0.1, 0.2, 0.3]) * 1.5e-3)  # 1 l/s per km of 100 m pipes
+    np.testing.assert_allclose(flows.q_design, [15.15e-3, 0.009, 31.95e-3])
+    assert flows.source.tolist() == ["accumulated", "given", "accumulated"]
+    np.testing.assert_allclose(flows.node_total, [15.15e-3, 0.009, 31.95e-3, 31.95e-3])
+    assert np.isnan(flows.parts.tc_min).all() and flows.parts.population_served.tolist() == [2000.0, 4000.0, 4000.0]
+
+
+def test_given_kind_keeps_the_flows_as_before() -> None:
+    from audit._design_flows import built_flows
+    from audit._flow_settings import FlowOptions
+
+    network = _network([0, 1], [1, 2], [0.002, 0.003, 0.0])
+    flows = built_flows(network, manholes=None, catchments=None, given_flow=np.full(2, np.nan), pipes=_hydraulics(2),
+                        pipe_labels=np.array(["P0", "P1"], dtype=object), options=FlowOptions(), findings=FindingLog())  # fmt: skip
+    assert flows.parts is None
+    np.testing.assert_allclose(flows.q_design, [0.002, 0.005])
