@@ -1,5 +1,9 @@
 """Generate the invented demo town of Brackenhollow: ``town.gpkg`` and ``ERRORS.md``.
 
+``town.gpkg`` holds three layers: ``pipes``, ``manholes`` (with the trade load) and
+``catchments`` (a square of houses around each manhole, with its population and impervious
+share), so that ``town.toml`` builds the design flows from population and catchments.
+
 Brackenhollow does not exist. Its coordinates (EPSG:32630, UTM zone 30N) are invented and fall
 in open water, so no real place or utility is implied. The register holds two gravity
 catchments, West (the old town, with a brick egg-shaped trunk) and East (post-war estates), each
@@ -57,6 +61,7 @@ OLD_LATERAL_YEAR, OLD_MIN_MM, MODERN_MIN_MM = 1935, 150, 225
 PER_CAPITA_L_DAY, PEAK_FACTOR = 220.0, 3.0
 POPULATION = {"W": (150, 550), "E": (60, 250)}  # persons served per manhole
 BREWERY_LOAD_LS, OLD_LATERAL_MM = 100.0, 225  # trade load on an old lateral: overloaded
+SUBCATCHMENT_SIDE_M, IMPERVIOUS_SHARE = 40.0, (0.3, 0.7)  # a square of houses and gardens per manhole
 SILT_GRADE, SILT_MM = 0.00025, 900  # East outfall culvert: large and too flat
 SHALLOW_DEPTH_M, LENGTH_TYPO_RATIO, REVERSE_RISE_M = 1.0, 1.4, 0.12
 CONCRETE_FROM_MM, PVC_FROM_YEAR = 375, 1975  # material by size and age
@@ -219,6 +224,7 @@ def build_town(rng: np.random.Generator) -> tuple[pd.DataFrame, pd.DataFrame]:
     level = levels(nodes["down"].to_numpy())
     low, high = (nodes["zone"].map({z: span[i] for z, span in POPULATION.items()}).to_numpy() for i in (0, 1))
     people = rng.integers(low, high + 1)
+    nodes["people"] = np.where(nodes["kind"] == "outfall", 0, people)
     nodes["load"] = np.where(nodes["kind"] == "outfall", 0.0,
                              np.round(people * PER_CAPITA_L_DAY / 86_400 * PEAK_FACTOR, 2))
     _set_history(nodes, pipes, rng)
@@ -304,6 +310,7 @@ def network_errors(nodes: pd.DataFrame, pipes: pd.DataFrame, book: ErrorBook) ->
         nodes.loc[book.pick("manholes", (kind == "lateral") & (np.abs(row) == 2) & fed_by_lateral), "lid"] = "N"
     head = book.pick("manholes", (zone == "W") & (kind == "lateral") & ~fed_by_lateral & np.isin(np.abs(row), (3, 4)))
     nodes.loc[head, "load"] += BREWERY_LOAD_LS
+    nodes["trade"] = np.where(np.arange(len(nodes)) == head, BREWERY_LOAD_LS, 0.0)
     chain = (zone[up] == "W") & (col[up] == col[head]) & (kind[up] == "lateral")
     chain &= (np.sign(row[up]) == np.sign(row[head])) & (np.abs(row[up]) <= abs(row[head]))
     level = nodes["level"].to_numpy()
@@ -375,7 +382,7 @@ def register_tables(nodes: pd.DataFrame, pipes: pd.DataFrame) -> tuple[pd.DataFr
     holes = pd.DataFrame({
         "mh_ref": refs, "cover_lvl": np.round(nodes["ground"].to_numpy(), 2), "sump_lvl": nodes["invert"].to_numpy(),
         "chamber_d": pd.array(chamber, dtype="Int32"),
-        "dwf_ls": nodes["load"].to_numpy(), "lid": nodes["lid"].to_numpy(),
+        "dwf_ls": nodes["load"].to_numpy(), "trade_ls": nodes["trade"].to_numpy(), "lid": nodes["lid"].to_numpy(),
         "geometry": shapely.points(nodes[["x", "y"]].to_numpy()),
     })
     holes.loc[~open_chamber.to_numpy(), "chamber_d"] = pd.NA
@@ -410,7 +417,7 @@ def typing_errors(table: pd.DataFrame, holes: pd.DataFrame, lateral: np.ndarray,
     y = float(valley(np.array(x_mid))) + LATERAL_STEP_M
     ground = round(float(terrain(np.array(x_mid), np.array(y))), 2)
     orphan = pd.DataFrame({"mh_ref": ["X001"], "cover_lvl": [ground], "sump_lvl": [round(ground - DEPTH_MIN_M, 2)],
-                           "chamber_d": pd.array([CHAMBER_MM[1, 0]], dtype="Int32"), "dwf_ls": [0.0], "lid": ["Y"],
+                           "chamber_d": pd.array([CHAMBER_MM[1, 0]], dtype="Int32"), "dwf_ls": [0.0], "trade_ls": [0.0], "lid": ["Y"],
                            "geometry": [shapely.Point(x_mid, y)]})
     holes = pd.concat([holes, orphan], ignore_index=True)
     book.taken["manholes"] = np.r_[book.taken["manholes"], False]
@@ -429,6 +436,22 @@ def error_report(book: ErrorBook, order: dict[str, np.ndarray], refs: dict[str, 
     return "\n".join(lines) + "\n"
 
 
+def catchment_layer(nodes: pd.DataFrame, rng: np.random.Generator) -> gpd.GeoDataFrame:
+    """One square sub-catchment around each manhole that serves people, draining to it.
+
+    Drawn after everything else so that the pipes, manholes and ERRORS.md do not depend on it.
+    """
+    served = nodes[nodes["people"] > 0]
+    half = SUBCATCHMENT_SIDE_M / 2
+    x, y = served["x"].to_numpy(), served["y"].to_numpy()
+    squares = shapely.box(x - half, y - half, x + half, y + half)
+    return gpd.GeoDataFrame({
+        "sub_ref": "S" + served["ref"].to_numpy(dtype=str).astype(object), "outlet_mh": served["ref"].to_numpy(),
+        "persons": served["people"].to_numpy(dtype=int),
+        "imp_share": np.round(rng.uniform(*IMPERVIOUS_SHARE, len(served)), 2), "geometry": squares,
+    }, geometry="geometry", crs=CRS)
+
+
 def write_town(outdir: Path, *, seed: int = SEED) -> None:
     """Build the town and write ``town.gpkg`` and ``ERRORS.md`` into ``outdir``."""
     rng = np.random.default_rng(seed)
@@ -444,6 +467,7 @@ def write_town(outdir: Path, *, seed: int = SEED) -> None:
         order[name] = np.argsort(perm)
         layers[name] = gpd.GeoDataFrame(frame.iloc[perm].reset_index(drop=True), geometry="geometry", crs=CRS)
     refs = {"pipes": table["asset_ref"], "manholes": holes["mh_ref"]}
+    layers["catchments"] = catchment_layer(nodes, rng)
     outdir.mkdir(parents=True, exist_ok=True)
     scratch = outdir / "town.partial.gpkg"
     scratch.unlink(missing_ok=True)

@@ -86,12 +86,12 @@ def test_two_runs_give_the_same_bytes(fresh: Path, tmp_path: Path) -> None:
     _generator().main([str(tmp_path)])
     for name in ("town.gpkg", "ERRORS.md"):
         assert (tmp_path / name).read_bytes() == (fresh / name).read_bytes(), name
-    for layer in ("pipes", "manholes"):
+    for layer in ("pipes", "manholes", "catchments"):
         assert_geodataframe_equal(_read(tmp_path, layer), _read(fresh, layer))
 
 
 def test_bundled_town_equals_a_fresh_run(fresh: Path) -> None:
-    for layer in ("pipes", "manholes"):
+    for layer in ("pipes", "manholes", "catchments"):
         assert_geodataframe_equal(_read(SAMPLE, layer), _read(fresh, layer))
     assert (SAMPLE / "ERRORS.md").read_text() == (fresh / "ERRORS.md").read_text()
 
@@ -268,12 +268,25 @@ def test_too_steep_and_silting_pipes(hydraulics: pd.DataFrame, errors: pd.DataFr
 
 def test_config_parses_and_maps_existing_fields(pipes: gpd.GeoDataFrame, manholes: gpd.GeoDataFrame) -> None:
     config = tomllib.loads((SAMPLE / "town.toml").read_text(encoding="utf-8"))
-    assert set(config) == {"input", "pipes", "manholes", "network", "hydraulics"}
-    for name, layer in (("pipes", pipes), ("manholes", manholes)):
+    assert set(config) == {"input", "pipes", "manholes", "catchments", "flows", "network", "hydraulics"}
+    catchments = _read(SAMPLE, "catchments")
+    for name, layer in (("pipes", pipes), ("manholes", manholes), ("catchments", catchments)):
         section = config[name]
         assert (SAMPLE / section["path"]).is_file() and section["layer"] == name
         assert set(section["fields"].values()) <= set(layer.columns)
-        assert set(section["units"]) <= set(section["fields"])
+        assert set(section.get("units", {})) <= set(section["fields"])
     assert set(config["pipes"]["shapes"]) == set(pipes["profile"])
     assert set(config["pipes"]["shapes"].values()) <= {"circular", "rectangular", "egg"}
     assert config["input"]["sentinels"] == [-9999]
+
+
+def test_catchments_hold_the_people_behind_the_manhole_loads(fresh: Path, manholes: gpd.GeoDataFrame) -> None:
+    catchments = _read(fresh, "catchments")
+    assert set(catchments.geom_type) == {"Polygon"} and catchments.crs.to_epsg() == 32630
+    assert catchments["outlet_mh"].is_unique and catchments["outlet_mh"].isin(manholes.index).all()
+    assert catchments["imp_share"].between(0, 1).all()
+    # the register's dwf_ls is persons x 220 l/day x a peaking factor of 3, rounded to 0.01 l/s, plus the trade load
+    persons = catchments.set_index("outlet_mh")["persons"].reindex(manholes.index).fillna(0)
+    built = persons * 220 / 86_400 * 3 + manholes["trade_ls"]  # common practice, no source (the town's design rule)
+    np.testing.assert_allclose(built, manholes["dwf_ls"], atol=0.005 + 1e-9)
+    assert (manholes["trade_ls"] > 0).sum() == 1
