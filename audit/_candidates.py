@@ -16,6 +16,9 @@ from pathlib import Path
 
 import numpy as np
 import pandas as pd
+import pyarrow as pa
+import pyarrow.compute as pc
+import pyarrow.csv as pacsv
 
 from audit.rules import SEVERITY_ORDER
 
@@ -30,6 +33,9 @@ DECIMALS: dict[str, int] = {
     "load_ratio": 3, "depth_ratio": 3, "v_design": 2, "slope": 5, "diameter_mm": 0, "length_m": 2,
     "upstream_length_m": 1, "install_year": 0,
 }  # fmt: skip
+
+
+_SOURCES = ("diameter", "height", "shape")  # canonical columns that diameter_mm is made from
 
 
 def rank_candidates(pipes: pd.DataFrame, *, include_low: bool = False) -> pd.DataFrame:
@@ -47,23 +53,40 @@ def rank_candidates(pipes: pd.DataFrame, *, include_low: bool = False) -> pd.Dat
     """
     wanted = SEVERITY_ORDER if include_low else SEVERITY_ORDER[1:]
     rank_of = {word: place for place, word in enumerate(SEVERITY_ORDER, start=1)}
-    severity = pipes["severity"].fillna("").astype(str)
-    chosen = np.flatnonzero(severity.isin(wanted).to_numpy())
+    chosen = np.flatnonzero(pipes["severity"].isin(wanted).to_numpy())
+    used = [name for name in (*CANDIDATE_COLUMNS, *_SOURCES) if name in pipes.columns]
+    picked = pipes[list(dict.fromkeys(used))].iloc[chosen]  # convert the candidates only, not every pipe
     order = np.lexsort((
         chosen,
-        _descending(_number(pipes, "upstream_length_m")[chosen]),
-        _descending(_number(pipes, "load_ratio")[chosen]),
-        -severity.map(rank_of).to_numpy(dtype=float)[chosen],
+        _descending(_number(picked, "upstream_length_m")),
+        _descending(_number(picked, "load_ratio")),
+        -picked["severity"].map(rank_of).to_numpy(dtype=float),
     ))  # fmt: skip
-    rows = chosen[order]
-    table = pd.DataFrame({name: _column(pipes, name)[rows] for name in CANDIDATE_COLUMNS[1:]})
-    table.insert(0, "rank", np.arange(1, len(rows) + 1))
+    table = pd.DataFrame({name: _column(picked, name)[order] for name in CANDIDATE_COLUMNS[1:]})
+    table.insert(0, "rank", np.arange(1, len(order) + 1))
     return table.round({name: places for name, places in DECIMALS.items()})
 
 
 def write_candidates(table: pd.DataFrame, path: Path) -> None:
-    """Write the ranked candidates as UTF-8 CSV; unknown numbers are empty cells."""
-    table.to_csv(path, index=False, encoding="utf-8", lineterminator="\n")
+    """Write the ranked candidates as UTF-8 CSV through Arrow; unknown numbers are empty cells.
+
+    Text is quoted, numbers are not. Columns kept to 0 decimals (sizes, years) are written with
+    one, ``225.0``, as before; other numbers in their shortest form (``1`` for 1.0).
+    """
+    columns = {name: _csv_column(table[name], whole=DECIMALS.get(name) == 0) for name in table.columns}
+    pacsv.write_csv(pa.table(columns), path, pacsv.WriteOptions(quoting_style="needed"))
+
+
+def _csv_column(values: pd.Series, *, whole: bool) -> pa.Array:
+    """One column for the CSV writer; NaN and None become nulls (empty cells)."""
+    if pd.api.types.is_float_dtype(values.dtype):
+        numbers = values.to_numpy(dtype=float)
+        column = pa.array(np.where(np.isfinite(numbers), numbers, np.nan) if whole else numbers, from_pandas=True)
+        return pc.cast(column, pa.decimal128(38, 1)) if whole else column
+    try:
+        return pa.array(values, from_pandas=True)
+    except (pa.ArrowInvalid, pa.ArrowTypeError):  # mixed objects: write their text
+        return pa.array(values.astype(str).where(values.notna(), None), from_pandas=True)
 
 
 def _descending(values: np.ndarray) -> np.ndarray:
