@@ -27,7 +27,7 @@ from audit.rules import RuleSettings
 from audit.sections import Circular, Egg
 
 TOWN = Path(__file__).resolve().parents[1] / "sample_gis" / "town.toml"
-SECTION_ORDER = ["caution", "totals", "map", "flags", "part-full", "velocity", "candidates", "findings", "rules"]
+SECTION_ORDER = ["caution", "totals", "map", "flags", "part-full", "velocity", "candidates", "findings", "flows", "rules"]
 VOID = {"meta", "br", "img", "link", "input", "hr"}
 
 
@@ -327,3 +327,18 @@ def test_each_part_of_a_multi_part_line_is_a_subpath_and_a_missing_geometry_is_s
     (drawing,) = page.section("map").find_all("svg")
     data = "".join(node.attrs["d"] for node in drawing.find_all("path") if "data-class" in node.attrs)
     assert data.count("M") == len(pipes)  # one pipe drawn twice, one not at all
+
+
+def test_flows_section_shows_each_part_arriving_at_the_outfalls(town: AuditResult) -> None:
+    page = render_report(town)
+    flows = page[page.index('id="outfall-table"') : page.index('id="flow-assumptions"')]
+    pipes = town.pipe_results
+    leaving = set(pipes["from_node_id"].dropna())
+    outfalls = pipes[~pipes["to_node_id"].isin(leaving) & pipes["to_node_id"].notna()]
+    assert len(outfalls) == 2  # the demo town drains to two outfalls
+    for _, row in outfalls.iterrows():
+        assert f">{row['to_node_id']}<" in flows
+        assert f"{row['q_design'] * 1000:,.1f}" in flows
+    for heading in ("Sanitary [l/s]", "Storm [l/s]", "Population served"):
+        assert heading in flows
+    assert "per_capita_l_day" in page

@@ -20,7 +20,7 @@ from audit.report import write_report
 
 CHROMIUM = Path("/usr/bin/chromium")
 TOWN = Path(__file__).resolve().parents[1] / "sample_gis" / "town.toml"
-SECTIONS = ("caution", "totals", "map", "flags", "part-full", "velocity", "candidates", "findings", "rules")
+SECTIONS = ("caution", "totals", "map", "flags", "part-full", "velocity", "candidates", "findings", "flows", "rules")
 WINDOW = (1280, 3000)
 
 pytestmark = pytest.mark.skipif(not CHROMIUM.exists(), reason="needs /usr/bin/chromium; .ci/run installs it with apt-get")

@@ -22,6 +22,7 @@ from audit.rules import DiameterTable, RuleSettings
 
 from ._charts import flag_bars, part_full_chart, velocity_histogram
 from ._curves import report_curves
+from ._flows import flows_section
 from ._html import cell, paragraph, percent, section, table
 from ._map import CLASS_COLOURS, metric_geometry, network_map
 from ._svg import element
@@ -70,6 +71,7 @@ def render_page(result: AuditResult, *, id_field: str | None, created: datetime)
             section("velocity", "Velocity at design flow", _velocity(pipes, result.rules)),
             section("candidates", f"Top {CANDIDATE_ROWS} renewal candidates", _candidates(pipes, id_field=id_field)),
             section("findings", "Data findings", _findings(result.findings)),
+            section("flows", "Design flows at the outfalls", flows_section(pipes, result.settings.get("flows"))),
             section("rules", "Rules and run", _rules(result, created=created)),
         )
     )
