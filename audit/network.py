@@ -18,6 +18,8 @@ from dataclasses import dataclass
 import geopandas as gpd
 import numpy as np
 import pandas as pd
+import pyarrow as pa
+import pyarrow.compute as pc
 import shapely
 
 from audit import _network_findings as report
@@ -160,6 +162,11 @@ def pipe_labels(pipes: pd.DataFrame) -> np.ndarray:
     >>> pipe_labels(pd.DataFrame({"pipe_id": ["P1", None]})).tolist()
     ['P1', '#1']
     """
+    if "pipe_id" in pipes.columns and isinstance(pipes["pipe_id"].dtype, pd.StringDtype):
+        given = pipes["pipe_id"].to_numpy(dtype=object)
+        missing = pd.isna(given)
+        if not missing.any():  # the layers stage names every pipe: nothing to fill or convert
+            return given
     rows = pd.Series(np.arange(len(pipes)).astype(str), dtype=object)
     fallback = "#" + rows
     if "pipe_id" not in pipes.columns:
@@ -172,6 +179,9 @@ def _id_array(values: pd.Series | None, count: int) -> np.ndarray:
     """Ids as str objects, None where null or blank."""
     if values is None:
         return np.full(count, None, dtype=object)
+    if isinstance(values.dtype, pd.StringDtype):  # stripped in bulk, without a Python str per id
+        stripped = values.str.strip()
+        return stripped.where(stripped != "").to_numpy(dtype=object, na_value=None)
     series = pd.Series(values.to_numpy(dtype=object))
     present = series.notna().to_numpy()
     text = np.full(count, None, dtype=object)
@@ -259,7 +269,9 @@ def _nodes_by_id(end_ids: np.ndarray, manhole_nodes: pd.DataFrame) -> np.ndarray
     if (end_ids == None).all():  # noqa: E711
         return np.full(end_ids.shape, -1, dtype=np.int64)
     usable = np.flatnonzero(named != None)  # noqa: E711
-    lookup = pd.Index(named[usable]).get_indexer(end_ids.reshape(-1))
+    # one hash lookup in Arrow over all ends; ids are str or None (see _id_array)
+    wanted = pa.array(end_ids.reshape(-1), type=pa.large_string())
+    lookup = pc.index_in(wanted, value_set=pa.array(named[usable], type=pa.large_string())).fill_null(-1).to_numpy()
     found = np.where(lookup >= 0, usable[np.maximum(lookup, 0)] if usable.size else -1, -1)
     return found.astype(np.int64).reshape(end_ids.shape)
 

@@ -172,7 +172,7 @@ def _report(
 ) -> None:
     """``length_mismatch``, ``zero_length`` and ``missing_invert`` findings."""
     names = pd.Series(pipe_labels(pipes), dtype=object)
-    x, y = midpoints(np.asarray(pipes.geometry.values, dtype=object))
+    lines = np.asarray(pipes.geometry.values, dtype=object)
     drawn = levels["geometry_length_m"].to_numpy()
     with np.errstate(invalid="ignore"):
         off = np.abs(attribute - drawn) > np.maximum(ratio * drawn, tolerance_m)
@@ -181,16 +181,22 @@ def _report(
         "pipe " + names[rows].reset_index(drop=True) + ": length attribute " + _fixed(attribute[rows])
         + " m differs from the drawn length " + _fixed(drawn[rows]) + " m"
     )
-    findings.add_many("pipes", names[rows], "length_mismatch", messages, x=x[rows], y=y[rows])
+    findings.add_many("pipes", names[rows], "length_mismatch", messages, **_placed(lines, rows))
     length = levels["length_m"].to_numpy()
     rows = np.flatnonzero(length <= 0)
     messages = "pipe " + names[rows].reset_index(drop=True) + ": length is " + _fixed(length[rows]) + " m"
-    findings.add_many("pipes", names[rows], "zero_length", messages, x=x[rows], y=y[rows])
-    _report_missing(levels, names=names, network=network, x=x, y=y, findings=findings)
+    findings.add_many("pipes", names[rows], "zero_length", messages, **_placed(lines, rows))
+    _report_missing(levels, names=names, network=network, lines=lines, findings=findings)
+
+
+def _placed(lines: np.ndarray, rows: np.ndarray) -> dict[str, np.ndarray]:
+    """``x`` and ``y`` of the midpoints of the reported pipes only (not of every pipe)."""
+    x, y = midpoints(lines[rows])
+    return {"x": x, "y": y}
 
 
 def _report_missing(
-    levels: pd.DataFrame, *, names: pd.Series, network: Network, x: np.ndarray, y: np.ndarray, findings: FindingLog
+    levels: pd.DataFrame, *, names: pd.Series, network: Network, lines: np.ndarray, findings: FindingLog
 ) -> None:
     no_up = np.isnan(levels["up_invert"].to_numpy())
     no_down = np.isnan(levels["down_invert"].to_numpy())
@@ -204,4 +210,4 @@ def _report_missing(
         + " (pipe fields empty; nodes '" + pd.Series(up_node, dtype=object).astype(str) + "' -> '"
         + pd.Series(down_node, dtype=object).astype(str) + "' give none)"
     )
-    findings.add_many("pipes", names[rows], "missing_invert", messages, x=x[rows], y=y[rows])
+    findings.add_many("pipes", names[rows], "missing_invert", messages, **_placed(lines, rows))
