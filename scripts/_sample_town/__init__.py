@@ -1,0 +1,1 @@
+"""Parts of the generator of the invented demo town (scripts/make_sample_gis.py)."""
