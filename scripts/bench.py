@@ -305,14 +305,19 @@ def bench(sizes: Sequence[int], *, repeat: int, seed: int, workdir: Path) -> lis
 
 
 def table(rows: Sequence[Row]) -> str:
-    """The results as a Markdown table: one row per size, then one column per stage."""
+    """The results as a Markdown table: one row per size, then one column per stage.
+
+    ``other`` is the audit's time outside the timed stages: the command line's own work after
+    the outputs (report.html and the like) and before the pipeline.
+    """
     stages = [name for name in rows[0].audit if name not in ("total", "peak_mb")] if rows else []
-    head = ["pipes", "floor s", "audit s", "ratio", "floor peak MB", "audit peak MB", *stages]
+    head = ["pipes", "floor s", "audit s", "ratio", "floor peak MB", "audit peak MB", *stages, "other"]
     lines = ["| " + " | ".join(head) + " |", "|" + "---|" * len(head)]
     for row in rows:
         cells = [f"{row.pipes:,}", f"{row.floor['total']:.2f}", f"{row.audit['total']:.2f}",
                  f"{row.audit['total'] / row.floor['total']:.2f}", f"{row.floor['peak_mb']:.0f}",
-                 f"{row.audit['peak_mb']:.0f}", *(f"{row.audit.get(name, float('nan')):.2f}" for name in stages)]  # fmt: skip
+                 f"{row.audit['peak_mb']:.0f}", *(f"{row.audit.get(name, float('nan')):.2f}" for name in stages),
+                 f"{row.audit['total'] - sum(row.audit.get(name, 0.0) for name in stages):.2f}"]  # fmt: skip
         lines.append("| " + " | ".join(cells) + " |")
     return "\n".join(lines)
 
