@@ -88,6 +88,20 @@ def reversed_pipes(
     findings.add_many("pipes", pipe_ids[rows], "reversed_by_inverts", messages, x=x, y=y)
 
 
+def drawn_against_flow(joined: _Joined, backwards: np.ndarray, *, pipes: gpd.GeoDataFrame, pipe_ids: np.ndarray, findings: FindingLog) -> None:
+    """``drawn_against_flow`` per pipe drawn from its to-manhole to its from-manhole."""
+    rows = np.flatnonzero(backwards)
+    if rows.size == 0:
+        return
+    from_id, to_id = joined.end_ids[rows, 0], joined.end_ids[rows, 1]
+    messages = (
+        "drawn from " + _text(to_id) + " to " + _text(from_id) + ", against the flow its ids give ("
+        + _text(from_id) + " to " + _text(to_id) + "); the ids set the direction"
+    )
+    x, y = midpoints(np.asarray(pipes.geometry.values, dtype=object)[rows])
+    findings.add_many("pipes", pipe_ids[rows], "drawn_against_flow", messages, x=x, y=y)
+
+
 def graph_findings(network: Network, *, pipes: gpd.GeoDataFrame, pipe_ids: np.ndarray, findings: FindingLog) -> None:
     """Every finding about the shape of the graph, in one pass over its arrays."""
     _loops(network, pipes=pipes, pipe_ids=pipe_ids, findings=findings)

@@ -8,7 +8,7 @@ is computed on them in bulk (see ``audit._graph``).
 
 Finding codes emitted (see ``audit._network_findings``): ``duplicate_id``, ``unknown_node``,
 ``unplaced_pipe``, ``direction_fallback``, ``reversed_by_inverts``, ``self_loop``, ``cycle``,
-``separate_components``, ``outfall``, ``dangling_end``, ``orphan_manhole``.
+``separate_components``, ``outfall``, ``dangling_end``, ``orphan_manhole``, ``drawn_against_flow``.
 """
 
 from __future__ import annotations
@@ -116,6 +116,8 @@ def build_network(
         applied = "digitised"
         report.direction_fallback(findings)
     flip = np.zeros(len(pipes), dtype=bool)
+    if applied == "ids":
+        report.drawn_against_flow(joined, _drawn_backwards(joined), pipes=pipes, pipe_ids=pipe_ids, findings=findings)
     if applied == "inverts":
         flip = _reversed_by_inverts(pipes, joined, pipe_ids=pipe_ids, findings=findings)
     upstream = np.where(flip, joined.end_node[:, 1], joined.end_node[:, 0])
@@ -135,6 +137,21 @@ def build_network(
     )
     report.graph_findings(network, pipes=pipes, pipe_ids=pipe_ids, findings=findings)
     return network
+
+
+def _drawn_backwards(joined: _Joined) -> np.ndarray:
+    """Pipes whose drawing runs from the ``to_node`` manhole to the ``from_node`` one.
+
+    Where both ends were joined by id, the first vertex should lie nearer the from-manhole and
+    the last nearer the to-manhole; a pipe is drawn backwards when swapping the ends brings both
+    vertices closer in total. The ids still set the flow direction.
+    """
+    by_id = (joined.end_ids != None).all(axis=1) & ~joined.unknown.any(axis=1) & (joined.end_node >= 0).all(axis=1)  # noqa: E711
+    node_xy = joined.nodes[["x", "y"]].to_numpy(dtype=float)[np.maximum(joined.end_node, 0)]  # (n, 2, 2)
+    as_ids = np.hypot(*(joined.end_xy - node_xy).transpose(2, 0, 1)).sum(axis=1)
+    swapped = np.hypot(*(joined.end_xy - node_xy[:, ::-1]).transpose(2, 0, 1)).sum(axis=1)
+    with np.errstate(invalid="ignore"):
+        return by_id & (swapped < as_ids)
 
 
 def _check_options(*, snap_tolerance_m: float, direction: str) -> None:

@@ -308,3 +308,21 @@ def test_an_end_exactly_at_the_tolerance_still_snaps() -> None:
     pipes = gpd.GeoDataFrame({"pipe_id": ["T1"]}, geometry=[LineString([(0.5, 10.0), (5.0, 4.5)])])
     network = build_network(pipes, manhole_layer(MANHOLE_XY), snap_tolerance_m=0.5, findings=FindingLog())
     assert joins(network) == [("A", "C")]  # both ends 0.5 m off, read off the drawing
+
+
+def test_a_pipe_drawn_against_its_ids_is_reported_and_the_ids_keep_the_direction() -> None:
+    pipes = pipe_layer(Y_PIPES)
+    # P2 runs B -> C by its ids but is drawn from C to B
+    pipes.loc[1, "geometry"] = LineString([MANHOLE_XY["C"], MANHOLE_XY["B"]])
+    findings = FindingLog()
+    network = build_network(pipes, manhole_layer(MANHOLE_XY), findings=findings)
+    frame = findings.to_frame()
+    drawn = frame[frame["code"] == "drawn_against_flow"]
+    assert drawn["feature"].tolist() == ["P2"]
+    assert "drawn from C to B" in drawn["message"].iloc[0]
+    node = dict(zip(network.nodes["node_id"], range(len(network.nodes)), strict=True))
+    assert network.upstream[1] == node["B"] and network.downstream[1] == node["C"]
+    # by digitising order there is nothing to compare the drawing with
+    digitised = FindingLog()
+    build_network(pipe_layer(Y_PIPES, ids=False), manhole_layer(MANHOLE_XY), findings=digitised)
+    assert "drawn_against_flow" not in set(digitised.to_frame()["code"])
