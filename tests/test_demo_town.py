@@ -62,3 +62,20 @@ def test_every_planted_error_is_reported(demo: audit.result.AuditResult, code: s
         return
     flags = {flag for text in rows["flags"] for flag in text.split(";")}
     assert FLAG_FOR[code] in flags, (code, ref, flags)
+
+
+@pytest.mark.parametrize("column", ["population_served", "area_served_ha", "tc_min"])
+def test_served_totals_and_tc_never_fall_downstream(demo: audit.result.AuditResult, column: str) -> None:
+    pipes = demo.pipe_results.reset_index(drop=True)
+    feeding = pipes.groupby("to_node_id")[column].max()
+    above = pipes["from_node_id"].map(feeding)
+    known = above.notna() & pipes[column].notna()
+    assert known.sum() > 250  # every pipe below the heads of runs
+    assert (pipes.loc[known, column] >= above[known] - 1e-9).all()
+
+
+def test_the_town_is_a_combined_sewer_of_some_eight_thousand_people(demo: audit.result.AuditResult) -> None:
+    outfalls = demo.pipe_results[demo.pipes["mh_down"].isin(["W000", "E000"])]
+    assert 6_000 <= outfalls["population_served"].sum() <= 10_000  # the generator's plan, about 8,500 persons
+    assert (outfalls["q_storm"] > outfalls["q_sanitary"]).all()  # a combined sewer is sized by the storm
+    assert demo.settings["flows"]["kind"] == "combined"

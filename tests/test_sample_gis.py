@@ -1,8 +1,9 @@
 """The invented demo town: reproducible, plausible, and its listed register errors really there.
 
-Hydraulic checks here use their own Manning formulas for a circular pipe (Chow, Open-Channel
-Hydraulics, 1959), independent of the package, so that the town does not test the audit against
-itself.
+Hydraulic checks here build their own design flows (Harmon-peaked sanitary flow, infiltration
+per km and the rational method, with the time of concentration written out below) and use their
+own Manning formulas for a circular pipe (Chow, Open-Channel Hydraulics, 1959), independent of
+the package, so that the town does not test the audit against itself.
 """
 
 from __future__ import annotations
@@ -29,7 +30,14 @@ MAX_VELOCITY, MIN_VELOCITY = 3.0, 0.6  # m/s, the defaults in town.toml  # commo
 MIN_COVER_M = 0.9  # common practice, no source
 SPACING_M = ((0.0, 122.0), (457.0, 152.0))  # [from diameter mm, max run m]  # from memory
 DEPTH_RANGE_M = (1.5, 3.5)  # asked of the generator: inverts 1.5-3.5 m below the cover
-CIRCULAR_MM = {150, 225, 300, 375, 450, 525, 600, 675, 750, 825, 900}  # common practice, no source
+CIRCULAR_MM = {150, 225, 300, 375, 450, 525, 600, 675, 750, 825, 900, 1050, 1200}  # common practice, no source
+LARGEST_MM = 1200  # a town of some 8,000 people needs no larger circular pipe or egg span  # common practice, no source
+DENSITY_PER_HA = (40.0, 150.0)  # persons per hectare of a town's built-up area  # common practice, no source
+SEWER_M_PER_PERSON = (2.0, 4.0)  # metres of public sewer per person served  # common practice, no source
+# The loads town.toml asks for, restated here for the test's own design flows (invented for the demo)
+PER_CAPITA_L_DAY, INFILTRATION_L_S_KM, C_IMPERVIOUS, C_PERVIOUS = 220.0, 0.2, 0.9, 0.2
+IDF_A, IDF_B, IDF_C, INLET_TIME_MIN = 330.0, 6.0, 0.85, 7.0  # i = a / (t + b)^c [mm/h], t [min]
+TRAVEL_VELOCITY_M_S = 1.5  # for tc here: a typical velocity of a sewer at its design flow  # common practice, no source
 EGG_AREA, EGG_RADIUS = 1.1486, 0.2897  # full standard egg, A = c B^2, R = c B  # from memory
 
 
@@ -119,8 +127,9 @@ def test_exactly_two_outfalls(pipes: gpd.GeoDataFrame, manholes: gpd.GeoDataFram
 def test_sections_materials_and_years_are_plausible(pipes: gpd.GeoDataFrame, errors: pd.DataFrame) -> None:
     bad = _fids(errors, "sentinel_diameter") + _fids(errors, "null_diameter") + _fids(errors, "zero_diameter")
     circular = pipes[(pipes["profile"] == "C") & ~pipes.index.isin(bad)]
-    assert set(circular["bore_mm"]) <= CIRCULAR_MM and {150, 900} <= set(circular["bore_mm"])
+    assert set(circular["bore_mm"]) <= CIRCULAR_MM and {225, 900, LARGEST_MM} <= set(circular["bore_mm"])
     egg = pipes[pipes["profile"] == "OV"]
+    assert egg["span_mm"].max() <= LARGEST_MM
     assert len(egg) >= 3 and (egg["rise_mm"] == 1.5 * egg["span_mm"]).all() and egg["bore_mm"].isna().all()
     assert set(egg["mat"]) == {"BRICK"} and set(pipes["mat"]) == {"BRICK", "CONC", "PVC", "VC"}
     assert pipes["laid"].between(1890, 2015).all() and pipes["laid"].min() < 1900 < 2010 < pipes["laid"].max()
@@ -158,7 +167,7 @@ def test_geometry_runs_upstream_to_downstream_but_a_few(pipes: gpd.GeoDataFrame,
                                                        errors: pd.DataFrame) -> None:
     start = shapely.get_point(pipes.geometry.to_numpy(), 0)
     at_up = shapely.distance(start, manholes.loc[pipes["mh_up"]].geometry.to_numpy()) < 0.01
-    assert sorted(pipes.index[~at_up]) == _fids(errors, "digitised_backwards")
+    assert sorted(pipes.index[~at_up]) == sorted(_fids(errors, "digitised_backwards"))
 
 
 def test_lengths_agree_with_geometry_but_one(pipes: gpd.GeoDataFrame, errors: pd.DataFrame) -> None:
@@ -193,26 +202,55 @@ def test_long_run_only_through_the_listed_buried_junction(pipes: gpd.GeoDataFram
     limit = np.where(width >= SPACING_M[1][0], SPACING_M[1][1], SPACING_M[0][1])
     assert (pipes["len_m"].drop(_fids(errors, "length_mismatch")) < SPACING_M[0][1]).all()
     long_runs = set()
-    for ref in manholes.index[manholes["lid"] == "N"]:
-        into, out = pipes[pipes["mh_down"] == ref], pipes[pipes["mh_up"] == ref]
-        for fid in into.index:
-            run = pipes.geometry.length[fid] + out.geometry.length.iloc[0]
-            if run > min(limit[pipes.index.get_loc(fid)], limit[pipes.index.get_loc(out.index[0])]):
-                long_runs |= {fid, out.index[0]}
+    for ref in manholes.index[manholes["lid"] == "N"]:  # every pipe at a buried junction is one run
+        run = pipes[(pipes["mh_down"] == ref) | (pipes["mh_up"] == ref)]
+        if run.geometry.length.sum() > limit[pipes.index.get_indexer(run.index)].min():
+            long_runs |= set(run.index)
     assert sorted(long_runs) == sorted(_fids(errors, "long_access_run"))
     assert set(manholes["lid"]) == {"Y", "N"}
 
 
-def _load_m3s(pipes: gpd.GeoDataFrame, manholes: gpd.GeoDataFrame) -> pd.Series:
-    """Design flow per pipe: the given flow, else every manhole load upstream (networkx)."""
+def _to_node(pipes: gpd.GeoDataFrame, manholes: gpd.GeoDataFrame) -> pd.Series:
+    """mh_down, or the manhole nearest the drawn downstream end where mh_down names none."""
     ends = shapely.get_point(pipes.geometry.to_numpy(), -1)
     nearest = manholes.index[manholes.sindex.nearest(ends, return_all=False)[1]]
-    to_node = pipes["mh_down"].where(pipes["mh_down"].isin(manholes.index), pd.Series(nearest, index=pipes.index))
-    graph = nx.DiGraph(list(zip(pipes["mh_up"], to_node)))
-    load = manholes["dwf_ls"]
-    total = {n: load[n] + sum(load[a] for a in nx.ancestors(graph, n)) for n in graph}
-    flow = pipes["q_des_ls"].fillna(pipes["mh_up"].map(total))
-    return flow / 1000
+    return pipes["mh_down"].where(pipes["mh_down"].isin(manholes.index), pd.Series(nearest, index=pipes.index))
+
+
+def _harmon(persons: pd.Series) -> pd.Series:
+    """PF = 1 + 14 / (4 + sqrt(P / 1000)), P at least 1000.  # Source: Metcalf & Eddy (from memory)"""
+    return 1 + 14 / (4 + np.sqrt(persons.clip(lower=1000) / 1000))
+
+
+def _design_m3s(fresh: Path, pipes: gpd.GeoDataFrame, manholes: gpd.GeoDataFrame) -> pd.Series:
+    """Combined design flow per pipe [m3/s], worked out with networkx from the layers.
+
+    Q = PF(P) P q / 86,400 + trade + 0.2 l/s per km of sewer upstream + C i(tc) A / 360, with
+    tc = 7 min of inlet time plus the longest travel from upstream at 1.5 m/s (rational method,
+    FHWA HEC-22 ch. 3 and 7, from memory).
+    """
+    to_node = _to_node(pipes, manholes)
+    length = pipes.geometry.length
+    graph = nx.DiGraph()
+    graph.add_weighted_edges_from(zip(pipes["mh_up"], to_node, length))
+    catchments = _read(fresh, "catchments").set_index("outlet_mh")
+    persons = catchments["persons"].reindex(manholes.index).fillna(0)
+    share = catchments["imp_share"]
+    runoff_area = (catchments.area / 1e4 * (share * C_IMPERVIOUS + (1 - share) * C_PERVIOUS)).reindex(manholes.index).fillna(0)
+    tc: dict[str, float] = {}
+    for node in nx.topological_sort(graph):
+        arrivals = [tc[u] + graph.edges[u, node]["weight"] / TRAVEL_VELOCITY_M_S / 60 for u in graph.predecessors(node)]
+        tc[node] = max([INLET_TIME_MIN, *arrivals])
+    served = {node: [node, *nx.ancestors(graph, node)] for node in graph}
+    drained_by = length.groupby(to_node).sum()
+    up = pipes["mh_up"]
+    people = up.map(lambda n: persons[served[n]].sum())
+    trade = up.map(lambda n: manholes.loc[served[n], "trade_ls"].sum()) / 1000
+    sewer_km = (length + up.map(lambda n: drained_by.reindex(served[n]).sum())) / 1000
+    intensity = IDF_A / (up.map(tc) + IDF_B) ** IDF_C
+    storm = up.map(lambda n: runoff_area[served[n]].sum()) * intensity / 360
+    sanitary = _harmon(people) * people * PER_CAPITA_L_DAY / 1000 / 86_400
+    return sanitary + trade + INFILTRATION_L_S_KM / 1000 * sewer_km + storm
 
 
 def _circular(diameter: np.ndarray, slope: np.ndarray, theta: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
@@ -237,9 +275,9 @@ def _velocity(diameter: np.ndarray, slope: np.ndarray, flow: np.ndarray) -> np.n
 
 
 @pytest.fixture(scope="module")
-def hydraulics(pipes: gpd.GeoDataFrame, manholes: gpd.GeoDataFrame) -> pd.DataFrame:
+def hydraulics(fresh: Path, pipes: gpd.GeoDataFrame, manholes: gpd.GeoDataFrame) -> pd.DataFrame:
     """Load ratio and velocity of every pipe whose size, grade and length are usable."""
-    flow = _load_m3s(pipes, manholes)
+    flow = _design_m3s(fresh, pipes, manholes)
     slope = (pipes["il_up_m"] - pipes["il_dn_m"]) / pipes["len_m"]
     egg = pipes["profile"] == "OV"
     span = pipes["span_mm"].where(egg, pipes["bore_mm"]) / 1000
@@ -261,9 +299,18 @@ def test_overloaded_pipes_are_exactly_the_listed_lateral(hydraulics: pd.DataFram
 
 
 def test_too_steep_and_silting_pipes(hydraulics: pd.DataFrame, errors: pd.DataFrame) -> None:
-    fast = hydraulics.index[hydraulics["velocity"] > MAX_VELOCITY]
-    assert sorted(fast) == _fids(errors, "too_steep")
-    assert (hydraulics.loc[_fids(errors, "silting"), "velocity"] < MIN_VELOCITY).all()
+    # eggs are left out: their part-full velocity needs the egg's own depth curves
+    circular = hydraulics[~hydraulics["egg"]]
+    fast = set(circular.index[circular["velocity"] > MAX_VELOCITY])
+    assert set(_fids(errors, "too_steep")) <= fast <= set(_fids(errors, "too_steep") + _fids(errors, "overloaded"))
+    assert sorted(circular.index[circular["velocity"] < MIN_VELOCITY]) == sorted(_fids(errors, "silting"))
+    assert (hydraulics.loc[_fids(errors, "silting"), "ratio"] < 1.0).all()  # oversized, not overloaded
+
+
+def test_ordinary_pipes_run_part_full(hydraulics: pd.DataFrame, errors: pd.DataFrame) -> None:
+    planted = set(errors.loc[errors["layer"] == "pipes", "fid"])
+    ordinary = hydraulics.drop(list(planted & set(hydraulics.index)))
+    assert ordinary["ratio"].between(0.1, 0.8).all()  # sized to run part full at the design storm  # common practice, no source
 
 
 def test_config_parses_and_maps_existing_fields(pipes: gpd.GeoDataFrame, manholes: gpd.GeoDataFrame) -> None:
@@ -282,11 +329,24 @@ def test_config_parses_and_maps_existing_fields(pipes: gpd.GeoDataFrame, manhole
 
 def test_catchments_hold_the_people_behind_the_manhole_loads(fresh: Path, manholes: gpd.GeoDataFrame) -> None:
     catchments = _read(fresh, "catchments")
-    assert set(catchments.geom_type) == {"Polygon"} and catchments.crs.to_epsg() == 32630
+    assert set(catchments.geom_type) <= {"Polygon", "MultiPolygon"} and catchments.crs.to_epsg() == 32630
     assert catchments["outlet_mh"].is_unique and catchments["outlet_mh"].isin(manholes.index).all()
     assert catchments["imp_share"].between(0, 1).all()
-    # the register's dwf_ls is persons x 220 l/day x a peaking factor of 3, rounded to 0.01 l/s, plus the trade load
+    assert catchments.union_all().area == pytest.approx(catchments.area.sum(), rel=1e-6)  # the cells do not overlap
+    outlets = manholes.loc[catchments["outlet_mh"]].geometry.to_numpy()
+    assert shapely.covers(catchments.geometry.to_numpy(), outlets).all()  # each holds the manhole it drains to
+    # the register's dwf_ls is the mean dry-weather flow, persons x 220 l/day, rounded to 0.01 l/s, plus the trade load
     persons = catchments.set_index("outlet_mh")["persons"].reindex(manholes.index).fillna(0)
-    built = persons * 220 / 86_400 * 3 + manholes["trade_ls"]  # common practice, no source (the town's design rule)
+    built = persons * PER_CAPITA_L_DAY / 86_400 + manholes["trade_ls"]
     np.testing.assert_allclose(built, manholes["dwf_ls"], atol=0.005 + 1e-9)
     assert (manholes["trade_ls"] > 0).sum() == 1
+
+
+def test_population_density_and_sewer_per_person(fresh: Path, pipes: gpd.GeoDataFrame) -> None:
+    catchments = _read(fresh, "catchments")
+    zone = catchments["outlet_mh"].str[0]
+    persons, hectares = catchments["persons"].groupby(zone).sum(), (catchments.area / 1e4).groupby(zone).sum()
+    assert set(persons.index) == {"W", "E"}
+    for density in (*(persons / hectares), persons.sum() / hectares.sum()):
+        assert DENSITY_PER_HA[0] <= density <= DENSITY_PER_HA[1]
+    assert SEWER_M_PER_PERSON[0] <= pipes.geometry.length.sum() / persons.sum() <= SEWER_M_PER_PERSON[1]

@@ -9,10 +9,11 @@ import shapely
 from .plan import (
     BANK_HEIGHT_M, BANK_WIDTH_M, BANK_X, BEND_OFFSET_M, BEND_SHARE, CATCHMENTS, Catchment,
     DEPTH_MIN_M, DEPTH_SPREAD_M, DEPTH_TRUNK_EXTRA_M, GRADE_CROSS, GRADE_TRUNK, JITTER_M,
-    LATERAL_NODES, LATERAL_STEP_M, MIN_GRADE, ORIGIN_E, ORIGIN_N, PEAK_FACTOR, PER_CAPITA_L_DAY,
-    POPULATION, RIDGE_SOFT_M, RIVER_LEVEL_M, SPUR_SHARE, SPUR_STEP_M, TOWN_SPAN_M, TRUNK_STEP_M,
+    LATERAL_NODES, LATERAL_STEP_M, MIN_GRADE, ORIGIN_E, ORIGIN_N, PER_CAPITA_L_DAY,
+    RIDGE_SOFT_M, RIVER_LEVEL_M, SPUR_SHARE, SPUR_STEP_M, TOWN_SPAN_M, TRUNK_STEP_M,
     UNDULATION_M, UNDULATION_WAVE_M, VALLEY_AMP_M, VALLEY_SOFT_M, VALLEY_WAVE_M,
 )
+from .loads import catchment_cells, design_flows, settle_people
 from .tree import accumulate, levels, sweep
 from .sizing import size_pipes
 
@@ -74,12 +75,6 @@ def tree_layout(c: Catchment, rng: np.random.Generator) -> pd.DataFrame:
     return frame
 
 
-
-
-
-
-
-
 def build_town(rng: np.random.Generator) -> tuple[pd.DataFrame, pd.DataFrame]:
     """The clean register: manholes and pipes with levels, loads, sizes, materials and years."""
     parts = [tree_layout(c, rng) for c in CATCHMENTS]
@@ -94,18 +89,18 @@ def build_town(rng: np.random.Generator) -> tuple[pd.DataFrame, pd.DataFrame]:
     pipes["geometry"] = _pipe_lines(nodes, pipes, rng)
     pipes["length"] = shapely.length(pipes["geometry"].to_numpy())
     level = levels(nodes["down"].to_numpy())
-    low, high = (nodes["zone"].map({z: span[i] for z, span in POPULATION.items()}).to_numpy() for i in (0, 1))
-    people = rng.integers(low, high + 1)
-    nodes["people"] = np.where(nodes["kind"] == "outfall", 0, people)
-    nodes["load"] = np.where(nodes["kind"] == "outfall", 0.0,
-                             np.round(people * PER_CAPITA_L_DAY / 86_400 * PEAK_FACTOR, 2))
+    nodes["cell"] = catchment_cells(nodes, pipes)
+    settle_people(nodes, nodes["cell"].to_numpy(), rng)
+    nodes["load"] = np.round(nodes["people"] * PER_CAPITA_L_DAY / 86_400, 2)  # mean dry-weather flow [l/s]
+    nodes["trade"] = 0.0
     _set_history(nodes, pipes, rng)
-    acc = accumulate(nodes["load"].to_numpy(), up, pipes["dn"].to_numpy(), level)
+    area = accumulate(nodes["area_ha"].to_numpy(), up, pipes["dn"].to_numpy(), level)
     depth = DEPTH_MIN_M + rng.uniform(0, DEPTH_SPREAD_M, len(nodes))
-    depth += DEPTH_TRUNK_EXTRA_M * np.sqrt(acc / acc.max())
+    depth += DEPTH_TRUNK_EXTRA_M * np.sqrt(area / area.max())
     nodes["invert"] = _inverts(nodes["ground"].to_numpy() - depth, pipes, level)
     pipes["slope"] = (nodes["invert"].to_numpy()[up] - nodes["invert"].to_numpy()[pipes["dn"]]) / pipes["length"]
-    pipes["span"] = size_pipes(pipes, acc[up], level, len(nodes))
+    pipes["flow"] = design_flows(nodes, pipes, level)
+    pipes["span"] = size_pipes(pipes, pipes["flow"].to_numpy(), level, len(nodes))
     nodes["level"] = level
     return nodes, pipes
 

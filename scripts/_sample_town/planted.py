@@ -8,10 +8,10 @@ import shapely
 
 from .plan import (
     BREWERY_LOAD_LS, CATCHMENTS, CHAMBER_MM, CIRCULAR_MM, DEPTH_MIN_M, LATERAL_STEP_M,
-    LENGTH_TYPO_RATIO, OLD_LATERAL_MM, ORIGIN_E, REVERSE_RISE_M, SHALLOW_DEPTH_M, SILT_GRADE,
-    SILT_MM, TOWN_SPAN_M,
+    LENGTH_TYPO_RATIO, OLD_LATERAL_MM, ORIGIN_E, REVERSE_RISE_M, SHALLOW_DEPTH_M, SILT_GRADE, SILT_MAX_DEPTH_M,
+    SILT_LOAD_RATIO, TOWN_SPAN_M,
 )
-from .tree import accumulate
+from .loads import design_flows
 from .sizing import full_bore_capacity, size_pipes
 from .layout import terrain, valley
 
@@ -41,6 +41,7 @@ def network_errors(nodes: pd.DataFrame, pipes: pd.DataFrame, book: ErrorBook) ->
     kind, zone = nodes["kind"].to_numpy(), nodes["zone"].to_numpy()
     col, row = nodes["column"].to_numpy(), nodes["row"].to_numpy()
     fed_by_lateral = np.bincount(dn[kind[up] == "lateral"], minlength=len(nodes)) > 0
+    fed_once = np.bincount(dn, minlength=len(nodes)) == 1  # a buried junction on a plain run, no spur
     nodes["lid"] = "Y"
     west, east = CATCHMENTS
     hub = np.flatnonzero((zone == "W") & (kind == "trunk") & (col == west.long_run_column))[0]
@@ -48,19 +49,19 @@ def network_errors(nodes: pd.DataFrame, pipes: pd.DataFrame, book: ErrorBook) ->
     for p in np.flatnonzero((up == hub) | (dn == hub)):
         book.note("long_access_run", "pipes", p, f"runs through buried junction {nodes.ref[hub]} (lid N)")
     for _ in range(3):
-        nodes.loc[book.pick("manholes", (kind == "lateral") & (np.abs(row) == 2) & fed_by_lateral), "lid"] = "N"
+        nodes.loc[book.pick("manholes", (kind == "lateral") & (np.abs(row) == 2) & fed_by_lateral & fed_once), "lid"] = "N"
     head = book.pick("manholes", (zone == "W") & (kind == "lateral") & ~fed_by_lateral & np.isin(np.abs(row), (3, 4)))
     nodes.loc[head, "load"] += BREWERY_LOAD_LS
     nodes["trade"] = np.where(np.arange(len(nodes)) == head, BREWERY_LOAD_LS, 0.0)
     chain = (zone[up] == "W") & (col[up] == col[head]) & (kind[up] == "lateral")
     chain &= (np.sign(row[up]) == np.sign(row[head])) & (np.abs(row[up]) <= abs(row[head]))
     level = nodes["level"].to_numpy()
-    acc = accumulate(nodes["load"].to_numpy(), up, dn, level)
-    pipes["span"] = size_pipes(pipes, acc[up], level, len(nodes))
+    pipes["flow"] = design_flows(nodes, pipes, level)
+    pipes["span"] = size_pipes(pipes, pipes["flow"].to_numpy(), level, len(nodes))
     pipes.loc[chain, "span"] = OLD_LATERAL_MM
     for p in np.flatnonzero(chain):
         book.note("overloaded", "pipes", p, f"{OLD_LATERAL_MM} mm lateral takes a {BREWERY_LOAD_LS:g} l/s trade load")
-    _silting_outfall(nodes, pipes, book)
+    _silting_spur(nodes, pipes, book)
     steep = np.flatnonzero((zone[up] == "E") & (kind[up] == "trunk") & (col[up] == east.bank_column))[0]
     book.note("too_steep", "pipes", steep, f"drops {pipes.slope[steep]:.1%} down the terrace bank")
     _shrink_one(nodes, pipes, book)
@@ -68,29 +69,49 @@ def network_errors(nodes: pd.DataFrame, pipes: pd.DataFrame, book: ErrorBook) ->
     nodes.loc[shallow, "invert"] = round(nodes.ground[shallow] - SHALLOW_DEPTH_M, 2)
     book.note("shallow_cover", "pipes", int(np.flatnonzero(up == shallow)[0]),
               f"invert only {SHALLOW_DEPTH_M} m below cover")
-    nodes["acc"] = accumulate(nodes["load"].to_numpy(), up, dn, level)
 
 
-def _silting_outfall(nodes: pd.DataFrame, pipes: pd.DataFrame, book: ErrorBook) -> None:
-    """The East outfall culvert: oversized and laid almost level, so it silts."""
-    p = int(np.flatnonzero(nodes["kind"].to_numpy()[pipes["dn"]] == "outfall")[-1])
-    upper, outfall = pipes.up[p], pipes.dn[p]
-    nodes.loc[outfall, "invert"] = round(nodes.invert[upper] - SILT_GRADE * pipes.length[p], 2)
-    pipes.loc[p, ["span", "slope"]] = SILT_MM, (nodes.invert[upper] - nodes.invert[outfall]) / pipes.length[p]
-    book.note("silting", "pipes", p, f"{SILT_MM} mm culvert at {SILT_GRADE:.3%}")
+def _silting_spur(nodes: pd.DataFrame, pipes: pd.DataFrame, book: ErrorBook) -> None:
+    """One cul-de-sac spur laid almost level and sized up to carry its flow there: it silts.
+
+    Its head manhole is lowered to the grade, so the spur stays within the manhole depths; the
+    spur is a leaf, so no other pipe changes, and the pipe below is at least as wide as the new
+    size, so no size shrinks downstream.
+    """
+    up, dn = pipes["up"].to_numpy(), pipes["dn"].to_numpy()
+    length, invert = pipes["length"].to_numpy(), nodes["invert"].to_numpy()
+    head_invert = np.round(invert[dn] + SILT_GRADE * length, 2)
+    slope = (head_invert - invert[dn]) / length
+    full = full_bore_capacity(CIRCULAR_MM[None, :] / 1000, slope[:, None], np.zeros((len(pipes), 1), bool))
+    fits = full * 1000 * SILT_LOAD_RATIO >= pipes["flow"].to_numpy()[:, None]
+    size = CIRCULAR_MM[np.argmax(fits, axis=1)]
+    below = np.zeros(len(nodes))
+    np.maximum.at(below, up, pipes["span"].to_numpy())
+    depth = nodes["ground"].to_numpy()[up] - head_invert
+    ok = (nodes["kind"].to_numpy()[up] == "spur") & fits.any(axis=1) & (below[dn] >= size)
+    ok &= ~pipes["egg"].to_numpy() & (depth < SILT_MAX_DEPTH_M)
+    p = book.pick("pipes", ok)
+    nodes.loc[up[p], "invert"] = head_invert[p]
+    pipes.loc[p, ["span", "slope"]] = size[p], slope[p]
+    book.note("silting", "pipes", p, f"{size[p]} mm spur at {slope[p]:.2%}")
 
 
 def _shrink_one(nodes: pd.DataFrame, pipes: pd.DataFrame, book: ErrorBook) -> None:
-    """One circular trunk pipe a size smaller than the pipe above it, where it still has room."""
+    """One circular trunk pipe a size smaller than the widest pipe entering it, where it has most room.
+
+    Only a pipe as wide as the widest pipe entering its upstream node qualifies, so the smaller
+    size is a real step down (the audit flags a pipe smaller than the largest entering pipe).
+    """
     kind = nodes["kind"].to_numpy()
     up, dn = pipes["up"].to_numpy(), pipes["dn"].to_numpy()
     above = pd.Series(np.arange(len(pipes)), index=dn)[kind[up] == "trunk"]
     feeder = above.reindex(up).to_numpy()
     ok = (kind[up] == "trunk") & ~pipes["egg"].to_numpy() & ~np.isnan(feeder)
-    ok &= ~book.taken["pipes"] & (pipes["span"].to_numpy() >= 300)
     smaller = CIRCULAR_MM[np.maximum(np.searchsorted(CIRCULAR_MM, pipes["span"].to_numpy()) - 1, 0)]
-    ratio = accumulate(nodes["load"].to_numpy(), up, dn, nodes["level"].to_numpy())[up] / 1000
-    ratio = ratio / full_bore_capacity(smaller / 1000, pipes["slope"].to_numpy(), np.zeros(len(pipes), bool))
+    widest_in = np.zeros(len(nodes))
+    np.maximum.at(widest_in, dn, pipes["span"].to_numpy())
+    ok &= ~book.taken["pipes"] & (pipes["span"].to_numpy() >= 300) & (smaller < widest_in[up])
+    ratio = pipes["flow"].to_numpy() / 1000 / full_bore_capacity(smaller / 1000, pipes["slope"].to_numpy(), np.zeros(len(pipes), bool))
     p = int(np.flatnonzero(ok)[np.argmin(ratio[ok])])
     was = pipes.span[p]
     pipes.loc[p, "span"] = smaller[p]

@@ -8,8 +8,8 @@ import pandas as pd
 import shapely
 
 from .plan import (
-    CHAMBER_MM, CONCRETE_FROM_MM, CRS, EGG_RISE_RATIO, IMPERVIOUS_SHARE, PVC_FROM_YEAR,
-    SUBCATCHMENT_SIDE_M, SURVEY_COLUMN, SURVEY_MARGIN,
+    CHAMBER_MM, CONCRETE_FROM_MM, CRS, EGG_RISE_RATIO, PVC_FROM_YEAR,
+    SURVEY_COLUMN, SURVEY_MARGIN,
 )
 
 
@@ -22,7 +22,7 @@ def register_tables(nodes: pd.DataFrame, pipes: pd.DataFrame) -> tuple[pd.DataFr
     survey = (nodes["kind"].to_numpy()[up] == "trunk") & (nodes["column"].to_numpy()[up] == SURVEY_COLUMN)
     given = np.r_[given, np.flatnonzero(survey)]
     flow = np.full(len(pipes), np.nan)
-    flow[given] = np.round(nodes["acc"].to_numpy()[up.to_numpy()[given]] * SURVEY_MARGIN, 1)
+    flow[given] = np.round(pipes["flow"].to_numpy()[given] * SURVEY_MARGIN, 1)
     table = pd.DataFrame({
         "asset_ref": np.char.add(refs[up].astype(str), ".1"), "mh_up": refs[up], "mh_down": refs[dn],
         "profile": np.where(egg, "OV", "C"),
@@ -46,17 +46,11 @@ def register_tables(nodes: pd.DataFrame, pipes: pd.DataFrame) -> tuple[pd.DataFr
     return table, holes
 
 
-def catchment_layer(nodes: pd.DataFrame, rng: np.random.Generator) -> gpd.GeoDataFrame:
-    """One square sub-catchment around each manhole that serves people, draining to it.
-
-    Drawn after everything else so that the pipes, manholes and ERRORS.md do not depend on it.
-    """
-    served = nodes[nodes["people"] > 0]
-    half = SUBCATCHMENT_SIDE_M / 2
-    x, y = served["x"].to_numpy(), served["y"].to_numpy()
-    squares = shapely.box(x - half, y - half, x + half, y + half)
+def catchment_layer(nodes: pd.DataFrame) -> gpd.GeoDataFrame:
+    """The area drained by each manhole that is not an outfall, with its people and paved share."""
+    served = nodes[nodes["kind"] != "outfall"]
     return gpd.GeoDataFrame({
         "sub_ref": "S" + served["ref"].to_numpy(dtype=str).astype(object), "outlet_mh": served["ref"].to_numpy(),
-        "persons": served["people"].to_numpy(dtype=int),
-        "imp_share": np.round(rng.uniform(*IMPERVIOUS_SHARE, len(served)), 2), "geometry": squares,
+        "persons": served["people"].to_numpy(dtype=int), "imp_share": served["imp_share"].to_numpy(),
+        "geometry": served["cell"].to_numpy(),
     }, geometry="geometry", crs=CRS)

@@ -30,6 +30,7 @@ def size_pipes(pipes: pd.DataFrame, flow_ls: np.ndarray, level: np.ndarray, n_no
     sizes = np.r_[CIRCULAR_MM, EGG_SPAN_MM]
     ok = full_bore_capacity(sizes[None, :] / 1000, pipes["slope"].to_numpy()[:, None], egg[:, None])
     ok = ok * 1000 * TARGET_LOAD_RATIO >= flow_ls[:, None]
+    ok &= np.r_[np.zeros(CIRCULAR_MM.size, bool), np.ones(EGG_SPAN_MM.size, bool)] == egg[:, None]  # its own list
     ok &= (sizes >= np.where(pipes["laid"] < OLD_LATERAL_YEAR, OLD_MIN_MM, MODERN_MIN_MM)[:, None])
     need = np.where(ok.any(axis=1), np.where(ok, sizes, np.inf).min(axis=1), sizes.max())
     width, node_w = need.copy(), np.zeros(n_nodes)
