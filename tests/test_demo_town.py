@@ -57,8 +57,10 @@ def test_every_planted_error_is_reported(demo: audit.result.AuditResult, code: s
         assert FINDING_FOR[code] in set(found["code"]), (code, ref)
         return
     rows = demo.pipe_results[demo.pipes["asset_ref"] == ref]
-    if code == "digitised_backwards":  # the ids give the flow direction, whatever the drawing
+    if code == "digitised_backwards":  # reported, and the ids give the flow direction, whatever the drawing
         assert (rows["from_node_id"] == demo.pipes.loc[rows.index, "mh_up"]).all()
+        found = demo.findings[(demo.findings["feature"] == ref) & (demo.findings["code"] == "drawn_against_flow")]
+        assert len(found) == 1, ref
         return
     flags = {flag for text in rows["flags"] for flag in text.split(";")}
     assert FLAG_FOR[code] in flags, (code, ref, flags)
