@@ -54,7 +54,11 @@ def clean_geometry(geometry: np.ndarray, *, kind: str) -> tuple[np.ndarray, dict
     the cleaned geometries (None where unusable) and one boolean mask per finding code
     """
     single, several = _KINDS[kind]
-    geometry = shapely.force_2d(geometry)
+    measured = shapely.has_z(geometry)
+    if hasattr(shapely, "has_m"):  # shapely >= 2.1 keeps M values
+        measured |= shapely.has_m(geometry)
+    if measured.any():  # force_2d copies every geometry; only those with Z or M need it
+        geometry[measured] = shapely.force_2d(geometry[measured])
     type_id = shapely.get_type_id(geometry)
     empty = (type_id < 0) | shapely.is_empty(geometry)
     multi = (type_id == several) & ~empty

@@ -41,7 +41,7 @@ import shapely
 from ._errors import InputError
 from .config import MANHOLE_UNITS, PIPE_UNITS, SHAPES, Config, LayerSource
 from ._geometry import GEOMETRY_MESSAGES, clean_geometry, representative_points
-from ._fields import Reporter, as_number, as_text, feature_ids, quoted, report_ids
+from ._fields import Quoted, Reporter, as_number, as_text, feature_ids, report_ids
 from .findings import FindingLog
 from .units import to_si
 
@@ -170,10 +170,15 @@ def _field(frame: gpd.GeoDataFrame, wanted: str, *, key: str, where: str) -> pd.
     raise InputError(f"{where}: {key} = '{wanted}' is not a field of the layer; its fields are: {', '.join(fields)}")
 
 
-def _report_geometry(report: Reporter, flags: dict[str, np.ndarray], *, kinds: pd.Series) -> None:
+def _report_geometry(report: Reporter, flags: dict[str, np.ndarray], *, original: np.ndarray) -> None:
+    """One finding per flagged feature; a wrong type is named from the ``original`` geometry."""
     for code, mask in flags.items():
-        shown = "the geometry is a " + kinds + ", " if code == "wrong_geometry_type" else ""
-        report.add(mask, code, shown + GEOMETRY_MESSAGES[code])
+        messages: pd.Series | str = GEOMETRY_MESSAGES[code]
+        if code == "wrong_geometry_type" and mask.any():
+            kinds = np.full(len(mask), "", dtype=object)
+            kinds[mask] = gpd.GeoSeries(original[mask]).geom_type.to_numpy(dtype=object)
+            messages = "the geometry is a " + pd.Series(kinds, dtype=object) + ", " + GEOMETRY_MESSAGES[code]
+        report.add(mask, code, messages)
 
 
 def _geometry(frame: gpd.GeoDataFrame, source_crs: pyproj.CRS, crs: pyproj.CRS, *, kind: str) -> tuple[
@@ -235,8 +240,8 @@ def _shapes(context: _Context, sizes: dict[str, np.ndarray]) -> np.ndarray:
     lower = {code.lower(): shape for code, shape in context.source.shapes.items()} | {s: s for s in SHAPES}
     mapped = codes.map(dict(context.source.shapes)).fillna(codes.str.lower().map(lower))
     unknown = (codes.notna() & mapped.isna()).to_numpy()
-    context.report.add(unknown, "unknown_shape", f"shape field '{raw.name}' = " + quoted(raw)
-                       + " is neither in [pipes.shapes] nor one of " + ", ".join(SHAPES))  # fmt: skip
+    context.report.add(unknown, "unknown_shape", Quoted(raw, f"shape field '{raw.name}' = ",
+                       " is neither in [pipes.shapes] nor one of " + ", ".join(SHAPES)))  # fmt: skip
     return mapped.fillna(codes).fillna(inferred).to_numpy(dtype=object)
 
 
@@ -246,8 +251,8 @@ def _access(context: _Context) -> np.ndarray:
         return np.ones(len(context.frame), dtype=bool)
     words = pd.Series(as_text(raw), dtype=object).str.lower()
     known = words.isna() | words.isin(ACCESS_YES) | words.isin(ACCESS_NO)
-    context.report.add(~known.to_numpy(), "unknown_access", f"access field '{raw.name}' = " + quoted(raw)
-                       + " is read neither as yes nor as no; taken as accessible")  # fmt: skip
+    context.report.add(~known.to_numpy(), "unknown_access", Quoted(raw, f"access field '{raw.name}' = ",
+                       " is read neither as yes nor as no; taken as accessible"))  # fmt: skip
     return ~words.isin(ACCESS_NO).to_numpy()
 
 
@@ -293,8 +298,9 @@ def _read_layer(source: LayerSource, key: str, *, config: Config, findings: Find
     raw_id = None if id_field is None else _field(frame, id_field, key=f"{key}.fields.id", where=where)
     ids, missing = feature_ids(raw_id, count=len(frame))
     geometry, flags = _geometry(frame, source_crs, crs, kind=kind)
-    report = Reporter(findings, key, ids, *representative_points(geometry.to_numpy(), kind=kind))
-    _report_geometry(report, flags, kinds=frame.geometry.geom_type.astype("string").fillna(""))
+    cleaned = geometry.to_numpy()
+    report = Reporter(findings, key, ids, lambda rows: representative_points(cleaned[rows], kind=kind))
+    _report_geometry(report, flags, original=frame.geometry.to_numpy())
     report_ids(report, missing, field=None if raw_id is None else str(raw_id.name))
     context = _Context(frame, source, key, where, report, config.input.sentinels)
     columns = _COLUMNS[key](context)

@@ -415,3 +415,21 @@ def test_catchments_are_read_as_polygons_in_the_working_crs(tmp_path: Path, make
     ]
     assert set(found["layer"]) == {"catchments"}
     assert "occupancy" in layers.missing_fields["catchments"] and "population" not in layers.missing_fields["catchments"]
+
+
+def test_a_finding_sits_at_the_midpoint_of_its_own_pipe(tmp_path: Path, make_config: MapConfig) -> None:
+    path = _write(_pipes().assign(DIA_MM=[225.0, 300.0, 0.0]), tmp_path, "pipes", "gpkg")
+    _, findings = _read(make_config(_pipes_config(path, PIPE_FIELDS)))
+    found = findings.to_frame()
+    # P3 runs from (500080, 5700030) to (500080, 5700090): its midpoint, from the fixture above
+    assert found[["feature", "code", "x", "y"]].values.tolist() == [["P3", "nonpositive_size", 500080.0, 5700060.0]]
+
+
+def test_each_duplicate_id_counts_its_own_uses(tmp_path: Path, make_config: MapConfig) -> None:
+    frame = pd.concat([_pipes(), _pipes()], ignore_index=True).assign(REF=["A", "B", "A", "A", "B", "C"])
+    path = _write(gpd.GeoDataFrame(frame, crs=UTM), tmp_path, "pipes", "gpkg")
+    _, findings = _read(make_config(_pipes_config(path, PIPE_FIELDS)))
+    found = findings.to_frame()
+    assert found["feature"].tolist() == ["A", "B", "A", "A", "B"]
+    assert [message.split("used by ")[1] for message in found["message"]] == ["3 features", "2 features", "3 features",
+                                                                             "3 features", "2 features"]  # fmt: skip
