@@ -1,7 +1,7 @@
 """The report's charts as inline SVG: flag bars, the part-full scatter, the velocity histogram.
 
-Scatter points are drawn as one ``<path>`` of zero-length marks per map class, never as one
-element per pipe; the histogram is counted with ``numpy.histogram`` over all pipes.
+Scatter points are drawn as one ``<path>`` of zero-length marks per map class, one mark per
+occupied pixel, never as one element per pipe; the histogram is counted with ``numpy.histogram`` over all pipes.
 """
 
 from __future__ import annotations
@@ -19,6 +19,8 @@ _AXIS = {"stroke": "#555", "stroke_width": 1}
 _GRID = {"stroke": "#e3e3e3", "stroke_width": 1}
 _SEVERITY_COLOURS = {word: CLASS_COLOURS[word] for word in ("high", "medium", "low")}
 _CURVE_DASH = {"circular": None, "egg": "6 4"}
+#: Scatter marks are 6 px round dots; one per occupied 1 px cell draws the same picture.
+SCATTER_CELL_PX = 1.0
 
 
 @dataclass(frozen=True)
@@ -85,7 +87,7 @@ def part_full_chart(
     for name in reversed(list(CLASS_COLOURS)):
         chosen = shown & (classes == name)
         if chosen.any():
-            parts.append(element("path", d=dot_path_data(x[chosen], y[chosen]), stroke=CLASS_COLOURS[name], stroke_width=6, stroke_linecap="round", stroke_opacity=0.85, data_class=name))
+            parts.append(element("path", d=dot_path_data(x[chosen], y[chosen], cell_px=SCATTER_CELL_PX), stroke=CLASS_COLOURS[name], stroke_width=6, stroke_linecap="round", stroke_opacity=0.85, data_class=name))
     parts.append(_curve_key(curves, x=plot.left + plot.width + 16, y=plot.top + 20))
     return svg("".join(parts), width=plot.left + plot.width + 190, height=plot.top + plot.height + 48, title="Load ratio against depth ratio")
 

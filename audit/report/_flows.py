@@ -7,6 +7,8 @@ from typing import Any
 
 import numpy as np
 import pandas as pd
+import pyarrow as pa
+import pyarrow.compute as pc
 
 from ._html import cell, paragraph, table
 
@@ -25,10 +27,18 @@ PARTS = (
 
 
 def outfall_pipes(pipes: pd.DataFrame) -> np.ndarray:
-    """Positions of the pipes that discharge into a node no pipe leaves (the outfalls)."""
-    leaving = set(pipes["from_node_id"].dropna())
-    into = pipes["to_node_id"]
-    return np.flatnonzero(into.notna().to_numpy() & ~into.isin(leaving).to_numpy())
+    """Positions of the pipes that discharge into a node no pipe leaves (the outfalls).
+
+    One Arrow hash lookup of every pipe's downstream node among the upstream nodes.
+    """
+    into = _labels(pipes["to_node_id"])
+    leaving = pc.is_in(into, value_set=_labels(pipes["from_node_id"]).drop_null(), skip_nulls=True)
+    return np.flatnonzero(pc.and_not(into.is_valid(), leaving).to_numpy(zero_copy_only=False))
+
+
+def _labels(column: pd.Series) -> pa.Array:
+    """Node labels as an Arrow string array (nulls kept)."""
+    return pa.array(column, from_pandas=True).cast(pa.string())
 
 
 def flows_section(pipes: pd.DataFrame, assumptions: Mapping[str, Any] | None) -> str:

@@ -2,7 +2,9 @@
 
 A map or scatter class is drawn as one ``<path>`` whose data holds every feature of the class
 as a subpath. The data string is built with numpy over all points at once: coordinates are
-rounded to 0.1 px, written in tenths with integer arithmetic, and joined once.
+rounded to 0.1 px, each distinct value is written once (in tenths, with integer arithmetic),
+points only index those texts, and everything is joined once. Lines are simplified to the
+whole pixel and scatter marks to a grid of cells, so the page stays bounded by what it draws.
 """
 
 from __future__ import annotations
@@ -26,13 +28,22 @@ def numbers(values: ArrayLike) -> NDArray[np.object_]:
     >>> numbers([0.0, 12.34, 7.96, -0.26]).tolist()
     ['0', '12.3', '8', '-0.3']
     """
-    tenths = np.rint(np.asarray(values, dtype=float) / RESOLUTION_PX).astype(np.int64)
+    table, position = _lookup(_tenths(values))
+    return table[position]
+
+
+def _tenths(values: ArrayLike) -> NDArray[np.int64]:
+    return np.rint(np.asarray(values, dtype=float) / RESOLUTION_PX).astype(np.int64)
+
+
+def _lookup(tenths: NDArray[np.int64], prefix: str = "") -> tuple[NDArray[np.object_], NDArray[np.intp]]:
+    """A table of texts and each value's position in it: a drawing's range is formatted once."""
     if tenths.size == 0:
-        return np.empty(0, dtype=object)
+        return np.empty(0, dtype=object), np.empty(0, dtype=np.intp)
     low, high = int(tenths.min()), int(tenths.max())
-    if high - low < max(tenths.size, 1024):  # a drawing's range: format each value once, then look up
-        return _tenths_text(np.arange(low, high + 1))[tenths - low]
-    return _tenths_text(tenths)
+    if high - low < max(tenths.size, 1024):
+        return prefix + _tenths_text(np.arange(low, high + 1)), (tenths - low).astype(np.intp)
+    return prefix + _tenths_text(tenths), np.arange(tenths.size)
 
 
 def _tenths_text(tenths: NDArray[np.int64]) -> NDArray[np.object_]:
@@ -42,51 +53,80 @@ def _tenths_text(tenths: NDArray[np.int64]) -> NDArray[np.object_]:
     return np.where(digit == "0", sign + whole, sign + whole + "." + digit)
 
 
+def _pairs(x: NDArray[np.int64], y: NDArray[np.int64], start: NDArray[np.bool_], *, end: str = "") -> str:
+    """``Mx y`` where ``start`` else `` x y``, then ``end``, for every point, joined once.
+
+    Each distinct number is formatted once with its prefix; the points only index the tables.
+    """
+    moves, at = _lookup(x, "M")
+    steps, _ = _lookup(x, " ")
+    heights, at_y = _lookup(y, " ")
+    tokens = np.empty((x.size, 3 if end else 2), dtype=object)
+    tokens[:, 0] = np.where(start, moves[at], steps[at])
+    tokens[:, 1] = heights[at_y]
+    if end:
+        tokens[:, 2] = end
+    return "".join(tokens.ravel().tolist())
+
+
 def line_path_data(x: ArrayLike, y: ArrayLike, line: ArrayLike) -> str:
-    """Path data ``M x y x y ... M x y ...`` for many polylines at once.
+    """Path data ``M x y x y ... M x y h0 ...`` for many polylines at once, simplified to the pixel.
 
     Parameters
     ----------
     x, y : vertex coordinates [px], all lines one after the other
     line : line number of each vertex, non-decreasing
 
-    Vertices that round to the same 0.1 px point as the one before them on the same line are
-    dropped; a line's first and last vertex are always kept, so a line shorter than the
-    resolution still draws as a dot (with round line caps).
+    A line's first and last vertex are kept; a vertex between them is kept where it falls in
+    another whole pixel than the vertex before it. A line whose every vertex lies within half
+    a pixel of its first is drawn as a dot there (a zero-length ``h0``, with round line caps).
+    Coordinates are written to 0.1 px.
 
     Examples
     --------
-    >>> line_path_data([0, 10, 10.01, 20, 5, 5], [0, 0, 0, 5, 5, 5], [0, 0, 0, 0, 1, 1])
-    'M0 0 10 0 20 5M5 5 5 5'
+    >>> line_path_data([0, 10, 10.01, 10.3, 20, 5, 5.2], [0, 0, 0, 0, 5, 5, 5], [0, 0, 0, 0, 0, 1, 1])
+    'M0 0 10 0 20 5M5 5h0'
     """
     line = np.asarray(line)
     if line.size == 0:
         return ""
-    xs, ys = numbers(x), numbers(y)
+    tx, ty = _tenths(x), _tenths(y)
     first = np.r_[True, line[1:] != line[:-1]]
     last = np.r_[line[1:] != line[:-1], True]
-    moved = np.r_[True, (xs[1:] != xs[:-1]) | (ys[1:] != ys[:-1])]
-    keep = first | last | moved
-    token = np.where(first, "M" + xs, " " + xs) + " " + ys
-    return "".join(token[keep].tolist())
+    starts = np.flatnonzero(first)
+    owner = np.cumsum(first) - 1
+    dx, dy = tx - tx[starts][owner], ty - ty[starts][owner]
+    apart = (np.abs(dx) >= 5) | (np.abs(dy) >= 5)  # more than half a pixel from the line's first vertex
+    dot = ~np.logical_or.reduceat(apart, starts)[owner]
+    px, py = np.rint(tx / 10.0), np.rint(ty / 10.0)
+    moved = np.r_[True, (px[1:] != px[:-1]) | (py[1:] != py[:-1])]
+    drawn, alone = ~dot & (first | last | moved), dot & first
+    lines = _pairs(tx[drawn], ty[drawn], first[drawn])
+    return lines + _pairs(tx[alone], ty[alone], np.ones(int(np.count_nonzero(alone)), dtype=bool), end="h0")
 
 
-def dot_path_data(x: ArrayLike, y: ArrayLike) -> str:
-    """Path data of one zero-length mark per point (drawn as dots with round caps).
+def dot_path_data(x: ArrayLike, y: ArrayLike, *, cell_px: float = RESOLUTION_PX) -> str:
+    """Path data of one zero-length mark per occupied cell (drawn as dots with round caps).
 
-    Points that round to the same 0.1 px are drawn once.
+    Points are snapped to a grid of ``cell_px`` [px] (a multiple of 0.1 px) and each occupied
+    cell is drawn once, so the data is bounded by the drawing's area, not by the point count.
 
     Examples
     --------
     >>> dot_path_data([1, 1.01, 3], [2, 2, 4])
     'M1 2h0M3 4h0'
+    >>> dot_path_data([1, 1.4, 3.2], [2, 2.3, 4], cell_px=1.0)
+    'M1 2h0M3 4h0'
     """
-    tenths = np.rint(np.stack([np.asarray(x, dtype=float), np.asarray(y, dtype=float)]) / RESOLUTION_PX).astype(np.int64)
-    if tenths.shape[1] == 0:
+    step = max(int(round(cell_px / RESOLUTION_PX)), 1)
+    cells = np.rint(np.stack([np.asarray(x, dtype=float), np.asarray(y, dtype=float)]) / (step * RESOLUTION_PX)).astype(np.int64)
+    if cells.shape[1] == 0:
         return ""
-    tenths = np.unique(tenths, axis=1)
-    token = "M" + numbers(tenths[0] * RESOLUTION_PX) + " " + numbers(tenths[1] * RESOLUTION_PX) + "h0"
-    return "".join(token.tolist())
+    low = cells.min(axis=1, keepdims=True)
+    rows = int(cells[1].max() - low[1, 0]) + 1
+    key = np.unique((cells[0] - low[0, 0]) * rows + (cells[1] - low[1, 0]))  # x first, then y, as a sort of both
+    tx, ty = (key // rows + low[0, 0]) * step, (key % rows + low[1, 0]) * step
+    return _pairs(tx, ty, np.ones(key.size, dtype=bool), end="h0")
 
 
 def attributes(**values: object) -> str:
