@@ -1,7 +1,7 @@
 """summary.json and the terminal table: counts, lengths, the settings and flow assumptions an audit ran with.
 
-Flag counts and lengths are computed over all pipes at once: the ``flags`` column is split on
-";" and exploded, then grouped by code. Every value is made JSON-safe (NaN and infinities become
+Flag counts and lengths are computed over all pipes at once: pipes are grouped by their flag
+string, and only the few distinct flag sets are split on ";" and summed per code. Every value is made JSON-safe (NaN and infinities become
 null, tables by diameter become lists of ``[from_diameter_mm, value]`` rows), and the file is
 written with ``allow_nan=False`` so it is always valid JSON.
 """
@@ -69,17 +69,33 @@ def flag_totals(pipes: pd.DataFrame, *, rules: RuleSettings) -> pd.DataFrame:
     of ``FLAG_CODES`` that is not switched off, in that order, then any other code found.
     A pipe of unknown length counts as a pipe and adds nothing to the length.
     """
-    codes = pipes["flags"].fillna("").astype(str).str.split(";").explode()
-    codes = codes[codes != ""]
-    length = pd.to_numeric(pipes["length_m"], errors="coerce").reindex(codes.index).fillna(0.0).to_numpy()
-    grouped = pd.DataFrame({"code": codes.to_numpy(), "length_m": length}).groupby("code")["length_m"]
+    found = code_totals(pipes["flags"], pd.to_numeric(pipes["length_m"], errors="coerce").to_numpy(dtype=float, na_value=np.nan))
     live = [code for code in FLAG_CODES if rules.severity.get(code) != "off"]
-    order = live + sorted(set(grouped.groups) - set(live))
-    table = pd.DataFrame({"pipes": grouped.size(), "length_m": grouped.sum()}).reindex(order)
+    order = live + sorted(set(found.index) - set(live))
+    table = found.reindex(order)
     table["pipes"] = table["pipes"].fillna(0).astype(int)
     table["length_m"] = table["length_m"].fillna(0.0)
     table.insert(0, "severity", [rules.severity.get(code) for code in order])
     return table
+
+
+def code_totals(flags: pd.Series, length: np.ndarray) -> pd.DataFrame:
+    """Pipes and length [m] per flag code found in ``flags`` (codes joined by ";").
+
+    Pipes are first grouped by their whole flag string, so only the few distinct flag sets are
+    split, not every pipe. A pipe of unknown length (NaN) counts and adds nothing to the length.
+
+    Examples
+    --------
+    >>> code_totals(pd.Series(["a;b", "", "b", None]), np.array([1.0, 2.0, np.nan, 4.0])).to_dict("index")
+    {'a': {'pipes': 1, 'length_m': 1.0}, 'b': {'pipes': 2, 'length_m': 1.0}}
+    """
+    text = flags.astype(object).where(flags.notna(), "").astype(str).to_numpy(dtype=object)
+    sets = pd.DataFrame({"flags": text, "length_m": length}).groupby("flags")["length_m"].agg(["size", "sum"])
+    codes = sets.index.to_series().str.split(";").explode()
+    codes = codes[codes != ""]
+    per_code = sets.loc[codes.index].set_axis(codes.to_numpy(), axis=0).groupby(level=0).sum()
+    return pd.DataFrame({"pipes": per_code["size"].astype(int), "length_m": per_code["sum"].astype(float)}).rename_axis(None)
 
 
 def severity_counts(pipes: pd.DataFrame) -> dict[str, int]:

@@ -8,6 +8,7 @@ slopes, for users who want the graph itself.
 from __future__ import annotations
 
 from dataclasses import asdict, dataclass
+from functools import partial
 from pathlib import Path
 
 import geopandas as gpd
@@ -78,7 +79,8 @@ def run(config: Config | str | Path, *, progress: bool = False) -> AuditResult:
         ready = prepare(config, progress=bar)
         pipes, network = ready.layers.pipes.canonical, ready.network
         _step(bar, 3)
-        hydraulics = _pipe_hydraulics(ready)
+        height, width = pipe_sizes(pipes)  # once, for hydraulics, outputs and rules
+        hydraulics = _pipe_hydraulics(ready, height=height, width=width)
         layers = ready.layers
         flows = built_flows(
             network,
@@ -93,9 +95,9 @@ def run(config: Config | str | Path, *, progress: bool = False) -> AuditResult:
         _step(bar, 4)
         state = normal_depth(flows.q_design, hydraulics.sections, hydraulics.slope, hydraulics.friction, temperature_c=hydraulics.temperature_c)
         _step(bar, 5)
-        computed = _computed_columns(ready, flows, state)
+        computed = _computed_columns(ready, flows, state, height=height)
         checks = check_pipes(
-            _metrics(pipes, computed, state),
+            _metrics(pipes, computed, state, height=height),
             upstream=network.upstream,
             downstream=network.downstream,
             node_access=network.nodes["access"].to_numpy(dtype=bool),
@@ -129,10 +131,9 @@ def pipe_sizes(pipes: pd.DataFrame) -> tuple[np.ndarray, np.ndarray]:
     return out_height, out_width
 
 
-def _pipe_hydraulics(ready: Prepared) -> PipeHydraulics:
-    """Sections, slopes, friction (the config's formula) and lengths of every pipe."""
+def _pipe_hydraulics(ready: Prepared, *, height: np.ndarray, width: np.ndarray) -> PipeHydraulics:
+    """Sections, slopes, friction (the config's formula) and lengths of every pipe (sizes in [m])."""
     pipes, options = ready.layers.pipes.canonical, ready.config.hydraulics
-    height, width = pipe_sizes(pipes)
     sections = PipeSections.from_names(pipes["shape"].to_numpy(dtype=object), height, width)
     default = options.manning_n if options.formula == "manning" else options.ks_mm
     roughness = pipes["roughness"].to_numpy(dtype=float)
@@ -143,12 +144,11 @@ def _pipe_hydraulics(ready: Prepared) -> PipeHydraulics:
     return PipeHydraulics(sections, slope, friction, length, temperature_c=options.water_temp_c)
 
 
-def _computed_columns(ready: Prepared, flows: DesignFlows, state: FlowState) -> pd.DataFrame:
-    """The computed pipe columns of ``PIPE_COLUMNS`` (all but the rule results)."""
+def _computed_columns(ready: Prepared, flows: DesignFlows, state: FlowState, *, height: np.ndarray) -> pd.DataFrame:
+    """The computed pipe columns of ``PIPE_COLUMNS`` (all but the rule results); ``height`` [m]."""
     levels, network = ready.levels, ready.network
     node_ids = network.nodes["node_id"].to_numpy(dtype=object)
     status = np.array([FlowStatus(code).label for code in range(len(FlowStatus))], dtype=object)[state.status]
-    height, _ = pipe_sizes(ready.layers.pipes.canonical)
     columns = {
         "height_m": height,
         "length_m": levels["length_m"],
@@ -193,17 +193,21 @@ def flow_assumptions(config: Config, flows: DesignFlows) -> dict[str, object]:
     return options
 
 
-def _metrics(pipes: pd.DataFrame, computed: pd.DataFrame, state: FlowState) -> pd.DataFrame:
-    """The frame the rules read (``audit.rules.METRIC_COLUMNS``)."""
+def _metrics(pipes: pd.DataFrame, computed: pd.DataFrame, state: FlowState, *, height: np.ndarray) -> pd.DataFrame:
+    """The frame the rules read (``audit.rules.METRIC_COLUMNS``); ``height`` [m].
+
+    Text columns stay Python objects: the rules read them back as such.
+    """
     rule_status = computed["hydraulic_status"].to_numpy(dtype=object).copy()
     for code, label in _RULE_STATUS.items():
         rule_status[state.status == code] = label
-    height, _ = pipe_sizes(pipes)
+    shape = pipes["shape"].to_numpy(dtype=object)
+    text = partial(_objects, index=computed.index)
     return pd.DataFrame(
         {
-            "pipe_id": pipe_labels(pipes),
-            "shape": pipes["shape"].to_numpy(dtype=object),
-            "diameter": np.where(pipes["shape"] == "circular", height, np.nan),
+            "pipe_id": text(pipe_labels(pipes)),
+            "shape": text(shape),
+            "diameter": np.where(shape == "circular", height, np.nan),
             "height": height,
             "length_m": computed["length_m"],
             "slope": computed["slope"],
@@ -217,11 +221,16 @@ def _metrics(pipes: pd.DataFrame, computed: pd.DataFrame, state: FlowState) -> p
             "down_cover": computed["down_cover_m"],
             "upstream_invert": computed["up_invert_m"],
             "downstream_invert": computed["down_invert_m"],
-            "hydraulic_status": rule_status,
-            "flow_status": computed["flow_source"],
+            "hydraulic_status": text(rule_status),
+            "flow_status": text(computed["flow_source"]),
         },
         index=computed.index,
     )
+
+
+def _objects(values: np.ndarray | pd.Series, *, index: pd.Index) -> pd.Series:
+    """A text column kept as Python objects (no conversion to Arrow strings and back)."""
+    return pd.Series(np.asarray(values, dtype=object), index=index, dtype=object)
 
 
 def _result(ready: Prepared, flows: DesignFlows, computed: pd.DataFrame) -> AuditResult:

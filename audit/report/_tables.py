@@ -17,6 +17,7 @@ import numpy as np
 import pandas as pd
 
 from audit._errors import InputError
+from audit._summary import code_totals
 from audit.rules import FLAG_CODES, SEVERITY_ORDER
 
 #: Map classes from the most urgent to the least, with the words the legend uses.
@@ -76,12 +77,7 @@ def flag_totals(pipes: pd.DataFrame, *, severity: Mapping[str, str]) -> pd.DataF
     A pipe with several flags counts once under each. Columns: ``flag``, ``severity`` (from the
     rules used), ``pipes``, ``length_m``.
     """
-    combined = pd.DataFrame({"flags": texts(pipes, "flags").to_numpy(dtype=object), "length_m": numeric(pipes, "length_m")})
-    combos = combined.groupby("flags").agg(pipes=("flags", "size"), length_m=("length_m", "sum")).reset_index()
-    combos["flag"] = combos["flags"].str.split(";")  # a handful of distinct flag sets, not every pipe
-    long = combos.explode("flag")
-    long = long[long["flag"] != ""]
-    grouped = long.groupby("flag").agg(pipes=("pipes", "sum"), length_m=("length_m", "sum"))
+    grouped = code_totals(pipes["flags"], numeric(pipes, "length_m")).rename_axis("flag")
     order = [code for code in FLAG_CODES if code in grouped.index] + sorted(set(grouped.index) - set(FLAG_CODES))
     table = grouped.reindex(order).reset_index()
     table.insert(1, "severity", [severity.get(code, "") for code in table["flag"]])
