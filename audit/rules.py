@@ -126,12 +126,21 @@ def worst_severity_at_least(severity_column: pd.Series | np.ndarray, threshold: 
     return words.map(rank).fillna(0).to_numpy(dtype=float) >= rank[threshold]
 
 
+def _text_column(values: pd.Series) -> np.ndarray:
+    """Python strings, "unknown" where missing; a column of strings is not converted again."""
+    text = values.to_numpy(dtype=object).copy()
+    if pd.api.types.infer_dtype(text, skipna=True) not in ("string", "empty"):
+        return values.fillna("unknown").astype(str).to_numpy(dtype=object)
+    text[pd.isna(text)] = "unknown"
+    return text
+
+
 def _columns(metrics: pd.DataFrame) -> dict[str, np.ndarray]:
     missing = [name for name in METRIC_COLUMNS if name not in metrics.columns]
     if missing:
         raise ValueError(f"rules: metrics frame lacks column(s) {', '.join(missing)}")
     texts = ("pipe_id", "shape", "hydraulic_status", "flow_status")
-    columns = {name: metrics[name].fillna("unknown").astype(str).to_numpy(dtype=object) for name in texts}
+    columns = {name: _text_column(metrics[name]) for name in texts}
     for name in (*METRIC_COLUMNS, "upstream_invert", "downstream_invert"):
         if name not in texts and name in metrics.columns:
             columns[name] = metrics[name].to_numpy(dtype=float, na_value=np.nan)
