@@ -62,7 +62,7 @@ def rank_candidates(pipes: pd.DataFrame, *, include_low: bool = False) -> pd.Dat
         _descending(_number(picked, "load_ratio")),
         -picked["severity"].map(rank_of).to_numpy(dtype=float),
     ))  # fmt: skip
-    table = pd.DataFrame({name: _column(picked, name)[order] for name in CANDIDATE_COLUMNS[1:]})
+    table = pd.DataFrame({name: _ordered(picked, name, order) for name in CANDIDATE_COLUMNS[1:]})
     table.insert(0, "rank", np.arange(1, len(order) + 1))
     return table.round({name: places for name, places in DECIMALS.items()})
 
@@ -117,6 +117,13 @@ def _pipe_ids(pipes: pd.DataFrame) -> np.ndarray:
     if "pipe_id" in pipes.columns:
         return _text(pipes, "pipe_id")
     return ("#" + pd.RangeIndex(len(pipes)).astype(str)).to_numpy(dtype=object)
+
+
+def _ordered(pipes: pd.DataFrame, name: str, order: np.ndarray) -> np.ndarray | pd.Series:
+    """One output column in rank order; a column of strings is taken as it is (no object round trip)."""
+    if name in pipes.columns and name not in DECIMALS and isinstance(pipes[name].dtype, pd.StringDtype):
+        return pipes[name].iloc[order].reset_index(drop=True)
+    return _column(pipes, name)[order]
 
 
 def _column(pipes: pd.DataFrame, name: str) -> np.ndarray:
