@@ -236,24 +236,36 @@ def _shapes(context: _Context, sizes: dict[str, np.ndarray]) -> np.ndarray:
     raw = _raw(context, "shape")
     if raw is None:
         return inferred.to_numpy(dtype=object)
-    codes = pd.Series(as_text(raw), dtype=object)
+    codes = as_text(raw)
+    which, distinct = _distinct(codes)
     lower = {code.lower(): shape for code, shape in context.source.shapes.items()} | {s: s for s in SHAPES}
-    mapped = codes.map(dict(context.source.shapes)).fillna(codes.str.lower().map(lower))
-    unknown = (codes.notna() & mapped.isna()).to_numpy()
-    context.report.add(unknown, "unknown_shape", Quoted(raw, f"shape field '{raw.name}' = ",
+    named = distinct.map(dict(context.source.shapes)).fillna(distinct.str.lower().map(lower)).to_numpy(dtype=object)
+    mapped = np.where(which >= 0, named[np.maximum(which, 0)] if named.size else None, None)
+    unmapped = pd.isna(mapped)
+    context.report.add(unmapped & (which >= 0), "unknown_shape", Quoted(raw, f"shape field '{raw.name}' = ",
                        " is neither in [pipes.shapes] nor one of " + ", ".join(SHAPES)))  # fmt: skip
-    return mapped.fillna(codes).fillna(inferred).to_numpy(dtype=object)
+    return np.where(unmapped, np.where(which >= 0, codes, inferred.to_numpy(dtype=object)), mapped)
+
+
+def _distinct(codes: np.ndarray) -> tuple[np.ndarray, pd.Series]:
+    """Each value's position among the distinct values (-1 where None), and those values.
+
+    A code column holds a handful of distinct values: mapping them, not every row, is cheap.
+    """
+    which, distinct = pd.factorize(pd.Series(codes, dtype=object))
+    return which, pd.Series(np.asarray(distinct, dtype=object), dtype=object)
 
 
 def _access(context: _Context) -> np.ndarray:
     raw = _raw(context, "access")
     if raw is None:
         return np.ones(len(context.frame), dtype=bool)
-    words = pd.Series(as_text(raw), dtype=object).str.lower()
-    known = words.isna() | words.isin(ACCESS_YES) | words.isin(ACCESS_NO)
-    context.report.add(~known.to_numpy(), "unknown_access", Quoted(raw, f"access field '{raw.name}' = ",
+    which, distinct = _distinct(as_text(raw))
+    words = distinct.str.lower()
+    known = np.r_[(words.isin(ACCESS_YES) | words.isin(ACCESS_NO)).to_numpy(dtype=bool), True][which]  # -1: no value
+    context.report.add(~known, "unknown_access", Quoted(raw, f"access field '{raw.name}' = ",
                        " is read neither as yes nor as no; taken as accessible"))  # fmt: skip
-    return ~words.isin(ACCESS_NO).to_numpy()
+    return ~np.r_[words.isin(ACCESS_NO).to_numpy(dtype=bool), False][which]
 
 
 def _pipe_columns(context: _Context) -> dict[str, np.ndarray]:
