@@ -52,8 +52,11 @@ def numeric(pipes: pd.DataFrame, name: str) -> np.ndarray:
 
 
 def texts(pipes: pd.DataFrame, name: str) -> pd.Series:
-    """A pipe column as strings, "" where empty."""
-    return pipes[name].astype(object).where(pipes[name].notna(), "").astype(str)
+    """A pipe column as strings, "" where empty; a column of strings is only filled."""
+    column = pipes[name]
+    if isinstance(column.dtype, pd.StringDtype):
+        return column.fillna("")
+    return column.astype(object).where(column.notna(), "").astype(str)
 
 
 def map_classes(pipes: pd.DataFrame) -> np.ndarray:
