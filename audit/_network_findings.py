@@ -66,7 +66,7 @@ def join_findings(joined: _Joined, *, pipe_ids: np.ndarray, unplaced: np.ndarray
     fate[node < 0] = "left unplaced"
     messages = (
         "pipe " + _text(pipe_ids[pipe]) + ": " + _text(_END_NAMES[end]) + "_node '"
-        + _text(joined.end_ids[pipe, end]) + "' names no manhole; end " + fate
+        + _text(joined.end_ids(pipe, end)) + "' names no manhole; end " + fate
     )
     xy = joined.end_xy[pipe, end]
     findings.add_many("pipes", pipe_ids[pipe], "unknown_node", messages, x=xy[:, 0], y=xy[:, 1])
@@ -93,7 +93,7 @@ def drawn_against_flow(joined: _Joined, backwards: np.ndarray, *, pipes: gpd.Geo
     rows = np.flatnonzero(backwards)
     if rows.size == 0:
         return
-    from_id, to_id = joined.end_ids[rows, 0], joined.end_ids[rows, 1]
+    from_id, to_id = joined.end_ids(rows, np.zeros_like(rows)), joined.end_ids(rows, np.ones_like(rows))
     messages = (
         "drawn from " + _text(to_id) + " to " + _text(from_id) + ", against the flow its ids give ("
         + _text(from_id) + " to " + _text(to_id) + "); the ids set the direction"

@@ -70,9 +70,15 @@ class _Joined:
     nodes: pd.DataFrame
     end_node: np.ndarray  # int64 (n, 2)
     end_xy: np.ndarray  # float (n, 2, 2)
-    end_ids: np.ndarray  # object (n, 2), None where no id
+    end_text: pa.Array  # the from ids of all pipes, then their to ids; null where no id
+    has_id: np.ndarray  # bool (n, 2): the end has an id
     unknown: np.ndarray  # bool (n, 2): an id was given and names no manhole
     ids_mapped: bool
+
+    def end_ids(self, pipe: np.ndarray, end: np.ndarray) -> np.ndarray:
+        """The ids (str, None where none) of the given ends, as Python objects."""
+        where = np.asarray(end, dtype=np.int64) * len(self.end_node) + np.asarray(pipe, dtype=np.int64)
+        return self.end_text.take(pa.array(where)).to_numpy(zero_copy_only=False)
 
 
 def build_network(
@@ -146,7 +152,7 @@ def _drawn_backwards(joined: _Joined) -> np.ndarray:
     the last nearer the to-manhole; a pipe is drawn backwards when swapping the ends brings both
     vertices closer in total. The ids still set the flow direction.
     """
-    by_id = (joined.end_ids != None).all(axis=1) & ~joined.unknown.any(axis=1) & (joined.end_node >= 0).all(axis=1)  # noqa: E711
+    by_id = joined.has_id.all(axis=1) & ~joined.unknown.any(axis=1) & (joined.end_node >= 0).all(axis=1)  # noqa: E711
     node_xy = joined.nodes[["x", "y"]].to_numpy(dtype=float)[np.maximum(joined.end_node, 0)]  # (n, 2, 2)
     as_ids = np.hypot(*(joined.end_xy - node_xy).transpose(2, 0, 1)).sum(axis=1)
     swapped = np.hypot(*(joined.end_xy - node_xy[:, ::-1]).transpose(2, 0, 1)).sum(axis=1)
@@ -192,39 +198,70 @@ def pipe_labels(pipes: pd.DataFrame) -> np.ndarray:
     return given.where(given.notna(), fallback).astype(str).to_numpy(dtype=object)
 
 
-def _id_array(values: pd.Series | None, count: int) -> np.ndarray:
-    """Ids as str objects, None where null or blank."""
+def _id_text(values: pd.Series | None, count: int) -> pa.Array:
+    """Ids as an Arrow text column, stripped; null where null or blank."""
     if values is None:
-        return np.full(count, None, dtype=object)
+        return pa.nulls(count, pa.large_string())
     if isinstance(values.dtype, pd.StringDtype):  # stripped in bulk, without a Python str per id
-        stripped = values.str.strip()
-        return stripped.where(stripped != "").to_numpy(dtype=object, na_value=None)
-    series = pd.Series(values.to_numpy(dtype=object))
-    present = series.notna().to_numpy()
-    text = np.full(count, None, dtype=object)
-    text[present] = series[present].astype(str).str.strip().to_numpy(dtype=object)
-    text[present & (text == "")] = None
-    return text
+        text = pa.array(values.array).cast(pa.large_string())
+    else:
+        series = pd.Series(values.to_numpy(dtype=object))
+        text = pa.array(series.where(series.isna(), series.astype(str)).to_numpy(dtype=object), type=pa.large_string(), from_pandas=True)
+    text = pc.utf8_trim_whitespace(text)
+    return pc.if_else(pc.equal(text, ""), pa.scalar(None, pa.large_string()), text)
 
 
-def _end_ids(pipes: pd.DataFrame) -> np.ndarray:
-    count = len(pipes)
-    columns = [_id_array(pipes.get(name), count) for name in ("from_node", "to_node")]
-    return np.stack(columns, axis=1)
+@dataclass(frozen=True, eq=False)
+class _IdCodes:
+    """Manhole ids and pipe-end ids as integer codes of one factorisation (-1 where no id).
+
+    The manhole ids come first, so the codes below ``manhole_count`` are exactly the distinct
+    manhole ids, numbered in order of first appearance.
+    """
+
+    text: pa.Array  # every distinct id, indexed by code
+    manhole: np.ndarray  # int64 per manhole row
+    ends: np.ndarray  # int64 (n, 2)
+    manhole_count: int
 
 
-def _manhole_nodes(manholes: gpd.GeoDataFrame | None, *, keep_first: bool) -> tuple[pd.DataFrame, np.ndarray]:
-    """Node rows for the manholes, and the manhole rows dropped as repeated ids."""
+def _id_codes(manhole_ids: pa.Array, from_ids: pa.Array, to_ids: pa.Array) -> _IdCodes:
+    """Factorise all ids at once; joins by id are then integer operations."""
+    encoded = pc.dictionary_encode(pa.concat_arrays([manhole_ids, from_ids, to_ids]))
+    codes = encoded.indices.fill_null(-1).to_numpy().astype(np.int64)
+    manhole, count = codes[: len(manhole_ids)], len(from_ids)
+    ends = np.stack([codes[len(manhole) : len(manhole) + count], codes[len(manhole) + count :]], axis=1)
+    return _IdCodes(encoded.dictionary, manhole, ends, int(manhole.max(initial=-1)) + 1)
+
+
+def _first_appearance(codes: np.ndarray) -> np.ndarray:
+    """True where a code appears for the first time (codes numbered in order of first appearance).
+
+    Examples
+    --------
+    >>> _first_appearance(np.array([0, -1, 1, 0, 2, 1])).tolist()
+    [True, False, True, False, True, False]
+    """
+    before = np.maximum.accumulate(np.r_[-1, codes[:-1]]) if codes.size else codes
+    return codes > before
+
+
+def _manhole_nodes(
+    manholes: gpd.GeoDataFrame | None, codes: _IdCodes, *, keep_first: bool
+) -> tuple[pd.DataFrame, np.ndarray, np.ndarray]:
+    """Node rows for the manholes, the manhole rows dropped as repeated ids, node index per id code."""
     if manholes is None:
-        return _empty_nodes(), np.zeros(0, dtype=np.int64)
-    ids = _id_array(manholes["manhole_id"], len(manholes))
-    repeated = pd.Series(ids).duplicated(keep="first").to_numpy() & (ids != None)  # noqa: E711
-    keep = ~repeated if keep_first else np.ones(len(ids), dtype=bool)
+        return _empty_nodes(), np.zeros(0, dtype=np.int64), np.zeros(0, dtype=np.int64)
+    fresh = _first_appearance(codes.manhole)
+    repeated = (codes.manhole >= 0) & ~fresh
+    keep = ~repeated if keep_first else np.ones(len(manholes), dtype=bool)
+    rows = np.flatnonzero(keep)
+    node_of_code = (np.cumsum(keep) - 1)[fresh]
     geometry = np.asarray(manholes.geometry.values, dtype=object)[keep]
     table = {
-        "node_id": ids[keep],
+        "node_id": _node_names(codes, rows),
         "kind": "manhole",
-        "manhole_row": np.flatnonzero(keep).astype(np.int64),
+        "manhole_row": rows.astype(np.int64),
         "x": shapely.get_x(geometry),
         "y": shapely.get_y(geometry),
     }
@@ -232,8 +269,16 @@ def _manhole_nodes(manholes: gpd.GeoDataFrame | None, *, keep_first: bool) -> tu
         table[name] = manholes[name].to_numpy(dtype=float)[keep] if name in manholes else np.nan
     access = manholes["access"].to_numpy(dtype=object)[keep] if "access" in manholes else np.full(keep.sum(), True)
     table["access"] = np.where(pd.isna(access), True, access).astype(bool)
-    nodes = pd.DataFrame(table, index=range(int(keep.sum())))
-    return nodes, np.flatnonzero(repeated & keep_first)
+    nodes = pd.DataFrame(table, index=range(len(rows)))
+    return nodes, np.flatnonzero(repeated & keep_first), node_of_code
+
+
+def _node_names(codes: _IdCodes, rows: np.ndarray) -> pd.api.extensions.ExtensionArray | np.ndarray:
+    """The stripped ids of the given manhole rows: text as pandas infers it, None-only as objects."""
+    picked = codes.text.take(pa.array(codes.manhole[rows], mask=codes.manhole[rows] < 0))
+    if picked.null_count == len(picked):
+        return np.full(len(picked), None, dtype=object)
+    return pd.array(picked.cast(pa.large_string()), dtype=pd.StringDtype("pyarrow", na_value=np.nan))
 
 
 def _empty_nodes() -> pd.DataFrame:
@@ -258,43 +303,36 @@ def _join(
     findings: FindingLog,
 ) -> _Joined:
     """Every pipe end to a node: by id, else by snapping, else a junction of meeting ends."""
-    end_ids = _end_ids(pipes)
-    ids_mapped = bool((end_ids != None).any())  # noqa: E711
-    manhole_nodes, repeated = _manhole_nodes(manholes, keep_first=ids_mapped)
+    count = len(pipes)
+    from_ids, to_ids = (_id_text(pipes.get(name), count) for name in ("from_node", "to_node"))
+    manhole_ids = _id_text(None if manholes is None else manholes["manhole_id"], 0 if manholes is None else len(manholes))
+    codes = _id_codes(manhole_ids, from_ids, to_ids)
+    has_id = codes.ends >= 0
+    ids_mapped = bool(has_id.any())
+    manhole_nodes, repeated, node_of_code = _manhole_nodes(manholes, codes, keep_first=ids_mapped)
     if manholes is not None:
         report.duplicate_ids(manholes, repeated, findings=findings)
     end_xy = line_ends(np.asarray(pipes.geometry.values, dtype=object))
-    end_node = _nodes_by_id(end_ids, manhole_nodes).reshape(-1)
-    unknown = (end_ids != None).reshape(-1) & (end_node < 0)  # noqa: E711
+    known = has_id & (codes.ends < codes.manhole_count)
+    end_node = np.where(known, np.r_[node_of_code, -1][np.where(known, codes.ends, -1)], -1).reshape(-1)
+    unknown = has_id.reshape(-1) & (end_node < 0)
     flat_xy = end_xy.reshape(-1, 2)
     seek = np.flatnonzero((end_node < 0) & ~np.isnan(flat_xy).any(axis=1))
     hit, _ = snap_to_points(flat_xy[seek], manhole_nodes[["x", "y"]].to_numpy(float), tolerance_m=tolerance_m)
     end_node[seek] = hit
-    junctions = _junctions(end_node, flat_xy, end_ids.reshape(-1), start=len(manhole_nodes), tolerance_m=tolerance_m)
+    junctions = _junctions(end_node, flat_xy, codes, start=len(manhole_nodes), tolerance_m=tolerance_m)
     nodes = pd.concat([manhole_nodes, junctions], ignore_index=True) if len(junctions) else manhole_nodes
     end_node = end_node.reshape(-1, 2)
     unplaced = (end_node < 0).any(axis=1)
     end_node[unplaced] = -1
-    joined = _Joined(nodes, end_node, end_xy, end_ids, unknown.reshape(-1, 2), ids_mapped)
+    end_text = pa.concat_arrays([from_ids, to_ids])
+    joined = _Joined(nodes, end_node, end_xy, end_text, has_id, unknown.reshape(-1, 2), ids_mapped)
     report.join_findings(joined, pipe_ids=pipe_ids, unplaced=unplaced, findings=findings)
     return joined
 
 
-def _nodes_by_id(end_ids: np.ndarray, manhole_nodes: pd.DataFrame) -> np.ndarray:
-    """Node index per end from its id; -1 where there is no id or it names no manhole node."""
-    named = manhole_nodes["node_id"].to_numpy(dtype=object)
-    if (end_ids == None).all():  # noqa: E711
-        return np.full(end_ids.shape, -1, dtype=np.int64)
-    usable = np.flatnonzero(named != None)  # noqa: E711
-    # one hash lookup in Arrow over all ends; ids are str or None (see _id_array)
-    wanted = pa.array(end_ids.reshape(-1), type=pa.large_string())
-    lookup = pc.index_in(wanted, value_set=pa.array(named[usable], type=pa.large_string())).fill_null(-1).to_numpy()
-    found = np.where(lookup >= 0, usable[np.maximum(lookup, 0)] if usable.size else -1, -1)
-    return found.astype(np.int64).reshape(end_ids.shape)
-
-
 def _junctions(
-    end_node: np.ndarray, flat_xy: np.ndarray, flat_ids: np.ndarray, *, start: int, tolerance_m: float
+    end_node: np.ndarray, flat_xy: np.ndarray, codes: _IdCodes, *, start: int, tolerance_m: float
 ) -> pd.DataFrame:
     """Give every end still without a node a junction node; fills ``end_node`` in place.
 
@@ -310,10 +348,11 @@ def _junctions(
     sums = np.stack([np.bincount(label, flat_xy[free, axis], cluster_count) for axis in (0, 1)], axis=1)
     means = sums / np.maximum(np.bincount(label, minlength=cluster_count), 1)[:, None]
     names = ("J" + pd.Series(np.arange(1, cluster_count + 1)).astype(str)).to_numpy(dtype=object)
-    by_id = np.flatnonzero((end_node < 0) & ~located & (flat_ids != None))  # noqa: E711
-    id_label = first_appearance_labels(pd.factorize(flat_ids[by_id])[0])
-    end_node[by_id] = start + cluster_count + id_label
-    id_names = pd.unique(flat_ids[by_id]) if by_id.size else np.zeros(0, dtype=object)
+    flat_codes = codes.ends.reshape(-1)
+    by_id = np.flatnonzero((end_node < 0) & ~located & (flat_codes >= 0))
+    id_label, id_codes = pd.factorize(flat_codes[by_id])
+    end_node[by_id] = start + cluster_count + first_appearance_labels(id_label)
+    id_names = codes.text.take(pa.array(np.asarray(id_codes, dtype=np.int64))).to_numpy(zero_copy_only=False)
     xy = np.vstack([means, np.full((len(id_names), 2), np.nan)])
     return _junction_nodes(np.concatenate([names, np.asarray(id_names, dtype=object)]), xy)
 
