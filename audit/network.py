@@ -19,12 +19,12 @@ import geopandas as gpd
 import numpy as np
 import pandas as pd
 import pyarrow as pa
-import pyarrow.compute as pc
 import shapely
 
 from audit import _network_findings as report
 from audit._errors import ConfigError, InputError
 from audit._graph import order_pipes, outfall_nodes, pipe_components
+from audit._ids import IdCodes, first_appearance, id_codes, id_text
 from audit._snapping import cluster_points, first_appearance_labels, line_ends, snap_to_points
 from audit.findings import FindingLog
 
@@ -198,61 +198,13 @@ def pipe_labels(pipes: pd.DataFrame) -> np.ndarray:
     return given.where(given.notna(), fallback).astype(str).to_numpy(dtype=object)
 
 
-def _id_text(values: pd.Series | None, count: int) -> pa.Array:
-    """Ids as an Arrow text column, stripped; null where null or blank."""
-    if values is None:
-        return pa.nulls(count, pa.large_string())
-    if isinstance(values.dtype, pd.StringDtype):  # stripped in bulk, without a Python str per id
-        text = pa.array(values.array).cast(pa.large_string())
-    else:
-        series = pd.Series(values.to_numpy(dtype=object))
-        text = pa.array(series.where(series.isna(), series.astype(str)).to_numpy(dtype=object), type=pa.large_string(), from_pandas=True)
-    text = pc.utf8_trim_whitespace(text)
-    return pc.if_else(pc.equal(text, ""), pa.scalar(None, pa.large_string()), text)
-
-
-@dataclass(frozen=True, eq=False)
-class _IdCodes:
-    """Manhole ids and pipe-end ids as integer codes of one factorisation (-1 where no id).
-
-    The manhole ids come first, so the codes below ``manhole_count`` are exactly the distinct
-    manhole ids, numbered in order of first appearance.
-    """
-
-    text: pa.Array  # every distinct id, indexed by code
-    manhole: np.ndarray  # int64 per manhole row
-    ends: np.ndarray  # int64 (n, 2)
-    manhole_count: int
-
-
-def _id_codes(manhole_ids: pa.Array, from_ids: pa.Array, to_ids: pa.Array) -> _IdCodes:
-    """Factorise all ids at once; joins by id are then integer operations."""
-    encoded = pc.dictionary_encode(pa.concat_arrays([manhole_ids, from_ids, to_ids]))
-    codes = encoded.indices.fill_null(-1).to_numpy().astype(np.int64)
-    manhole, count = codes[: len(manhole_ids)], len(from_ids)
-    ends = np.stack([codes[len(manhole) : len(manhole) + count], codes[len(manhole) + count :]], axis=1)
-    return _IdCodes(encoded.dictionary, manhole, ends, int(manhole.max(initial=-1)) + 1)
-
-
-def _first_appearance(codes: np.ndarray) -> np.ndarray:
-    """True where a code appears for the first time (codes numbered in order of first appearance).
-
-    Examples
-    --------
-    >>> _first_appearance(np.array([0, -1, 1, 0, 2, 1])).tolist()
-    [True, False, True, False, True, False]
-    """
-    before = np.maximum.accumulate(np.r_[-1, codes[:-1]]) if codes.size else codes
-    return codes > before
-
-
 def _manhole_nodes(
-    manholes: gpd.GeoDataFrame | None, codes: _IdCodes, *, keep_first: bool
+    manholes: gpd.GeoDataFrame | None, codes: IdCodes, *, keep_first: bool
 ) -> tuple[pd.DataFrame, np.ndarray, np.ndarray]:
     """Node rows for the manholes, the manhole rows dropped as repeated ids, node index per id code."""
     if manholes is None:
         return _empty_nodes(), np.zeros(0, dtype=np.int64), np.zeros(0, dtype=np.int64)
-    fresh = _first_appearance(codes.manhole)
+    fresh = first_appearance(codes.manhole)
     repeated = (codes.manhole >= 0) & ~fresh
     keep = ~repeated if keep_first else np.ones(len(manholes), dtype=bool)
     rows = np.flatnonzero(keep)
@@ -273,7 +225,7 @@ def _manhole_nodes(
     return nodes, np.flatnonzero(repeated & keep_first), node_of_code
 
 
-def _node_names(codes: _IdCodes, rows: np.ndarray) -> pd.api.extensions.ExtensionArray | np.ndarray:
+def _node_names(codes: IdCodes, rows: np.ndarray) -> pd.api.extensions.ExtensionArray | np.ndarray:
     """The stripped ids of the given manhole rows: text as pandas infers it, None-only as objects."""
     picked = codes.text.take(pa.array(codes.manhole[rows], mask=codes.manhole[rows] < 0))
     if picked.null_count == len(picked):
@@ -304,9 +256,9 @@ def _join(
 ) -> _Joined:
     """Every pipe end to a node: by id, else by snapping, else a junction of meeting ends."""
     count = len(pipes)
-    from_ids, to_ids = (_id_text(pipes.get(name), count) for name in ("from_node", "to_node"))
-    manhole_ids = _id_text(None if manholes is None else manholes["manhole_id"], 0 if manholes is None else len(manholes))
-    codes = _id_codes(manhole_ids, from_ids, to_ids)
+    from_ids, to_ids = (id_text(pipes.get(name), count) for name in ("from_node", "to_node"))
+    manhole_ids = id_text(None if manholes is None else manholes["manhole_id"], 0 if manholes is None else len(manholes))
+    codes = id_codes(manhole_ids, from_ids, to_ids)
     has_id = codes.ends >= 0
     ids_mapped = bool(has_id.any())
     manhole_nodes, repeated, node_of_code = _manhole_nodes(manholes, codes, keep_first=ids_mapped)
@@ -332,7 +284,7 @@ def _join(
 
 
 def _junctions(
-    end_node: np.ndarray, flat_xy: np.ndarray, codes: _IdCodes, *, start: int, tolerance_m: float
+    end_node: np.ndarray, flat_xy: np.ndarray, codes: IdCodes, *, start: int, tolerance_m: float
 ) -> pd.DataFrame:
     """Give every end still without a node a junction node; fills ``end_node`` in place.
 
