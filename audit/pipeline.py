@@ -14,6 +14,7 @@ from pathlib import Path
 import geopandas as gpd
 import numpy as np
 import pandas as pd
+import pyarrow as pa
 from tqdm import tqdm
 
 from .config import Config, load_config
@@ -36,6 +37,12 @@ STAGES = ("reading layers", "building the network", "slopes", "design flows", "h
 # hydraulic statuses as the rules stage reads them: a flow above full bore still has a normal
 # depth (the load-ratio rules judge it); zero flow and an unknown shape leave a check unrun.
 _RULE_STATUS = {FlowStatus.ABOVE_FULL_BORE: "ok", FlowStatus.ZERO_FLOW: "missing_flow", FlowStatus.UNKNOWN_SHAPE: "missing_size"}
+_STATUS_LABELS = np.array([status.label for status in FlowStatus], dtype=object)  # by status code
+_RULE_LABELS = np.array([_RULE_STATUS.get(status, status.label) for status in FlowStatus], dtype=object)
+# the rules' columns taken from the computed ones as they are, and those under another name
+_METRIC_SAME = ("length_m", "slope", "q_full", "q_design", "load_ratio", "depth_ratio", "v_design", "shear")
+_METRIC_RENAMED = {"up_cover": "up_cover_m", "down_cover": "down_cover_m", "upstream_invert": "up_invert_m",
+                   "downstream_invert": "down_invert_m"}  # fmt: skip
 
 
 @dataclass(frozen=True, eq=False)
@@ -80,6 +87,7 @@ def run(config: Config | str | Path, *, progress: bool = False) -> AuditResult:
         pipes, network = ready.layers.pipes.canonical, ready.network
         _step(bar, 3)
         height, width = pipe_sizes(pipes)  # once, for hydraulics, outputs and rules
+        labels = pipe_labels(pipes)  # once, for the design flows' findings and the rules
         hydraulics = _pipe_hydraulics(ready, height=height, width=width)
         layers = ready.layers
         flows = built_flows(
@@ -88,7 +96,7 @@ def run(config: Config | str | Path, *, progress: bool = False) -> AuditResult:
             catchments=None if layers.catchments is None else layers.catchments.canonical,
             given_flow=pipes["flow"].to_numpy(dtype=float),
             pipes=hydraulics,
-            pipe_labels=pipe_labels(pipes),
+            pipe_labels=labels,
             options=ready.config.flows,
             findings=ready.findings,
         )
@@ -97,7 +105,7 @@ def run(config: Config | str | Path, *, progress: bool = False) -> AuditResult:
         _step(bar, 5)
         computed = _computed_columns(ready, flows, state, height=height)
         checks = check_pipes(
-            _metrics(pipes, computed, state, height=height),
+            _metrics(pipes, computed, state, flows, height=height, labels=labels),
             upstream=network.upstream,
             downstream=network.downstream,
             node_access=network.nodes["access"].to_numpy(dtype=bool),
@@ -145,10 +153,13 @@ def _pipe_hydraulics(ready: Prepared, *, height: np.ndarray, width: np.ndarray) 
 
 
 def _computed_columns(ready: Prepared, flows: DesignFlows, state: FlowState, *, height: np.ndarray) -> pd.DataFrame:
-    """The computed pipe columns of ``PIPE_COLUMNS`` (all but the rule results); ``height`` [m]."""
+    """The computed pipe columns of ``PIPE_COLUMNS`` (all but the rule results); ``height`` [m].
+
+    Text columns are built as Arrow strings (the dtype pandas would infer) and the numeric
+    arrays are taken without a copy into one block.
+    """
     levels, network = ready.levels, ready.network
-    node_ids = network.nodes["node_id"].to_numpy(dtype=object)
-    status = np.array([FlowStatus(code).label for code in range(len(FlowStatus))], dtype=object)[state.status]
+    node_ids = _arrow_text(network.nodes["node_id"])
     columns = {
         "height_m": height,
         "length_m": levels["length_m"],
@@ -160,18 +171,37 @@ def _computed_columns(ready: Prepared, flows: DesignFlows, state: FlowState, *, 
         "q_full": state.q_full,
         "v_full": state.v_full,
         "q_design": flows.q_design,
-        "flow_source": flows.source.astype(object),
+        "flow_source": _as_column(pa.array(flows.source)),
         "load_ratio": flows.q_design / state.q_full,
         "depth_ratio": state.depth_ratio,
         "v_design": state.velocity,
         "shear": state.shear,
-        "hydraulic_status": status,
-        "from_node_id": np.where(network.upstream >= 0, node_ids[np.maximum(network.upstream, 0)], None),
-        "to_node_id": np.where(network.downstream >= 0, node_ids[np.maximum(network.downstream, 0)], None),
+        "hydraulic_status": _as_column(pa.array(_STATUS_LABELS.tolist()).take(pa.array(state.status))),
+        "from_node_id": _as_column(_node_text(node_ids, network.upstream)),
+        "to_node_id": _as_column(_node_text(node_ids, network.downstream)),
         "upstream_length_m": flows.upstream_length,
         **_flow_parts(flows),
     }
-    return pd.DataFrame(columns, index=ready.layers.pipes.canonical.index)
+    return pd.DataFrame(columns, index=ready.layers.pipes.canonical.index, copy=False)
+
+
+def _arrow_text(values: pd.Series) -> pa.Array:
+    """A column of strings (None or NaN where missing) as Arrow text."""
+    if isinstance(values.dtype, pd.StringDtype):
+        return pa.array(values.array).cast(pa.large_string())
+    return pa.array(values.to_numpy(dtype=object), type=pa.large_string(), from_pandas=True)
+
+
+def _node_text(node_ids: pa.Array, node: np.ndarray) -> pa.Array:
+    """The id of each pipe's node; null where the pipe has none (-1)."""
+    return node_ids.take(pa.array(np.maximum(node, 0), mask=node < 0))
+
+
+def _as_column(text: pa.Array) -> pd.api.extensions.ExtensionArray | np.ndarray:
+    """Text as pandas infers it from Python strings: Arrow strings, or objects when all missing."""
+    if text.null_count == len(text):
+        return np.full(len(text), None, dtype=object)
+    return pd.array(text.cast(pa.large_string()), dtype=pd.StringDtype("pyarrow", na_value=np.nan))
 
 
 def _flow_parts(flows: DesignFlows) -> dict[str, np.ndarray]:
@@ -193,38 +223,29 @@ def flow_assumptions(config: Config, flows: DesignFlows) -> dict[str, object]:
     return options
 
 
-def _metrics(pipes: pd.DataFrame, computed: pd.DataFrame, state: FlowState, *, height: np.ndarray) -> pd.DataFrame:
-    """The frame the rules read (``audit.rules.METRIC_COLUMNS``); ``height`` [m].
+def _metrics(
+    pipes: pd.DataFrame, computed: pd.DataFrame, state: FlowState, flows: DesignFlows, *, height: np.ndarray, labels: np.ndarray
+) -> pd.DataFrame:
+    """The frame the rules read (``audit.rules.METRIC_COLUMNS``); ``height`` [m], ``labels`` pipe ids.
 
-    Text columns stay Python objects: the rules read them back as such.
+    Text columns stay Python objects, taken from a few labels where they are codes: the rules
+    read them back as such.
     """
-    rule_status = computed["hydraulic_status"].to_numpy(dtype=object).copy()
-    for code, label in _RULE_STATUS.items():
-        rule_status[state.status == code] = label
     shape = pipes["shape"].to_numpy(dtype=object)
     text = partial(_objects, index=computed.index)
     return pd.DataFrame(
         {
-            "pipe_id": text(pipe_labels(pipes)),
+            "pipe_id": text(labels),
             "shape": text(shape),
             "diameter": np.where(shape == "circular", height, np.nan),
             "height": height,
-            "length_m": computed["length_m"],
-            "slope": computed["slope"],
-            "q_full": computed["q_full"],
-            "q_design": computed["q_design"],
-            "load_ratio": computed["load_ratio"],
-            "depth_ratio": computed["depth_ratio"],
-            "v_design": computed["v_design"],
-            "shear": computed["shear"],
-            "up_cover": computed["up_cover_m"],
-            "down_cover": computed["down_cover_m"],
-            "upstream_invert": computed["up_invert_m"],
-            "downstream_invert": computed["down_invert_m"],
-            "hydraulic_status": text(rule_status),
-            "flow_status": text(computed["flow_source"]),
+            **{name: computed[name].to_numpy() for name in _METRIC_SAME},
+            **{name: computed[column].to_numpy() for name, column in _METRIC_RENAMED.items()},
+            "hydraulic_status": text(_RULE_LABELS[state.status]),
+            "flow_status": text(flows.source.astype(object)),
         },
         index=computed.index,
+        copy=False,
     )
 
 
