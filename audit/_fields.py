@@ -76,6 +76,27 @@ def as_text(raw: pd.Series) -> np.ndarray:
     return strings.to_numpy(dtype=object, na_value=None)
 
 
+def text_column(raw: pd.Series) -> pd.api.extensions.ExtensionArray | np.ndarray:
+    """:func:`as_text` as pandas would store it: Arrow strings (NaN where missing), objects when none is set.
+
+    A column of text stays in Arrow, without a Python string per value.
+
+    Examples
+    --------
+    >>> text_column(pd.Series([" a", "", None], dtype="str")).tolist()
+    ['a', nan, nan]
+    >>> text_column(pd.Series([None, None], dtype=object)).tolist()
+    [None, None]
+    """
+    if pd.api.types.is_float_dtype(raw.dtype) or not len(raw):
+        return as_text(raw)
+    strings = raw.astype("string").str.strip()
+    strings = strings.mask((strings == "").fillna(False))
+    if not strings.notna().any():
+        return np.full(len(raw), None, dtype=object)
+    return strings.astype(pd.StringDtype("pyarrow", na_value=np.nan)).array
+
+
 def quoted(raw: pd.Series) -> pd.Series:
     """Each value as typed, in single quotes (``''`` where null)."""
     return "'" + raw.astype("string").fillna("") + "'"

@@ -25,12 +25,32 @@ def id_text(values: pd.Series | None, count: int) -> pa.Array:
     if values is None:
         return pa.nulls(count, pa.large_string())
     if isinstance(values.dtype, pd.StringDtype):  # stripped in bulk, without a Python str per id
-        text = pa.array(values.array).cast(pa.large_string())
+        text = arrow_text(values)
     else:
         series = pd.Series(values.to_numpy(dtype=object))
         text = pa.array(series.where(series.isna(), series.astype(str)).to_numpy(dtype=object), type=pa.large_string(), from_pandas=True)
     text = pc.utf8_trim_whitespace(text)
     return pc.if_else(pc.equal(text, ""), pa.scalar(None, pa.large_string()), text)
+
+
+def arrow_text(values: pd.Series) -> pa.Array:
+    """A column of strings (None or NaN where missing) as one Arrow ``large_string`` array.
+
+    A pandas column read in pieces is held as several Arrow chunks; they are joined here.
+
+    Examples
+    --------
+    >>> pieces = pd.Series(pd.arrays.ArrowStringArray(pa.chunked_array([["a"], [None, "b"]])))
+    >>> arrow_text(pieces).to_pylist()
+    ['a', None, 'b']
+    """
+    if isinstance(values.dtype, pd.StringDtype):
+        text = pa.array(values.array)
+    else:
+        text = pa.array(values.to_numpy(dtype=object), type=pa.large_string(), from_pandas=True)
+    if isinstance(text, pa.ChunkedArray):
+        text = text.combine_chunks() if text.num_chunks else pa.array([], pa.large_string())
+    return text.cast(pa.large_string())
 
 
 @dataclass(frozen=True, eq=False)

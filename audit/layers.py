@@ -41,7 +41,7 @@ import shapely
 from ._errors import InputError
 from .config import MANHOLE_UNITS, PIPE_UNITS, SHAPES, Config, LayerSource
 from ._geometry import GEOMETRY_MESSAGES, clean_geometry, representative_points
-from ._fields import Quoted, Reporter, as_number, as_text, feature_ids, report_ids
+from ._fields import Quoted, Reporter, as_number, as_text, feature_ids, report_ids, text_column
 from .findings import FindingLog
 from .units import to_si
 
@@ -220,11 +220,11 @@ def _numbers(context: _Context, names: tuple[str, ...], units: Mapping[str, tupl
     return columns
 
 
-def _texts(context: _Context, names: tuple[str, ...]) -> dict[str, np.ndarray]:
-    columns = {}
+def _texts(context: _Context, names: tuple[str, ...]) -> dict[str, np.ndarray | pd.api.extensions.ExtensionArray]:
+    columns: dict[str, np.ndarray | pd.api.extensions.ExtensionArray] = {}
     for name in names:
         raw = _raw(context, name)
-        columns[name] = np.full(len(context.frame), None, dtype=object) if raw is None else as_text(raw)
+        columns[name] = np.full(len(context.frame), None, dtype=object) if raw is None else text_column(raw)
     return columns
 
 
@@ -268,7 +268,7 @@ def _access(context: _Context) -> np.ndarray:
     return ~np.r_[words.isin(ACCESS_NO).to_numpy(dtype=bool), False][which]
 
 
-def _pipe_columns(context: _Context) -> dict[str, np.ndarray]:
+def _pipe_columns(context: _Context) -> dict[str, np.ndarray | pd.api.extensions.ExtensionArray]:
     numbers = _numbers(context, PIPE_NUMBERS, PIPE_UNITS)
     shape = _shapes(context, numbers)
     circular = shape == "circular"
@@ -282,7 +282,7 @@ def _manhole_columns(context: _Context) -> dict[str, np.ndarray]:
     return {**_numbers(context, MANHOLE_NUMBERS, MANHOLE_UNITS), "access": _access(context)}
 
 
-def _catchment_columns(context: _Context) -> dict[str, np.ndarray]:
+def _catchment_columns(context: _Context) -> dict[str, np.ndarray | pd.api.extensions.ExtensionArray]:
     return {**_texts(context, ("drains_to",)), **_numbers(context, CATCHMENT_NUMBERS, {})}
 
 

@@ -30,6 +30,7 @@ from .sections import PipeSections
 from .slopes import derive_levels
 from ._assemble import finding_points, manhole_output, network_totals, with_columns
 from ._design_flows import built_flows
+from ._ids import arrow_text
 from .storm import PipeHydraulics
 
 STAGES = ("reading layers", "building the network", "slopes", "design flows", "hydraulics", "rules", "assembling")
@@ -159,7 +160,7 @@ def _computed_columns(ready: Prepared, flows: DesignFlows, state: FlowState, *, 
     arrays are taken without a copy into one block.
     """
     levels, network = ready.levels, ready.network
-    node_ids = _arrow_text(network.nodes["node_id"])
+    node_ids = arrow_text(network.nodes["node_id"])
     columns = {
         "height_m": height,
         "length_m": levels["length_m"],
@@ -183,13 +184,6 @@ def _computed_columns(ready: Prepared, flows: DesignFlows, state: FlowState, *, 
         **_flow_parts(flows),
     }
     return pd.DataFrame(columns, index=ready.layers.pipes.canonical.index, copy=False)
-
-
-def _arrow_text(values: pd.Series) -> pa.Array:
-    """A column of strings (None or NaN where missing) as Arrow text."""
-    if isinstance(values.dtype, pd.StringDtype):
-        return pa.array(values.array).cast(pa.large_string())
-    return pa.array(values.to_numpy(dtype=object), type=pa.large_string(), from_pandas=True)
 
 
 def _node_text(node_ids: pa.Array, node: np.ndarray) -> pa.Array:

@@ -9,6 +9,8 @@ from __future__ import annotations
 import geopandas as gpd
 import networkx as nx
 import numpy as np
+import pandas as pd
+import pyarrow as pa
 import pytest
 from shapely import LineString, Point
 
@@ -95,6 +97,23 @@ def test_y_tree_by_ids_joins_named_manholes() -> None:
     assert codes(log) == {"outfall": 1}
     (outfall,) = rows(log, "outfall")
     assert (outfall["layer"], outfall["feature"], outfall["x"], outfall["y"]) == ("manholes", "D", 5.0, 0.0)
+
+
+def _in_pieces(values: list[str | None]) -> pd.Series:
+    """Text held as several Arrow chunks, as a layer read in batches is."""
+    pieces = pa.chunked_array([values[:1], values[1:]], type=pa.large_string())
+    return pd.Series(pd.arrays.ArrowStringArray(pieces))
+
+
+def test_ids_read_in_pieces_join_as_whole_columns() -> None:
+    log = FindingLog()
+    pipes, manholes = pipe_layer(Y_PIPES), manhole_layer(MANHOLE_XY)
+    for name in ("from_node", "to_node"):
+        pipes[name] = _in_pieces(pipes[name].tolist())
+    manholes["manhole_id"] = _in_pieces([" A", "B ", "C", "D"])
+    network = build_network(pipes, manholes, findings=log)
+    assert joins(network) == [("A", "C"), ("B", "C"), ("C", "D")]
+    assert codes(log) == {"outfall": 1}
 
 
 def test_y_tree_by_snapping_matches_the_drawing() -> None:
