@@ -71,9 +71,7 @@ def finding_points(findings: FindingLog, *, source_crs: pyproj.CRS, target_crs: 
 def network_totals(layers: Layers, network: Network, computed: pd.DataFrame) -> dict[str, Any]:
     """Counts and lengths of the network, and the share of each pipe attribute that is missing."""
     canonical = layers.pipes.canonical
-    kinds = network.nodes["kind"].to_numpy(dtype=object)
-    status = computed["hydraulic_status"].to_numpy(dtype=object)
-    evaluated = np.isin(status, ("ok", "above_full_bore", "surcharged"))
+    evaluated = computed["hydraulic_status"].isin(("ok", "above_full_bore", "surcharged")).to_numpy(dtype=bool)
     missing_share = {
         name: round(float(np.mean(~np.isfinite(computed[column].to_numpy(dtype=float)))), 4)
         for name, column in (("size", "height_m"), ("upstream_invert", "up_invert_m"), ("downstream_invert", "down_invert_m"), ("length", "length_m"), ("slope", "slope"))
@@ -84,7 +82,7 @@ def network_totals(layers: Layers, network: Network, computed: pd.DataFrame) -> 
         "pipes": int(len(canonical)),
         "length_m": round(float(np.nansum(computed["length_m"].to_numpy(dtype=float))), 1),
         "manholes": int(len(layers.manholes.canonical)) if layers.manholes is not None else 0,
-        "junctions": int(np.sum(kinds == "junction")),
+        "junctions": int((network.nodes["kind"] == "junction").sum()),
         "outfalls": int(len(network.outfalls)),
         "components": int(np.unique(network.component[placed]).size),
         "pipes_on_loops": int(np.sum(network.in_cycle)),

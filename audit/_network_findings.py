@@ -59,8 +59,7 @@ def join_findings(joined: _Joined, *, pipe_ids: np.ndarray, unplaced: np.ndarray
     """``unknown_node`` per end whose id names no manhole, ``unplaced_pipe`` per unplaced pipe."""
     pipe, end = np.nonzero(joined.unknown)
     node = joined.end_node[pipe, end]
-    names = np.r_[joined.nodes["node_id"].to_numpy(dtype=object), None][np.where(node >= 0, node, -1)]
-    kinds = np.r_[joined.nodes["kind"].to_numpy(dtype=object), None][np.where(node >= 0, node, -1)]
+    names, kinds = _node_values(joined.nodes, "node_id", node), _node_values(joined.nodes, "kind", node)
     fate = np.where(kinds == "manhole", "joined by snapping to manhole '", "left as junction '")
     fate = pd.Series(fate, dtype=object) + _text(names) + "'"
     fate[node < 0] = "left unplaced"
@@ -155,14 +154,27 @@ def _first_pipe_at_node(network: Network) -> np.ndarray:
     return np.where(first[:count] < len(pipes), first[:count], -1)
 
 
+def _is_kind(network: Network, kind: str) -> np.ndarray:
+    """True for each node of that kind, compared in the column's own storage."""
+    return (network.nodes["kind"] == kind).to_numpy(dtype=bool, na_value=False)
+
+
+def _node_values(nodes: pd.DataFrame, name: str, node: np.ndarray) -> np.ndarray:
+    """A node column at the given nodes only, as Python objects; None where ``node`` is -1."""
+    values = np.full(len(node), None, dtype=object)
+    known = node >= 0
+    values[known] = nodes[name].iloc[node[known]].to_numpy(dtype=object)
+    return values
+
+
 def _add_node_findings(
     findings: FindingLog, network: Network, code: str, node: np.ndarray, messages: pd.Series, *, feature_pipe: np.ndarray,
     pipe_ids: np.ndarray,
 ) -> None:
     """Findings at nodes: manholes under their own id, junctions under a pipe that touches them."""
-    is_manhole = (network.nodes["kind"].to_numpy(dtype=object) == "manhole")[node]
+    is_manhole = _is_kind(network, "manhole")[node]
     xy = network.nodes[["x", "y"]].to_numpy(dtype=float)[node]
-    names = network.nodes["node_id"].to_numpy(dtype=object)[node]
+    names = _node_values(network.nodes, "node_id", node)
     for layer, pick, features in (
         ("manholes", is_manhole, names),
         ("pipes", ~is_manhole, pipe_ids[np.maximum(feature_pipe, 0)] if len(pipe_ids) else names),
@@ -174,8 +186,8 @@ def _outfalls(network: Network, *, first_pipe: np.ndarray, pipe_ids: np.ndarray,
     node = network.outfalls
     placed = network.downstream >= 0
     arriving = np.bincount(network.downstream[placed], minlength=len(network.nodes))[node]
-    kind = network.nodes["kind"].to_numpy(dtype=object)[node]
-    names = network.nodes["node_id"].to_numpy(dtype=object)[node]
+    kind = _node_values(network.nodes, "kind", node)
+    names = _node_values(network.nodes, "node_id", node)
     messages = (
         "outfall at " + _text(kind) + " '" + _text(names) + "': " + _text(arriving) + " pipe(s) flow in and none flows out"
     )
@@ -186,8 +198,7 @@ def _loose_ends(network: Network, *, first_pipe: np.ndarray, pipe_ids: np.ndarra
     count = len(network.nodes)
     ends = np.concatenate([network.upstream, network.downstream])
     degree = np.bincount(ends[ends >= 0], minlength=count)
-    kind = network.nodes["kind"].to_numpy(dtype=object)
-    alone = np.flatnonzero((kind == "junction") & (degree == 1))
+    alone = np.flatnonzero(_is_kind(network, "junction") & (degree == 1))
     side = (network.downstream[first_pipe[alone]] == alone).astype(int)
     pipe = first_pipe[alone]
     messages = (
@@ -196,8 +207,8 @@ def _loose_ends(network: Network, *, first_pipe: np.ndarray, pipe_ids: np.ndarra
     )
     xy = network.nodes[["x", "y"]].to_numpy(dtype=float)[alone]
     findings.add_many("pipes", pipe_ids[pipe], "dangling_end", messages.to_numpy(dtype=object), x=xy[:, 0], y=xy[:, 1])
-    orphan = np.flatnonzero((kind == "manhole") & (degree == 0))
-    names = network.nodes["node_id"].to_numpy(dtype=object)[orphan]
+    orphan = np.flatnonzero(_is_kind(network, "manhole") & (degree == 0))
+    names = _node_values(network.nodes, "node_id", orphan)
     messages = "manhole '" + _text(names) + "' has no pipe"
     xy = network.nodes[["x", "y"]].to_numpy(dtype=float)[orphan]
     findings.add_many("manholes", names, "orphan_manhole", messages.to_numpy(dtype=object), x=xy[:, 0], y=xy[:, 1])
