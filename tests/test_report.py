@@ -342,3 +342,10 @@ def test_flows_section_shows_each_part_arriving_at_the_outfalls(town: AuditResul
     for heading in ("Sanitary [l/s]", "Storm [l/s]", "Population served"):
         assert heading in flows
     assert "per_capita_l_day" in page
+
+
+def test_nested_flow_settings_are_shown_as_dotted_rows(town: AuditResult) -> None:
+    page = render_report(town)
+    assumptions = page[page.index('id="flow-assumptions"') :]
+    assert ">rainfall.a<" in assumptions and ">rainfall.inlet_time_min<" in assumptions
+    assert "{&#x27;a&#x27;" not in assumptions

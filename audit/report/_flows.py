@@ -54,10 +54,21 @@ def flows_section(pipes: pd.DataFrame, assumptions: Mapping[str, Any] | None) ->
         rows.append([cell(row["to_node_id"]), *values])
     headers = ("Outfall", *(heading for _, heading, _, _ in parts))
     outfalls = table(headers, rows, numeric=(False, *([True] * len(parts))), id="outfall-table")
-    settings = [(cell(key), cell(value)) for key, value in (assumptions or {}).items()]
+    settings = [(cell(key), cell(value)) for key, value in _flat(assumptions or {})]
     more = f" The {MAX_OUTFALLS} largest of {positions.size} outfall pipes are shown." if positions.size > MAX_OUTFALLS else ""
     note = paragraph(f"Flow arriving at each outfall, by part; the assumptions below built them (docs/methods.md).{more}", class_="note")
     return outfalls + note + table(("Assumption", "Value"), settings, id="flow-assumptions")
+
+
+def _flat(settings: Mapping[str, Any], prefix: str = "") -> list[tuple[str, Any]]:
+    """Nested settings as ``group.key`` rows, e.g. ``rainfall.a``; tables stay one row."""
+    rows: list[tuple[str, Any]] = []
+    for key, value in settings.items():
+        if isinstance(value, Mapping):
+            rows.extend(_flat(value, f"{prefix}{key}."))
+        else:
+            rows.append((f"{prefix}{key}", value))
+    return rows
 
 
 def _number(value: object) -> float:
