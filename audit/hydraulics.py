@@ -96,11 +96,20 @@ def full_bore(sections: PipeSections, slope: Array, friction: Friction) -> tuple
 
     NaN where an input is missing or the slope is not positive (see :func:`input_status`).
     """
+    _, _, q_full, v_full = _full_bore(sections, slope, friction, bad=_unusable(sections, slope, friction))
+    return q_full, v_full
+
+
+def _unusable(sections: PipeSections, slope: Array, friction: Friction) -> NDArray[np.bool_]:
+    """Pipes whose section, slope or roughness rules out uniform flow (the flow aside)."""
+    return input_status(sections, slope, friction) != FlowStatus.OK
+
+
+def _full_bore(sections: PipeSections, slope: Array, friction: Friction, *, bad: NDArray[np.bool_]) -> tuple[Array, Array, Array, Array]:
+    """Full-bore area, perimeter, capacity and velocity; capacity and velocity NaN where ``bad``."""
     area, perimeter = sections.full()
-    velocity = friction.velocity(area / perimeter, slope)
-    bad = input_status(sections, slope, friction) != FlowStatus.OK
-    velocity = np.where(bad, np.nan, velocity)
-    return area * velocity, velocity
+    velocity = np.where(bad, np.nan, friction.velocity(area / perimeter, slope))
+    return area, perimeter, area * velocity, velocity
 
 
 def capacity_peak(
@@ -114,17 +123,33 @@ def capacity_peak(
     ``refine`` is True (elsewhere the Manning peak depth is kept; its discharge is within 0.1 %
     of the true peak, which is flat).
     """
+    return _capacity_peak(sections, slope, friction, bad=_unusable(sections, slope, friction), refine=refine)
+
+
+def _capacity_peak(
+    sections: PipeSections,
+    slope: Array,
+    friction: Friction,
+    *,
+    bad: NDArray[np.bool_],
+    refine: NDArray[np.bool_] | None = None,
+    flow: Array | None = None,
+) -> tuple[Array, Array]:
+    """:func:`capacity_peak` for pipes already checked (``bad``); with ``flow``, the peak is
+    refined only where the flow exceeds 99 % of the discharge at the Manning peak depth."""
     eta = sections.eta_capacity()
+    q_max = discharge_at(sections, eta, slope, friction)
     if friction.formula != "manning":
         chosen = np.isfinite(eta) & (eta < 1.0)  # a peak at the soffit (flat lid) needs no search
         if refine is not None:
             chosen &= refine
+        if flow is not None:
+            chosen &= ~bad & (flow > 0.99 * q_max)
         index = np.flatnonzero(chosen)
         if index.size:
             low, high = np.clip(eta[index] - 0.05, 0.0, 1.0), np.clip(eta[index] + 0.05, 0.0, 1.0)
             eta[index], _ = golden_maximum(lambda x, i: discharge_at(sections, x, slope, friction, index[i]), low, high)
-    q_max = discharge_at(sections, eta, slope, friction)
-    bad = input_status(sections, slope, friction) != FlowStatus.OK
+            q_max[index] = discharge_at(sections, eta[index], slope, friction, index)
     return np.where(bad, np.nan, eta), np.where(bad, np.nan, q_max)
 
 
@@ -165,10 +190,11 @@ def normal_depth(
     q = np.asarray(flow, dtype=float)
     s = np.asarray(slope, dtype=float)
     status = input_status(sections, s, friction, q)
-    q_full, v_full = full_bore(sections, s, friction)
+    # the flow is checked last, so a flow problem alone leaves capacity computable
+    bad = (status != FlowStatus.OK) & (status < FlowStatus.MISSING_FLOW)
+    full_area, full_perimeter, q_full, v_full = _full_bore(sections, s, friction, bad=bad)
     usable = status == FlowStatus.OK
-    near_peak = usable & (q > 0.99 * discharge_at(sections, sections.eta_capacity(), s, friction))
-    eta_peak, q_max = capacity_peak(sections, s, friction, refine=near_peak)
+    eta_peak, q_max = _capacity_peak(sections, s, friction, bad=bad, flow=np.where(usable, q, np.nan))
     surcharged = usable & (q > q_max)
     solve = np.flatnonzero(usable & ~surcharged)
     eta = np.full(q.shape, np.nan)
@@ -178,7 +204,6 @@ def normal_depth(
     status[usable & (q > q_full) & ~surcharged] = FlowStatus.ABOVE_FULL_BORE
     status[surcharged] = FlowStatus.SURCHARGED
     area, perimeter, _ = sections.elements(eta)
-    full_area, full_perimeter = sections.full()
     area = np.where(surcharged, full_area, area)
     perimeter = np.where(surcharged, full_perimeter, perimeter)
     velocity = q / area
