@@ -76,9 +76,10 @@ def built_flows(network: Network, *, manholes: pd.DataFrame | None, catchments: 
     if options.kind == "given":
         return design_flows(**arrays, node_inflow=inflow, given_flow=given_flow, length=pipes.length, pipe_labels=pipe_labels,
                             node_labels=nodes["node_id"].to_numpy(dtype=object), findings=findings)  # fmt: skip
-    shape = design_flows(**arrays, node_inflow=np.zeros(inflow.size), given_flow=np.full(given_flow.size, np.nan), length=pipes.length,
-                         pipe_labels=pipe_labels, node_labels=nodes["node_id"].to_numpy(dtype=object), findings=findings)  # fmt: skip
     carrier = Carrier.build(**arrays, node_count=len(nodes))
+    shape = design_flows(**arrays, node_inflow=np.zeros(inflow.size), given_flow=np.full(given_flow.size, np.nan), length=pipes.length,
+                         pipe_labels=pipe_labels, node_labels=nodes["node_id"].to_numpy(dtype=object), findings=findings,
+                         carrier=carrier)  # fmt: skip
     loads = node_loads(nodes, manholes, catchments, options=options, findings=findings)
     sanitary = sanitary_flows(carrier, loads, length=pipes.length, options=options)
     given = np.isfinite(given_flow) & (given_flow >= 0) & ~network.in_cycle

@@ -175,30 +175,28 @@ def design_flows(
     pipe_labels: NDArray[np.object_],
     node_labels: NDArray[np.object_],
     findings: FindingLog,
+    carrier: Carrier | None = None,
 ) -> DesignFlows:
     """Design flow per pipe from given flows and manhole inflows [m^3/s].
 
-    ``node_inflow`` NaN counts as no load. Returns the flows, their source, the flow leaving each
-    node, and each pipe's upstream length served [m].
+    ``node_inflow`` NaN counts as no load. ``carrier``, when the caller has built it for the
+    same network, saves building it again. Returns the flows, their source, the flow leaving
+    each node, and each pipe's upstream length served [m].
     """
     node_count = node_inflow.size
+    if carrier is None:
+        carrier = Carrier.build(upstream=upstream, downstream=downstream, order=order, in_cycle=in_cycle, node_count=node_count)
     placed = (upstream >= 0) & (downstream >= 0)
-    rank = node_rank(upstream, downstream, order, node_count=node_count)
+    carries = carrier.weight > 0  # placed and on no loop
     out_degree = np.bincount(upstream[placed], minlength=node_count)
     given = np.isfinite(given_flow) & (given_flow >= 0) & ~in_cycle
-    share = np.where(placed, 1.0 / np.maximum(out_degree[np.maximum(upstream, 0)], 1), 0.0)
-    carries = placed & ~in_cycle
-    weight = np.where(carries & ~given, share, 0.0)
+    weight = np.where(given, 0.0, carrier.weight)
     offset = np.where(carries & given, given_flow, 0.0)
     load = np.nan_to_num(node_inflow, nan=0.0)
-    node_total, q_design = accumulate(upstream, downstream, rank, node_load=load, pipe_weight=weight, pipe_offset=offset)
-
-    cycle_nodes = np.zeros(node_count)
-    cycle_nodes[downstream[in_cycle & placed]] = 1.0
-    below_loop, _ = accumulate(upstream, downstream, rank, node_load=cycle_nodes, pipe_weight=carries.astype(float), pipe_offset=np.zeros(upstream.size))
-    tainted = placed & ~in_cycle & ~given & (below_loop[np.maximum(upstream, 0)] > 0)
+    node_total, q_design = accumulate(upstream, downstream, carrier.rank, node_load=load, pipe_weight=weight, pipe_offset=offset)
+    tainted = carries & ~given & ~carrier.usable  # a loop lies upstream
     _, upstream_length = accumulate(
-        upstream, downstream, rank, node_load=np.zeros(node_count), pipe_weight=carries.astype(float), pipe_offset=np.where(carries, np.nan_to_num(length), 0.0)
+        upstream, downstream, carrier.rank, node_load=np.zeros(node_count), pipe_weight=carries.astype(float), pipe_offset=np.where(carries, np.nan_to_num(length), 0.0)
     )
 
     source = np.where(given, "given", "accumulated").astype("<U11")
