@@ -20,7 +20,7 @@ from tqdm import tqdm
 from .config import Config, load_config
 from .findings import FindingLog
 from .flows import DesignFlows
-from .friction import Friction
+from .friction import Friction, water_kinematic_viscosity
 from .hydraulics import FlowState, FlowStatus, normal_depth
 from .layers import Layers, read_layers
 from .network import Network, build_network, pipe_labels
@@ -146,8 +146,8 @@ def _pipe_hydraulics(ready: Prepared, *, height: np.ndarray, width: np.ndarray) 
     sections = PipeSections.from_names(pipes["shape"].to_numpy(dtype=object), height, width)
     default = options.manning_n if options.formula == "manning" else options.ks_mm
     roughness = pipes["roughness"].to_numpy(dtype=float)
-    friction = Friction.uniform(options.formula, default, len(pipes), temperature_c=options.water_temp_c)  # type: ignore[arg-type]
-    friction = Friction(friction.formula, np.where(np.isfinite(roughness), roughness, default), friction.kinematic_viscosity)
+    viscosity = float(water_kinematic_viscosity(options.water_temp_c))
+    friction = Friction(options.formula, np.where(np.isfinite(roughness), roughness, default), viscosity)  # type: ignore[arg-type]
     slope = ready.levels["slope"].to_numpy(dtype=float)
     length = ready.levels["length_m"].to_numpy(dtype=float)
     return PipeHydraulics(sections, slope, friction, length, temperature_c=options.water_temp_c)
@@ -208,10 +208,10 @@ def _flow_parts(flows: DesignFlows) -> dict[str, np.ndarray]:
 
 def flow_assumptions(config: Config, flows: DesignFlows) -> dict[str, object]:
     """What the design flows assumed, for summary.json: the ``[flows]`` values used and the passes taken."""
-    options = asdict(config.flows)
-    options["tc_iterations"] = 0 if flows.parts is None else flows.parts.iterations
     if config.flows.kind == "given":
         return {"kind": "given", "note": "given pipe flows and manhole inflows only"}
+    options = asdict(config.flows)
+    options["tc_iterations"] = 0 if flows.parts is None else flows.parts.iterations
     if not config.flows.needs_rainfall:
         options.pop("rainfall")
     return options
@@ -252,10 +252,12 @@ def _result(ready: Prepared, flows: DesignFlows, computed: pd.DataFrame) -> Audi
     """Put the computed columns beside the original features and gather the totals."""
     layers, config = ready.layers, ready.config
     crs = layers.pipes.original.crs or config.pipes.crs
-    pipes = with_columns(layers.pipes.original, computed[list(PIPE_COLUMNS)], ready.findings, layer="pipes")
+    computed = computed[list(PIPE_COLUMNS)]
+    pipes = with_columns(layers.pipes.original, computed, ready.findings, layer="pipes")
     manholes = manhole_output(layers, ready.network, flows.node_total, ready.findings) if layers.manholes is not None else None
     findings = finding_points(ready.findings, source_crs=layers.crs, target_crs=crs)
-    inputs = tuple(dict.fromkeys(source.path for source in (config.pipes, config.manholes) if source is not None))
+    sources = (config.pipes, config.manholes, config.catchments)
+    inputs = tuple(dict.fromkeys(source.path for source in sources if source is not None))
     settings = {"hydraulics": asdict(config.hydraulics), "network": asdict(config.network), "working_crs": layers.crs.to_string(),
                 "flows": flow_assumptions(config, flows)}
     return AuditResult(
@@ -269,5 +271,5 @@ def _result(ready: Prepared, flows: DesignFlows, computed: pd.DataFrame) -> Audi
         inputs=inputs,
         config_path=config.source,
         canonical_pipes=pd.DataFrame(layers.pipes.canonical.drop(columns="geometry")),
-        computed=computed[list(PIPE_COLUMNS)],
+        computed=computed,
     )

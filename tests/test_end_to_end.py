@@ -98,3 +98,14 @@ def test_a_user_field_named_like_a_result_is_kept_and_the_result_renamed(tmp_pat
     assert p2["flags"] == "reverse_grade" and p2["slope"] < 0
     renamed = result.findings[result.findings["code"] == "field_renamed"]
     assert len(renamed) == 2 and renamed["message"].str.contains("audit_slope").any()
+
+
+def test_every_configured_layer_file_counts_as_an_input(tmp_path: Path) -> None:
+    config = write_town(tmp_path, "GPKG", ".gpkg")
+    cells = gpd.GeoDataFrame({"CELL": ["c1"], "OUT": ["A"], "PEOPLE": [100]}, geometry=[shapely.box(-20, -20, 20, 20)], crs="EPSG:32630")
+    cells.to_file(tmp_path / "cells.geojson", driver="GeoJSON")
+    text = config.read_text(encoding="utf-8")
+    text += '[catchments]\npath = "cells.geojson"\n[catchments.fields]\nid = "CELL"\ndrains_to = "OUT"\npopulation = "PEOPLE"\n'
+    config.write_text(text, encoding="utf-8")
+    result = run(config)
+    assert {path.name for path in result.inputs} == {"pipes.gpkg", "manholes.gpkg", "cells.geojson"}
