@@ -1,7 +1,7 @@
 """sewer-audit: screen a gravity sewer asset register for capacity, grade and data problems.
 
-The package is a chain of plain stages (see DEVELOPERS.md):
-config -> layers -> network -> design flows -> hydraulics -> rules -> outputs.
+The package is a chain of plain stages, one subpackage each (see DEVELOPERS.md):
+config -> layers -> network -> flows -> hydraulics -> rules -> outputs and report.
 
 In Python: ``result = audit.run("sample_gis/town.toml")`` gives GeoDataFrames such as
 ``result.pipes[["flags", "load_ratio"]]``; ``audit.prepare(config)`` stops after the network.
@@ -9,13 +9,19 @@ In Python: ``result = audit.run("sample_gis/town.toml")`` gives GeoDataFrames su
 Results are a screening aid; local codes and a licensed engineer's judgement govern.
 """
 
-from importlib.metadata import PackageNotFoundError, version
+from audit.errors import AuditError, ConfigError, InputError, OutputExistsError
+from audit.pipeline import Prepared, prepare, run
+from audit.result import AuditResult
+from audit.version import __version__
 
-try:
-    __version__ = version("sewer-audit")
-except PackageNotFoundError:  # running from a source tree that was never installed
-    __version__ = "0.0.0+unknown"
-
-from .pipeline import prepare, run  # noqa: E402  (the version is needed by later imports)
-
-__all__ = ["__version__", "prepare", "run"]
+__all__ = [
+    "AuditError",
+    "AuditResult",
+    "ConfigError",
+    "InputError",
+    "OutputExistsError",
+    "Prepared",
+    "__version__",
+    "prepare",
+    "run",
+]

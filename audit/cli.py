@@ -15,10 +15,10 @@ import sys
 from collections.abc import Sequence
 from pathlib import Path
 
-from . import __version__
-from ._errors import AuditError, InputError, OutputExistsError
-from .result import CAUTION
-from .rules import SEVERITY_ORDER, worst_severity_at_least
+from audit.errors import AuditError, InputError, OutputExistsError
+from audit.result import CAUTION
+from audit.rules import SEVERITY_ORDER, worst_severity_at_least
+from audit.version import __version__
 
 EXIT_OK = 0
 EXIT_BAD_INPUT = 1
@@ -99,7 +99,7 @@ def main(argv: Sequence[str] | None = None) -> int:
     args = parser.parse_args(argv)
     try:
         if args.command == "inspect":
-            from .inspection import inspect_command
+            from audit.layers.inspection import inspect_command
 
             return inspect_command(args)
         return _audit_command(args)
@@ -115,9 +115,9 @@ def main(argv: Sequence[str] | None = None) -> int:
 
 def _audit_command(args: argparse.Namespace) -> int:
     """``run`` and ``demo``: audit, write the outputs, print the table, pick the exit code."""
-    from .outputs import print_summary_table, write_outputs
-    from .pipeline import run
-    from .report import write_report
+    from audit.outputs import print_summary_table, write_outputs
+    from audit.pipeline import run
+    from audit.report import write_report
 
     config = Path(args.config) if args.command == "run" else DEMO_CONFIG
     if args.command == "demo" and not config.exists():

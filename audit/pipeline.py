@@ -17,21 +17,29 @@ import pandas as pd
 import pyarrow as pa
 from tqdm import tqdm
 
-from .config import Config, load_config
-from .findings import FindingLog
-from .flows import DesignFlows
-from .friction import Friction, water_kinematic_viscosity
-from .hydraulics import FlowState, FlowStatus, normal_depth
-from .layers import Layers, read_layers
-from .network import Network, build_network, pipe_labels
-from .result import PIPE_COLUMNS, AuditResult
-from .rules import check_pipes
-from .sections import PipeSections
-from .slopes import derive_levels
-from ._assemble import finding_points, manhole_output, network_totals, with_columns
-from ._design_flows import built_flows
-from ._ids import arrow_text
-from .storm import PipeHydraulics
+from audit.config import Config, load_config
+from audit.findings import FindingLog
+from audit.flows import DesignFlows, built_flows, flow_assumptions
+from audit.hydraulics import (
+    FlowState,
+    FlowStatus,
+    Friction,
+    PipeHydraulics,
+    PipeSections,
+    normal_depth,
+    water_kinematic_viscosity,
+)
+from audit.layers import Layers, read_layers
+from audit.network import Network, arrow_text, build_network, derive_levels, pipe_labels
+from audit.result import (
+    PIPE_COLUMNS,
+    AuditResult,
+    finding_points,
+    manhole_output,
+    network_totals,
+    with_columns,
+)
+from audit.rules import check_pipes
 
 STAGES = ("reading layers", "building the network", "slopes", "design flows", "hydraulics", "rules", "assembling")
 
@@ -62,7 +70,7 @@ def prepare(config: Config | str | Path, *, progress: tqdm | None = None) -> Pre
     config = config if isinstance(config, Config) else load_config(config)
     findings = FindingLog()
     _step(progress, 0)
-    layers = read_layers(config, findings)
+    layers = read_layers(config.pipes, manholes=config.manholes, catchments=config.catchments, options=config.input, findings=findings)
     pipes = layers.pipes.canonical
     manholes = layers.manholes.canonical if layers.manholes is not None else None
     _step(progress, 1)
@@ -206,17 +214,6 @@ def _flow_parts(flows: DesignFlows) -> dict[str, np.ndarray]:
     return {name: getattr(flows.parts, name) for name in names}
 
 
-def flow_assumptions(config: Config, flows: DesignFlows) -> dict[str, object]:
-    """What the design flows assumed, for summary.json: the ``[flows]`` values used and the passes taken."""
-    if config.flows.kind == "given":
-        return {"kind": "given", "note": "given pipe flows and manhole inflows only"}
-    options = asdict(config.flows)
-    options["tc_iterations"] = 0 if flows.parts is None else flows.parts.iterations
-    if not config.flows.needs_rainfall:
-        options.pop("rainfall")
-    return options
-
-
 def _metrics(
     pipes: pd.DataFrame, computed: pd.DataFrame, state: FlowState, flows: DesignFlows, *, height: np.ndarray, labels: np.ndarray
 ) -> pd.DataFrame:
@@ -259,7 +256,7 @@ def _result(ready: Prepared, flows: DesignFlows, computed: pd.DataFrame) -> Audi
     sources = (config.pipes, config.manholes, config.catchments)
     inputs = tuple(dict.fromkeys(source.path for source in sources if source is not None))
     settings = {"hydraulics": asdict(config.hydraulics), "network": asdict(config.network), "working_crs": layers.crs.to_string(),
-                "flows": flow_assumptions(config, flows)}
+                "flows": flow_assumptions(config.flows, flows)}
     return AuditResult(
         pipes=gpd.GeoDataFrame(pipes, geometry=layers.pipes.original.geometry.name, crs=crs),
         manholes=manholes,

@@ -29,7 +29,7 @@ from types import MappingProxyType
 import numpy as np
 import numpy.typing as npt
 
-from ._errors import ConfigError
+from audit.errors import ConfigError
 
 FOOT_M = 0.3048  # exact, NIST SP 811 appendix B
 INCH_M = 0.0254  # exact, NIST SP 811 appendix B

@@ -14,9 +14,9 @@ import time
 
 import numpy as np
 
-from audit.friction import Friction
-from audit.hydraulics import FlowStatus, full_bore, normal_depth
-from audit.sections import PipeSections
+from audit.hydraulics.friction import Friction
+from audit.hydraulics.uniform import FlowStatus, full_bore, normal_depth
+from audit.hydraulics.sections import PipeSections
 
 COMMERCIAL_SIZES_M = np.array([0.15, 0.225, 0.3, 0.375, 0.45, 0.6, 0.75, 0.9, 1.2, 1.5])
 

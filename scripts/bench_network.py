@@ -19,8 +19,8 @@ import pandas as pd
 import shapely
 
 from audit.findings import FindingLog
-from audit.network import build_network
-from audit.slopes import derive_levels
+from audit.network.build import build_network
+from audit.network.levels import derive_levels
 
 
 def random_tree(pipes: int, *, window: int, seed: int) -> tuple[gpd.GeoDataFrame, gpd.GeoDataFrame]:

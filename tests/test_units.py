@@ -3,7 +3,7 @@
 import numpy as np
 import pytest
 
-from audit._errors import ConfigError
+from audit.errors import ConfigError
 from audit.units import FLOW_FACTORS, LENGTH_FACTORS, factor, to_si
 
 # Source: NIST Special Publication 811 (2008), appendix B: 1 ft = 0.3048 m and 1 in = 0.0254 m

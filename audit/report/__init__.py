@@ -13,12 +13,17 @@ import tempfile
 from datetime import UTC, datetime
 from pathlib import Path
 
-from audit._errors import InputError, OutputExistsError
+from audit.errors import InputError, OutputExistsError
+from audit.report.curves import part_full_curve, report_curves
+from audit.report.page import CAUTION_WORDS, render_page
+from audit.report.tables import (
+    MAP_CLASSES,
+    check_columns,
+    flag_totals,
+    map_classes,
+    renewal_candidates,
+)
 from audit.result import AuditResult
-
-from ._curves import part_full_curve, report_curves
-from ._page import CAUTION_WORDS, render_page
-from ._tables import MAP_CLASSES, check_columns, flag_totals, map_classes, renewal_candidates
 
 __all__ = [
     "CAUTION_WORDS",

@@ -1,0 +1,42 @@
+"""Stage 1, the layers: the configured files in, canonical SI frames out.
+
+In: the ``[input]``, ``[pipes]``, ``[manholes]`` and ``[catchments]`` settings
+(:mod:`audit.layers.settings`). Out: :class:`Layers`, each layer twice, as read (``original``,
+every field, input order, source CRS) and canonical (the columns of the data contract in
+DEVELOPERS.md, SI, geometry in a projected CRS in metres), plus findings for every bad value.
+
+Modules: ``settings`` (the config tables), ``reading`` (files to frames), ``fields`` (values,
+units, ids), ``geometry`` (clean-up to one 2D part), ``inspection`` (``sewer-audit inspect``).
+"""
+
+from audit.layers.reading import (
+    LayerData,
+    Layers,
+    quiet_measures,
+    read_layers,
+    working_crs,
+)
+from audit.layers.settings import (
+    MANHOLE_UNITS,
+    PIPE_UNITS,
+    SHAPES,
+    InputOptions,
+    LayerSource,
+    parse_input,
+    parse_layer_source,
+)
+
+__all__ = [
+    "MANHOLE_UNITS",
+    "PIPE_UNITS",
+    "SHAPES",
+    "InputOptions",
+    "LayerData",
+    "LayerSource",
+    "Layers",
+    "parse_input",
+    "parse_layer_source",
+    "quiet_measures",
+    "read_layers",
+    "working_crs",
+]

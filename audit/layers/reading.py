@@ -1,0 +1,379 @@
+"""Read the pipe, manhole and catchment layers into canonical, SI, projected GeoDataFrames.
+
+Each layer comes back twice: ``original``, the GeoDataFrame exactly as read (every field, input
+order, source CRS), and ``canonical``, the columns of the data contract in DEVELOPERS.md with the
+same index, values in SI and geometry in a projected CRS in metres. Every input feature is kept.
+
+A geographic CRS (or a projected one not in metres) is replaced by the UTM zone of the pipes'
+extent; manholes and catchments are brought to the pipes' working CRS.
+
+Findings emitted (layer ``pipes``, ``manholes`` or ``catchments``; each message names the field and raw value):
+
+* ``no_geometry``: null or empty geometry; the row stays with no geometry;
+* ``wrong_geometry_type``: not a line (pipes), point (manholes) or polygon (catchments); dropped;
+* ``multipart_line``: parts that do not join into one line; the longest part is kept;
+* ``multipart_point``: a multi-point manhole; its first point is kept;
+* ``not_a_number``: a value where a number is needed is not one; it becomes NaN;
+* ``sentinel_value``: a value listed in ``[input] sentinels``; it becomes NaN;
+* ``nonpositive_size``: zero or negative diameter, height, width, length, depth or area; NaN;
+* ``missing_id``: an empty id; the feature is called ``#<row>``;
+* ``duplicate_id``: an id used by more than one feature;
+* ``unknown_shape``: a shape code neither mapped in ``[pipes.shapes]`` nor canonical;
+* ``unknown_access``: an access value read neither as yes nor as no; taken as accessible.
+"""
+
+from __future__ import annotations
+
+import warnings
+from collections.abc import Iterator, Mapping
+from contextlib import contextmanager
+from dataclasses import dataclass
+from pathlib import Path
+
+import fiona.errors
+import geopandas as gpd
+import numpy as np
+import pandas as pd
+import pyogrio
+import pyproj
+import shapely
+
+from audit.errors import InputError
+from audit.findings import FindingLog
+from audit.layers.fields import (
+    Quoted,
+    Reporter,
+    as_number,
+    as_text,
+    feature_ids,
+    report_ids,
+    text_column,
+)
+from audit.layers.geometry import (
+    GEOMETRY_MESSAGES,
+    clean_geometry,
+    representative_points,
+)
+from audit.layers.settings import (
+    MANHOLE_UNITS,
+    PIPE_UNITS,
+    SHAPES,
+    InputOptions,
+    LayerSource,
+)
+from audit.units import to_si
+
+PIPE_NUMBERS = ("diameter", "height", "width", "upstream_invert", "downstream_invert", "length",
+                "roughness", "install_year", "flow")  # fmt: skip
+MANHOLE_NUMBERS = ("rim", "invert", "depth", "inflow", "population", "point_load")
+CATCHMENT_NUMBERS = ("population", "dwellings", "occupancy", "area_ha", "runoff_coefficient", "impervious_fraction")
+GEOMETRY_KINDS = {"pipes": "line", "manholes": "point", "catchments": "polygon"}
+ACCESS_YES = ("1", "true", "t", "yes", "y")  # common practice, no source
+ACCESS_NO = ("0", "false", "f", "no", "n")  # common practice, no source
+_READ_ERRORS = (OSError, RuntimeError, ValueError, fiona.errors.FionaError)
+
+
+@contextmanager
+def quiet_measures() -> Iterator[None]:
+    """Silence the reader's notice that M values are not supported: they are dropped anyway."""
+    with warnings.catch_warnings():
+        warnings.filterwarnings("ignore", message=r"Measured \(M\) geometry types", category=UserWarning)
+        yield
+
+
+@dataclass(frozen=True)
+class LayerData:
+    """One layer as read (``original``) and in canonical form (``canonical``)."""
+
+    source: Path
+    layer: str
+    original: gpd.GeoDataFrame
+    canonical: gpd.GeoDataFrame
+    missing_fields: tuple[str, ...]
+
+
+@dataclass(frozen=True)
+class Layers:
+    """The pipes, the manholes and catchments (None when not configured) and the working CRS [m]."""
+
+    pipes: LayerData
+    manholes: LayerData | None
+    crs: pyproj.CRS
+    catchments: LayerData | None = None
+
+    @property
+    def missing_fields(self) -> Mapping[str, tuple[str, ...]]:
+        """Canonical columns per layer that no field fills (their values stay NaN/None)."""
+        found = {"pipes": self.pipes.missing_fields}
+        if self.manholes is not None:
+            found["manholes"] = self.manholes.missing_fields
+        if self.catchments is not None:
+            found["catchments"] = self.catchments.missing_fields
+        return found
+
+
+def _where(source: LayerSource, layer: str | None = None) -> str:
+    return f"{source.path}" + (f", layer '{layer}'" if layer else "")
+
+
+def _layer_name(source: LayerSource, key: str) -> str:
+    """The layer to read: the configured one, or the only one in the file."""
+    if not source.path.exists():
+        raise InputError(f"{source.path}: file not found (from {key}.path)")
+    try:
+        with quiet_measures():
+            names = [str(name) for name in pyogrio.list_layers(source.path)[:, 0]]
+    except _READ_ERRORS as error:
+        raise InputError(f"{source.path}: not a readable vector file ({error})") from None
+    if source.layer is None and len(names) == 1:
+        return names[0]
+    if source.layer in names:
+        return str(source.layer)
+    listed = ", ".join(repr(name) for name in names)
+    if source.layer is None:
+        raise InputError(f"{source.path}: holds several layers ({listed}); set {key}.layer to one of them")
+    raise InputError(f"{_where(source, source.layer)} not found ({key}.layer); the file holds: {listed}")
+
+
+def _read_original(source: LayerSource, key: str, *, engine: str) -> tuple[gpd.GeoDataFrame, str]:
+    layer = _layer_name(source, key)
+    options = {"use_arrow": True} if engine == "pyogrio" else {}
+    try:
+        with quiet_measures():
+            frame = gpd.read_file(source.path, layer=layer, engine=engine, **options)
+    except _READ_ERRORS as error:
+        raise InputError(f"{_where(source, layer)}: cannot be read ({error})") from None
+    if not isinstance(frame, gpd.GeoDataFrame) or frame.geometry.name not in frame:
+        raise InputError(f"{_where(source, layer)}: has no geometry column")
+    return frame, layer
+
+
+def _source_crs(frame: gpd.GeoDataFrame, source: LayerSource, key: str, layer: str) -> pyproj.CRS:
+    if frame.crs is not None:
+        return pyproj.CRS.from_user_input(frame.crs)
+    if source.crs is None:
+        raise InputError(f"{_where(source, layer)}: the layer has no CRS; give it as {key}.crs = 'EPSG:...'")
+    return pyproj.CRS.from_user_input(source.crs)
+
+
+def working_crs(geometry: gpd.GeoSeries, *, where: str) -> pyproj.CRS:
+    """The layer's own CRS when projected in metres, else the UTM zone of its extent.
+
+    Parameters
+    ----------
+    geometry : the layer's geometry with its CRS set
+    where : file and layer, for the message when the layer has no geometry to place
+
+    Returns
+    -------
+    a projected CRS whose axes are in metres
+    """
+    crs = pyproj.CRS.from_user_input(geometry.crs)
+    if crs.is_projected and all(axis.unit_name in ("metre", "meter") for axis in crs.axis_info):
+        return crs
+    valid = geometry[~(geometry.isna() | geometry.is_empty)]
+    if valid.empty:
+        raise InputError(f"{where}: no feature has a geometry, so no projected CRS can be chosen")
+    return pyproj.CRS.from_user_input(valid.estimate_utm_crs())
+
+
+def _field(frame: gpd.GeoDataFrame, wanted: str, *, key: str, where: str) -> pd.Series:
+    """The user's field ``wanted`` (exact name, else the only case-insensitive match)."""
+    if wanted in frame.columns and wanted != frame.geometry.name:
+        return frame[wanted]
+    fields = [str(name) for name in frame.columns if name != frame.geometry.name]
+    close = [name for name in fields if name.lower() == wanted.lower()]
+    if len(close) == 1:
+        return frame[close[0]]
+    raise InputError(f"{where}: {key} = '{wanted}' is not a field of the layer; its fields are: {', '.join(fields)}")
+
+
+def _report_geometry(report: Reporter, flags: dict[str, np.ndarray], *, original: np.ndarray) -> None:
+    """One finding per flagged feature; a wrong type is named from the ``original`` geometry."""
+    for code, mask in flags.items():
+        messages: pd.Series | str = GEOMETRY_MESSAGES[code]
+        if code == "wrong_geometry_type" and mask.any():
+            kinds = np.full(len(mask), "", dtype=object)
+            kinds[mask] = gpd.GeoSeries(original[mask]).geom_type.to_numpy(dtype=object)
+            messages = "the geometry is a " + pd.Series(kinds, dtype=object) + ", " + GEOMETRY_MESSAGES[code]
+        report.add(mask, code, messages)
+
+
+def _geometry(frame: gpd.GeoDataFrame, source_crs: pyproj.CRS, crs: pyproj.CRS, *, kind: str) -> tuple[
+    gpd.GeoSeries, dict[str, np.ndarray]
+]:  # fmt: skip
+    geometry, flags = clean_geometry(frame.geometry.to_numpy().copy(), kind=kind)
+    series = gpd.GeoSeries(geometry, index=frame.index, crs=source_crs).to_crs(crs)
+    return series, flags
+
+
+@dataclass(frozen=True)
+class _Context:
+    """What the canonical builders need about one layer."""
+
+    frame: gpd.GeoDataFrame
+    source: LayerSource
+    key: str
+    where: str
+    report: Reporter
+    sentinels: tuple[float, ...]
+
+
+def _raw(context: _Context, name: str) -> pd.Series | None:
+    wanted = context.source.fields.get(name)
+    if wanted is None:
+        return None
+    return _field(context.frame, wanted, key=f"{context.key}.fields.{name}", where=context.where)
+
+
+def _numbers(context: _Context, names: tuple[str, ...], units: Mapping[str, tuple[str, str]]) -> dict[str, np.ndarray]:
+    columns: dict[str, np.ndarray] = {}
+    for name in names:
+        raw = _raw(context, name)
+        if raw is None:
+            columns[name] = np.full(len(context.frame), np.nan)
+            continue
+        values = as_number(raw, name=name, field=str(raw.name), sentinels=context.sentinels, report=context.report)
+        columns[name] = to_si(values, context.source.units[name], quantity=units[name][0]) if name in units else values
+    return columns
+
+
+def _texts(context: _Context, names: tuple[str, ...]) -> dict[str, np.ndarray | pd.api.extensions.ExtensionArray]:
+    columns: dict[str, np.ndarray | pd.api.extensions.ExtensionArray] = {}
+    for name in names:
+        raw = _raw(context, name)
+        columns[name] = np.full(len(context.frame), None, dtype=object) if raw is None else text_column(raw)
+    return columns
+
+
+def _shapes(context: _Context, sizes: dict[str, np.ndarray]) -> np.ndarray:
+    """Canonical shape per pipe, from the mapped codes, else from which sizes are given."""
+    diameter, height, width = sizes["diameter"], sizes["height"], sizes["width"]
+    boxed = np.isnan(diameter) & ~np.isnan(height) & ~np.isnan(width)
+    inferred = pd.Series(np.where(boxed, "rectangular", "circular"), dtype=object)
+    raw = _raw(context, "shape")
+    if raw is None:
+        return inferred.to_numpy(dtype=object)
+    codes = as_text(raw)
+    which, distinct = _distinct(codes)
+    lower = {code.lower(): shape for code, shape in context.source.shapes.items()} | {s: s for s in SHAPES}
+    named = distinct.map(dict(context.source.shapes)).fillna(distinct.str.lower().map(lower)).to_numpy(dtype=object)
+    mapped = np.where(which >= 0, named[np.maximum(which, 0)] if named.size else None, None)
+    unmapped = pd.isna(mapped)
+    context.report.add(unmapped & (which >= 0), "unknown_shape", Quoted(raw, f"shape field '{raw.name}' = ",
+                       " is neither in [pipes.shapes] nor one of " + ", ".join(SHAPES)))  # fmt: skip
+    return np.where(unmapped, np.where(which >= 0, codes, inferred.to_numpy(dtype=object)), mapped)
+
+
+def _distinct(codes: np.ndarray) -> tuple[np.ndarray, pd.Series]:
+    """Each value's position among the distinct values (-1 where None), and those values.
+
+    A code column holds a handful of distinct values: mapping them, not every row, is cheap.
+    """
+    which, distinct = pd.factorize(pd.Series(codes, dtype=object))
+    return which, pd.Series(np.asarray(distinct, dtype=object), dtype=object)
+
+
+def _access(context: _Context) -> np.ndarray:
+    raw = _raw(context, "access")
+    if raw is None:
+        return np.ones(len(context.frame), dtype=bool)
+    which, distinct = _distinct(as_text(raw))
+    words = distinct.str.lower()
+    known = np.r_[(words.isin(ACCESS_YES) | words.isin(ACCESS_NO)).to_numpy(dtype=bool), True][which]  # -1: no value
+    context.report.add(~known, "unknown_access", Quoted(raw, f"access field '{raw.name}' = ",
+                       " is read neither as yes nor as no; taken as accessible"))  # fmt: skip
+    return ~np.r_[words.isin(ACCESS_NO).to_numpy(dtype=bool), False][which]
+
+
+def _pipe_columns(context: _Context) -> dict[str, np.ndarray | pd.api.extensions.ExtensionArray]:
+    numbers = _numbers(context, PIPE_NUMBERS, PIPE_UNITS)
+    shape = _shapes(context, numbers)
+    circular = shape == "circular"
+    fill = np.where(np.isnan(numbers["height"]), numbers["width"], numbers["height"])
+    numbers["diameter"] = np.where(circular & np.isnan(numbers["diameter"]), fill, numbers["diameter"])
+    texts = _texts(context, ("from_node", "to_node", "material"))
+    return {**texts, "shape": shape, **numbers}
+
+
+def _manhole_columns(context: _Context) -> dict[str, np.ndarray]:
+    return {**_numbers(context, MANHOLE_NUMBERS, MANHOLE_UNITS), "access": _access(context)}
+
+
+def _catchment_columns(context: _Context) -> dict[str, np.ndarray | pd.api.extensions.ExtensionArray]:
+    return {**_texts(context, ("drains_to",)), **_numbers(context, CATCHMENT_NUMBERS, {})}
+
+
+_COLUMNS = {"pipes": _pipe_columns, "manholes": _manhole_columns, "catchments": _catchment_columns}
+
+
+PIPE_ORDER = ("pipe_id", "from_node", "to_node", "shape", "diameter", "height", "width", "upstream_invert",
+              "downstream_invert", "length", "roughness", "material", "install_year", "flow")  # fmt: skip
+MANHOLE_ORDER = ("manhole_id", "rim", "invert", "depth", "inflow", "access", "population", "point_load")
+CATCHMENT_ORDER = ("catchment_id", "drains_to", *CATCHMENT_NUMBERS)
+_ORDER = {"pipes": ("pipe_id", PIPE_ORDER), "manholes": ("manhole_id", MANHOLE_ORDER),
+          "catchments": ("catchment_id", CATCHMENT_ORDER)}  # fmt: skip
+
+
+def _read_layer(source: LayerSource, key: str, *, options: InputOptions, findings: FindingLog,
+                crs: pyproj.CRS | None) -> LayerData:  # fmt: skip
+    """Read one layer; ``crs`` is the working CRS, or None to choose it from this layer."""
+    frame, layer = _read_original(source, key, engine=options.engine)
+    where = _where(source, layer)
+    source_crs = _source_crs(frame, source, key, layer)
+    if crs is None:
+        crs = working_crs(frame.geometry.set_crs(source_crs, allow_override=True), where=where)
+    kind = GEOMETRY_KINDS[key]
+    id_field = source.fields.get("id")
+    raw_id = None if id_field is None else _field(frame, id_field, key=f"{key}.fields.id", where=where)
+    ids, missing = feature_ids(raw_id, count=len(frame))
+    geometry, flags = _geometry(frame, source_crs, crs, kind=kind)
+    cleaned = geometry.to_numpy()
+    report = Reporter(findings, key, ids, lambda rows: representative_points(cleaned[rows], kind=kind))
+    _report_geometry(report, flags, original=frame.geometry.to_numpy())
+    report_ids(report, missing, field=None if raw_id is None else str(raw_id.name))
+    context = _Context(frame, source, key, where, report, options.sentinels)
+    columns = _COLUMNS[key](context)
+    id_column, order = _ORDER[key]
+    columns[id_column] = ids
+    canonical = gpd.GeoDataFrame({name: columns[name] for name in order}, geometry=geometry, index=frame.index)
+    mapping = {id_column: "id"}
+    absent = tuple(name for name in order if mapping.get(name, name) not in source.fields and name != "shape")
+    return LayerData(source.path, layer, frame, canonical, absent)
+
+
+def read_layers(
+    pipes: LayerSource,
+    *,
+    manholes: LayerSource | None = None,
+    catchments: LayerSource | None = None,
+    options: InputOptions = InputOptions(),
+    findings: FindingLog,
+) -> Layers:
+    """Read the pipe layer and, where configured, the manhole and catchment layers.
+
+    Parameters
+    ----------
+    pipes, manholes, catchments : ``[pipes]``, ``[manholes]``, ``[catchments]`` (None: not configured)
+    options : ``[input]``: the reading engine and the sentinel values
+    findings : the log that receives every data problem found while reading
+
+    Returns
+    -------
+    the :class:`Layers`: original and canonical frames, working CRS [m]
+
+    Raises
+    ------
+    InputError
+        A file or layer is missing or unreadable, a mapped field is not in the layer, or a
+        layer has no CRS and the config gives none; the message names file, layer and key.
+    """
+    pipe_data = _read_layer(pipes, "pipes", options=options, findings=findings, crs=None)
+    crs = pyproj.CRS.from_user_input(pipe_data.canonical.crs)
+    manhole_data = None
+    if manholes is not None:
+        manhole_data = _read_layer(manholes, "manholes", options=options, findings=findings, crs=crs)
+    catchment_data = None
+    if catchments is not None:
+        catchment_data = _read_layer(catchments, "catchments", options=options, findings=findings, crs=crs)
+    return Layers(pipes=pipe_data, manholes=manhole_data, crs=crs, catchments=catchment_data)

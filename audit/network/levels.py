@@ -1,0 +1,218 @@
+"""Levels per pipe: lengths, invert levels in flow direction, slope and cover.
+
+Levels come from the pipe's own invert fields where they are given, else from the manhole at
+that end (its invert, or its rim minus its depth). Everything is one numpy expression over all
+pipes.
+
+Finding codes emitted: ``length_mismatch``, ``missing_invert``, ``zero_length``.
+"""
+
+from __future__ import annotations
+
+import geopandas as gpd
+import numpy as np
+import pandas as pd
+import shapely
+
+from audit.errors import ConfigError, InputError
+from audit.findings import FindingLog
+from audit.network.build import (
+    Network,
+    digitised_end_levels,
+    node_invert_levels,
+    pipe_labels,
+)
+from audit.network.snapping import midpoints
+
+LEVEL_COLUMNS = (
+    "length_m", "geometry_length_m", "up_invert", "down_invert", "invert_source",
+    "slope", "up_cover", "down_cover",
+)
+
+
+def derive_levels(
+    pipes: gpd.GeoDataFrame,
+    network: Network,
+    manholes: gpd.GeoDataFrame | None,
+    *,
+    length_tolerance_ratio: float = 0.05,
+    length_tolerance_m: float = 0.5,
+    findings: FindingLog,
+) -> pd.DataFrame:
+    r"""Length, invert levels in flow direction, slope and cover of every pipe.
+
+    .. math::
+
+        S = \frac{z_{up} - z_{down}}{L} \qquad
+        c = z_{rim} - (z_{invert} + h)
+
+    with invert levels :math:`z` [m], length :math:`L` [m], internal height :math:`h` [m]
+    (the diameter for a circular pipe) and cover :math:`c` [m] from ground to the crown.
+
+    Parameters
+    ----------
+    pipes : canonical pipe layer the network was built from
+    network : result of :func:`audit.network.build_network`
+    manholes : canonical manhole layer the network was built from, or None; rim, invert and
+        depth are read from it through ``network.nodes.manhole_row``
+    length_tolerance_ratio : share of the geometry length the length attribute may differ [-]
+    length_tolerance_m : difference that is always tolerated [m]
+    findings : log that receives ``length_mismatch``, ``missing_invert`` and ``zero_length``
+
+    Returns
+    -------
+    DataFrame on the pipes' index with ``LEVEL_COLUMNS``: ``length_m`` (the attribute where
+    given, else the geometry) and ``geometry_length_m`` [m]; ``up_invert``, ``down_invert``
+    [m]; ``invert_source`` (``"pipe"`` when both levels come from the pipe's fields,
+    ``"manhole"`` when at least one comes from a manhole, ``""`` when a level is unknown);
+    ``slope`` [-] (positive downhill; NaN where unknown or the length is not positive);
+    ``up_cover``, ``down_cover`` [m] (NaN where the rim or the height is unknown)
+
+    Raises
+    ------
+    ConfigError
+        for a negative or non-finite tolerance
+    InputError
+        when the network was built from a different number of pipes
+    """
+    _check(pipes, network, ratio=length_tolerance_ratio, tolerance_m=length_tolerance_m)
+    geometry = np.asarray(pipes.geometry.values, dtype=object)
+    drawn = np.where(shapely.is_missing(geometry) | shapely.is_empty(geometry), np.nan, shapely.length(geometry))
+    attribute = _column(pipes, "length")
+    length = np.where(np.isnan(attribute), drawn, attribute)
+    rim, invert = _node_levels(network, manholes)
+    up, down, source = _flow_inverts(pipes, network, invert)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        slope = np.where(length > 0, (up - down) / length, np.nan)
+    height = _height(pipes)
+    levels = pd.DataFrame(
+        {
+            "length_m": length,
+            "geometry_length_m": drawn,
+            "up_invert": up,
+            "down_invert": down,
+            "invert_source": source,
+            "slope": slope,
+            "up_cover": _at(rim, network.upstream) - (up + height),
+            "down_cover": _at(rim, network.downstream) - (down + height),
+        },
+        index=pipes.index,
+    )
+    _report(levels, attribute, pipes=pipes, network=network, ratio=length_tolerance_ratio,
+            tolerance_m=length_tolerance_m, findings=findings)
+    return levels
+
+
+def _check(pipes: pd.DataFrame, network: Network, *, ratio: float, tolerance_m: float) -> None:
+    for name, value in (("length tolerance ratio", ratio), ("length tolerance", tolerance_m)):
+        if not np.isfinite(value) or value < 0:
+            raise ConfigError(f"{name} must be 0 or more, got {value!r}")
+    if len(network.upstream) != len(pipes):
+        raise InputError(
+            f"pipes layer: {len(pipes)} features, but the network was built from {len(network.upstream)} pipes"
+        )
+
+
+def _column(frame: pd.DataFrame, name: str) -> np.ndarray:
+    return frame[name].to_numpy(dtype=float) if name in frame else np.full(len(frame), np.nan)
+
+
+def _at(values: np.ndarray, index: np.ndarray) -> np.ndarray:
+    """``values[index]``, NaN where the index is -1."""
+    padded = np.r_[values, np.nan]
+    return padded[np.where(index >= 0, index, len(values))]
+
+
+def _node_levels(network: Network, manholes: gpd.GeoDataFrame | None) -> tuple[np.ndarray, np.ndarray]:
+    """Rim and invert level per node [m], read from the manhole layer where one is given."""
+    nodes = network.nodes
+    if manholes is not None:
+        row = nodes["manhole_row"].to_numpy(dtype=np.int64)
+        nodes = pd.DataFrame({name: _at(_column(manholes, name), row) for name in ("rim", "invert", "depth")})
+    return nodes["rim"].to_numpy(dtype=float), node_invert_levels(nodes)
+
+
+def _flow_inverts(
+    pipes: pd.DataFrame, network: Network, node_invert: np.ndarray
+) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Upstream and downstream invert in flow direction and where they came from."""
+    turned = network.reversed
+    end_node = np.stack(
+        [np.where(turned, network.downstream, network.upstream), np.where(turned, network.upstream, network.downstream)],
+        axis=1,
+    )
+    levels, from_pipe = digitised_end_levels(pipes, end_node, node_invert)
+    up = np.where(turned, levels[:, 1], levels[:, 0])
+    down = np.where(turned, levels[:, 0], levels[:, 1])
+    known = ~(np.isnan(up) | np.isnan(down))
+    source = np.where(from_pipe.all(axis=1), "pipe", "manhole")
+    return up, down, np.where(known, source, "").astype(object)
+
+
+def _height(pipes: pd.DataFrame) -> np.ndarray:
+    """Internal height [m]: the diameter for a circular pipe, else the height field.
+
+    Where the preferred field is missing the other one stands in.
+    """
+    diameter, height = _column(pipes, "diameter"), _column(pipes, "height")
+    shape = pipes["shape"].to_numpy(dtype=object) if "shape" in pipes else np.full(len(pipes), "circular", object)
+    circular = shape == "circular"
+    first = np.where(circular, diameter, height)
+    return np.where(np.isnan(first), np.where(circular, height, diameter), first)
+
+
+def _fixed(values: np.ndarray) -> pd.Series:
+    return pd.Series(np.char.mod("%.3f", np.asarray(values, dtype=float)), dtype=object)
+
+
+def _report(
+    levels: pd.DataFrame,
+    attribute: np.ndarray,
+    *,
+    pipes: gpd.GeoDataFrame,
+    network: Network,
+    ratio: float,
+    tolerance_m: float,
+    findings: FindingLog,
+) -> None:
+    """``length_mismatch``, ``zero_length`` and ``missing_invert`` findings."""
+    names = pd.Series(pipe_labels(pipes), dtype=object)
+    lines = np.asarray(pipes.geometry.values, dtype=object)
+    drawn = levels["geometry_length_m"].to_numpy()
+    with np.errstate(invalid="ignore"):
+        off = np.abs(attribute - drawn) > np.maximum(ratio * drawn, tolerance_m)
+    rows = np.flatnonzero(off)
+    messages = (
+        "pipe " + names[rows].reset_index(drop=True) + ": length attribute " + _fixed(attribute[rows])
+        + " m differs from the drawn length " + _fixed(drawn[rows]) + " m"
+    )
+    findings.add_many("pipes", names[rows], "length_mismatch", messages, **_placed(lines, rows))
+    length = levels["length_m"].to_numpy()
+    rows = np.flatnonzero(length <= 0)
+    messages = "pipe " + names[rows].reset_index(drop=True) + ": length is " + _fixed(length[rows]) + " m"
+    findings.add_many("pipes", names[rows], "zero_length", messages, **_placed(lines, rows))
+    _report_missing(levels, names=names, network=network, lines=lines, findings=findings)
+
+
+def _placed(lines: np.ndarray, rows: np.ndarray) -> dict[str, np.ndarray]:
+    """``x`` and ``y`` of the midpoints of the reported pipes only (not of every pipe)."""
+    x, y = midpoints(lines[rows])
+    return {"x": x, "y": y}
+
+
+def _report_missing(
+    levels: pd.DataFrame, *, names: pd.Series, network: Network, lines: np.ndarray, findings: FindingLog
+) -> None:
+    no_up = np.isnan(levels["up_invert"].to_numpy())
+    no_down = np.isnan(levels["down_invert"].to_numpy())
+    rows = np.flatnonzero(no_up | no_down)
+    which = np.where(no_up & no_down, "upstream and downstream ends", np.where(no_up, "upstream end", "downstream end"))
+    node_names = np.append(network.nodes["node_id"].to_numpy(dtype=object), "none")
+    up_node = node_names[np.where(network.upstream >= 0, network.upstream, -1)][rows]
+    down_node = node_names[np.where(network.downstream >= 0, network.downstream, -1)][rows]
+    messages = (
+        "pipe " + names[rows].reset_index(drop=True) + ": no invert level at the " + pd.Series(which[rows], dtype=object)
+        + " (pipe fields empty; nodes '" + pd.Series(up_node, dtype=object).astype(str) + "' -> '"
+        + pd.Series(down_node, dtype=object).astype(str) + "' give none)"
+    )
+    findings.add_many("pipes", names[rows], "missing_invert", messages, **_placed(lines, rows))

@@ -1,0 +1,78 @@
+"""The report's design-flow section: what each outfall receives, part by part, and the assumptions."""
+
+from __future__ import annotations
+
+from collections.abc import Mapping
+from typing import Any
+
+import numpy as np
+import pandas as pd
+import pyarrow as pa
+import pyarrow.compute as pc
+
+from audit.report.html import cell, paragraph, table
+
+MAX_OUTFALLS = 20
+
+# per-pipe flow parts: column, heading, factor from SI to the shown unit, decimals
+PARTS = (
+    ("q_design", "Design flow [l/s]", 1000.0, 1),
+    ("q_sanitary", "Sanitary [l/s]", 1000.0, 1),
+    ("q_infiltration", "Infiltration [l/s]", 1000.0, 1),
+    ("q_storm", "Storm [l/s]", 1000.0, 1),
+    ("tc_min", "Time of concentration [min]", 1.0, 1),
+    ("population_served", "Population served", 1.0, 0),
+    ("area_served_ha", "Area served [ha]", 1.0, 2),
+)
+
+
+def outfall_pipes(pipes: pd.DataFrame) -> np.ndarray:
+    """Positions of the pipes that discharge into a node no pipe leaves (the outfalls).
+
+    One Arrow hash lookup of every pipe's downstream node among the upstream nodes.
+    """
+    into = _labels(pipes["to_node_id"])
+    leaving = pc.is_in(into, value_set=_labels(pipes["from_node_id"]).drop_null(), skip_nulls=True)
+    return np.flatnonzero(pc.and_not(into.is_valid(), leaving).to_numpy(zero_copy_only=False))
+
+
+def _labels(column: pd.Series) -> pa.Array:
+    """Node labels as an Arrow string array (nulls kept)."""
+    return pa.array(column, from_pandas=True).cast(pa.string())
+
+
+def flows_section(pipes: pd.DataFrame, assumptions: Mapping[str, Any] | None) -> str:
+    """Tables of the flow parts arriving at each outfall and of the flow assumptions used."""
+    parts = [part for part in PARTS if part[0] in pipes.columns]
+    positions = outfall_pipes(pipes)
+    flow = pd.to_numeric(pipes["q_design"], errors="coerce").to_numpy(dtype=float)[positions] if "q_design" in pipes else np.zeros(positions.size)
+    shown = positions[np.argsort(-np.nan_to_num(flow, nan=-1.0), kind="stable")[:MAX_OUTFALLS]]
+    rows = []
+    for position in shown:
+        row = pipes.iloc[position]
+        values = [cell(_number(row[name]) * factor if np.isfinite(_number(row[name])) else None, digits=digits) for name, _, factor, digits in parts]
+        rows.append([cell(row["to_node_id"]), *values])
+    headers = ("Outfall", *(heading for _, heading, _, _ in parts))
+    outfalls = table(headers, rows, numeric=(False, *([True] * len(parts))), id="outfall-table")
+    settings = [(cell(key), cell(value)) for key, value in _flat(assumptions or {})]
+    more = f" The {MAX_OUTFALLS} largest of {positions.size} outfall pipes are shown." if positions.size > MAX_OUTFALLS else ""
+    note = paragraph(f"Flow arriving at each outfall, by part; the assumptions below built them (docs/methods.md).{more}", class_="note")
+    return outfalls + note + table(("Assumption", "Value"), settings, id="flow-assumptions")
+
+
+def _flat(settings: Mapping[str, Any], prefix: str = "") -> list[tuple[str, Any]]:
+    """Nested settings as ``group.key`` rows, e.g. ``rainfall.a``; tables stay one row."""
+    rows: list[tuple[str, Any]] = []
+    for key, value in settings.items():
+        if isinstance(value, Mapping):
+            rows.extend(_flat(value, f"{prefix}{key}."))
+        else:
+            rows.append((f"{prefix}{key}", value))
+    return rows
+
+
+def _number(value: object) -> float:
+    try:
+        return float(value)  # type: ignore[arg-type]
+    except (TypeError, ValueError):
+        return float("nan")

@@ -1,0 +1,56 @@
+"""Small HTML helpers for the report: escaped cells, tables, sections and number formats."""
+
+from __future__ import annotations
+
+import html
+import math
+from collections.abc import Iterable, Sequence
+
+from audit.report.svg import element
+
+
+def cell(value: object, *, digits: int | None = None) -> str:
+    """A table cell's text, escaped; floats rounded to ``digits``; NaN and None shown as a dash.
+
+    Examples
+    --------
+    >>> cell("<W1>"), cell(float("nan")), cell(1234.5678, digits=1), cell(12)
+    ('&lt;W1&gt;', '\u2013', '1,234.6', '12')
+    """
+    if value is None or (isinstance(value, float) and math.isnan(value)):
+        return "\u2013"
+    if isinstance(value, float) and digits is not None:
+        return f"{value:,.{digits}f}"
+    return html.escape(str(value))
+
+
+def table(headers: Sequence[str], rows: Iterable[Sequence[str]], *, numeric: Sequence[bool] | None = None, **values: object) -> str:
+    """A ``<table>`` of already escaped cells; numeric columns are right-aligned."""
+    right = list(numeric) if numeric is not None else [False] * len(headers)
+    head = "".join(element("th", html.escape(name), class_="num" if flag else None) for name, flag in zip(headers, right, strict=True))
+    body = "".join(
+        element("tr", "".join(element("td", text, class_="num" if flag else None) for text, flag in zip(row, right, strict=True)))
+        for row in rows
+    )
+    return element("table", element("thead", element("tr", head)) + element("tbody", body), **values)
+
+
+def section(identifier: str, title: str, content: str) -> str:
+    """A ``<section>`` with an ``id`` and an ``<h2>`` title (escaped)."""
+    return element("section", element("h2", html.escape(title)) + content, id=identifier)
+
+
+def paragraph(words: str, **values: object) -> str:
+    """A ``<p>`` of plain words (escaped here)."""
+    return element("p", html.escape(words), **values)
+
+
+def percent(share: float) -> str:
+    """A share in [0, 1] as a percentage with one decimal.
+
+    Examples
+    --------
+    >>> percent(0.25), percent(0.0)
+    ('25.0 %', '0.0 %')
+    """
+    return f"{100.0 * share:.1f} %"

@@ -1,0 +1,157 @@
+"""The network map: every pipe drawn in the colour of its map class, one ``<path>`` per class.
+
+Coordinates are the pipes' own, in metres (a geographic or non-metre CRS is first projected to
+the audit's working CRS), scaled to fit the drawing with north up (grid north of the CRS). Each
+part of a multi-part line is its own subpath. A scale bar of a round length and a north arrow
+are drawn in the corners.
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Mapping
+from dataclasses import dataclass
+
+import geopandas as gpd
+import numpy as np
+import pyproj
+import shapely
+
+from audit.report.svg import Array, element, label, line_path_data, rect, svg
+
+#: Colour of each map class (see ``_tables.MAP_CLASSES``).
+CLASS_COLOURS: Mapping[str, str] = {
+    "high": "#c0392b",
+    "medium": "#e67e22",
+    "not_evaluated": "#7d3c98",
+    "low": "#d4ac0d",
+    "none": "#a6a6a6",
+}
+
+#: Stroke width of each class on the map [px]; the urgent classes are drawn wider and last.
+_STROKE_PX = {"none": 1.0, "low": 1.6, "not_evaluated": 1.8, "medium": 2.2, "high": 2.8}
+
+MAP_WIDTH_PX = 960.0
+MAP_MAX_HEIGHT_PX = 720.0
+_MARGIN_PX = 16.0
+
+
+@dataclass(frozen=True)
+class Frame:
+    """How metres become pixels: ``px = margin + (x - x0) * scale``, y flipped."""
+
+    x0: float
+    y1: float
+    scale: float  # [px/m]
+    width: float  # [px]
+    height: float  # [px]
+
+    def to_px(self, x: Array, y: Array) -> tuple[Array, Array]:
+        """Pixel coordinates of points given in metres."""
+        return _MARGIN_PX + (x - self.x0) * self.scale, _MARGIN_PX + (self.y1 - y) * self.scale
+
+
+def metric_geometry(pipes: gpd.GeoDataFrame, *, working_crs: str | None) -> tuple[np.ndarray, bool]:
+    """The pipe geometries in metres, and whether the unit is known to be the metre.
+
+    A layer in a geographic CRS or in feet is projected to ``working_crs`` (the audit's own);
+    a layer with no CRS is drawn as it is and its unit is unknown.
+    """
+    crs = pipes.crs
+    if crs is None:
+        return pipes.geometry.to_numpy(), False
+    if _in_metres(crs):
+        return pipes.geometry.to_numpy(), True
+    if working_crs is None:
+        return pipes.geometry.to_numpy(), False
+    return pipes.geometry.to_crs(working_crs).to_numpy(), True
+
+
+def _in_metres(crs: pyproj.CRS) -> bool:
+    return bool(crs.is_projected and crs.axis_info and crs.axis_info[0].unit_name in ("metre", "meter"))
+
+
+def network_map(geometry: np.ndarray, classes: np.ndarray, *, metres: bool) -> str:
+    """The map as inline SVG.
+
+    Parameters
+    ----------
+    geometry : one line geometry per pipe (None where missing) in metres
+    classes : map class of each pipe
+    metres : whether the coordinates are known to be metres (else no scale bar)
+    """
+    parts, pipe_of_part = _single_parts(geometry)
+    coords, part_of_vertex = shapely.get_coordinates(parts, return_index=True)
+    if coords.shape[0] == 0:
+        return svg(label(20, 40, "No pipe has a geometry to draw."), width=MAP_WIDTH_PX, height=80, title="Network map")
+    frame = _fit(coords)
+    x, y = frame.to_px(coords[:, 0], coords[:, 1])
+    vertex_class = classes[pipe_of_part][part_of_vertex]
+    layers = []
+    for name in reversed(list(CLASS_COLOURS)):
+        chosen = vertex_class == name
+        if chosen.any():
+            data = line_path_data(x[chosen], y[chosen], part_of_vertex[chosen])
+            layers.append(element("path", d=data, stroke=CLASS_COLOURS[name], stroke_width=_STROKE_PX[name], data_class=name))
+    content = element("g", "".join(layers), fill="none", stroke_linecap="round", stroke_linejoin="round")
+    content += north_arrow(frame.width - 40.0, 24.0)
+    if metres:
+        content += scale_bar(frame, x=_MARGIN_PX, y=frame.height - 14.0)
+    return svg(content, width=frame.width, height=frame.height, title="Network map coloured by each pipe's worst flag")
+
+
+def _single_parts(geometry: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Every single-part line and the pipe it belongs to (splitting only when a multi-part exists)."""
+    if np.all(shapely.get_type_id(geometry) == 1):  # LineString only: nothing to split
+        return geometry, np.arange(len(geometry))
+    return shapely.get_parts(geometry, return_index=True)
+
+
+def _fit(coords: np.ndarray) -> Frame:
+    """Scale the extent of the coordinates to the drawing, keeping the aspect ratio."""
+    xmin, ymin = coords[:, :2].min(axis=0)
+    xmax, ymax = coords[:, :2].max(axis=0)
+    span_x, span_y = max(xmax - xmin, 1e-9), max(ymax - ymin, 1e-9)
+    inner = MAP_WIDTH_PX - 2 * _MARGIN_PX
+    scale = min(inner / span_x, (MAP_MAX_HEIGHT_PX - 2 * _MARGIN_PX) / span_y)
+    height = max(span_y * scale + 2 * _MARGIN_PX + 24.0, 120.0)  # room for the scale bar below
+    return Frame(x0=float(xmin), y1=float(ymax), scale=float(scale), width=MAP_WIDTH_PX, height=float(height))
+
+
+def round_length(target: float) -> float:
+    """The largest of 1, 2 or 5 times a power of ten that is at most ``target`` [m].
+
+    Examples
+    --------
+    >>> [round_length(value) for value in (0.7, 180.0, 350.0, 999.0, 1000.0, 4200.0)]
+    [0.5, 100.0, 200.0, 500.0, 1000.0, 2000.0]
+    """
+    power = 10.0 ** math.floor(math.log10(target))
+    return max(step * power for step in (1.0, 2.0, 5.0) if step * power <= target * (1 + 1e-12))
+
+
+def length_words(metres: float) -> str:
+    """A round length in m below 1 km, else in km.
+
+    Examples
+    --------
+    >>> length_words(500.0), length_words(2000.0), length_words(0.5)
+    ('500 m', '2 km', '0.5 m')
+    """
+    return f"{metres / 1000.0:g} km" if metres >= 1000.0 else f"{metres:g} m"
+
+
+def scale_bar(frame: Frame, *, x: float, y: float) -> str:
+    """A bar of a round length close to a fifth of the map's width, labelled in m or km."""
+    metres = round_length((frame.width - 2 * _MARGIN_PX) / 5.0 / frame.scale)
+    length = metres * frame.scale
+    half = length / 2.0
+    bar = rect(x, y - 6, half, 6, fill="#333") + rect(x + half, y - 6, half, 6, fill="#fff", stroke="#333")
+    words = label(x + length + 6, y, length_words(metres), font_size=12)
+    return element("g", bar + words, data_role="scale-bar", data_metres=f"{metres:g}")
+
+
+def north_arrow(x: float, y: float) -> str:
+    """An arrow pointing up with an N above it, centred on ``x``, its tip at ``y`` + 14 px."""
+    arrow = element("path", d=f"M{x:g} {y + 14:g}l-8 24 8-6 8 6z", fill="#333")
+    return element("g", label(x, y + 8, "N", text_anchor="middle", font_size=14, font_weight="bold") + arrow, data_role="north-arrow")

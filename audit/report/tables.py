@@ -1,0 +1,136 @@
+"""What the report tabulates, computed over all pipes at once: classes, flag totals, candidates.
+
+Map class of a pipe (``MAP_CLASSES``, from the most to the least urgent):
+
+* ``high`` or ``medium``: its worst flag has that severity;
+* ``not_evaluated``: the hydraulics could not run (unknown size, slope or flow) and no flag of
+  medium or high severity was raised;
+* ``low``: its worst flag is of low severity;
+* ``none``: no flag.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Mapping
+
+import numpy as np
+import pandas as pd
+
+from audit.errors import InputError
+from audit.outputs import code_totals
+from audit.rules import FLAG_CODES, SEVERITY_ORDER
+
+#: Map classes from the most urgent to the least, with the words the legend uses.
+MAP_CLASSES: dict[str, str] = {
+    "high": "High severity",
+    "medium": "Medium severity",
+    "not_evaluated": "Not evaluated",
+    "low": "Low severity",
+    "none": "No flag",
+}
+
+#: Hydraulic statuses for which a depth and velocity were computed.
+EVALUATED_STATUSES = ("ok", "above_full_bore", "surcharged")
+
+#: Pipe columns the report reads (``audit.result.PIPE_COLUMNS``).
+REPORT_COLUMNS = (
+    "flags", "severity", "reasons", "hydraulic_status", "load_ratio", "depth_ratio", "v_design",
+    "length_m", "height_m", "upstream_length_m", "from_node_id", "to_node_id",
+)  # fmt: skip
+
+
+def check_columns(pipes: pd.DataFrame) -> None:
+    """Raise ``InputError`` naming every report column the pipes frame lacks."""
+    missing = [name for name in REPORT_COLUMNS if name not in pipes.columns]
+    if missing:
+        raise InputError(f"report: the audit result's pipes lack the computed field(s) {', '.join(missing)}")
+
+
+def numeric(pipes: pd.DataFrame, name: str) -> np.ndarray:
+    """A pipe column as floats, NaN where empty or not a number."""
+    return pd.to_numeric(pipes[name], errors="coerce").to_numpy(dtype=float, na_value=np.nan)
+
+
+def texts(pipes: pd.DataFrame, name: str) -> pd.Series:
+    """A pipe column as strings, "" where empty; a column of strings is only filled."""
+    column = pipes[name]
+    if isinstance(column.dtype, pd.StringDtype):
+        return column.fillna("")
+    return column.astype(object).where(column.notna(), "").astype(str)
+
+
+def map_classes(pipes: pd.DataFrame) -> np.ndarray:
+    """The map class of every pipe (see the module docstring), as strings."""
+    severity = texts(pipes, "severity").to_numpy(dtype=object)
+    evaluated = texts(pipes, "hydraulic_status").isin(EVALUATED_STATUSES).to_numpy()
+    urgent = np.isin(severity, ("high", "medium"))
+    return np.select(
+        [urgent, ~evaluated, severity == "low"], [severity, "not_evaluated", "low"], "none"
+    ).astype(object)
+
+
+def class_counts(classes: np.ndarray) -> dict[str, int]:
+    """Number of pipes in each map class, every class listed."""
+    return {name: int(np.count_nonzero(classes == name)) for name in MAP_CLASSES}
+
+
+def flag_totals(pipes: pd.DataFrame, *, severity: Mapping[str, str]) -> pd.DataFrame:
+    """Pipes and length [m] per flag code raised, in the order of ``FLAG_CODES``.
+
+    A pipe with several flags counts once under each. Columns: ``flag``, ``severity`` (from the
+    rules used), ``pipes``, ``length_m``.
+    """
+    grouped = code_totals(pipes["flags"], numeric(pipes, "length_m")).rename_axis("flag")
+    order = [code for code in FLAG_CODES if code in grouped.index] + sorted(set(grouped.index) - set(FLAG_CODES))
+    table = grouped.reindex(order).reset_index()
+    table.insert(1, "severity", [severity.get(code, "") for code in table["flag"]])
+    return table.astype({"pipes": int})
+
+
+def pipe_labels(pipes: pd.DataFrame, rows: np.ndarray, *, id_field: str | None) -> np.ndarray:
+    """The id of the pipes at positions ``rows``: the ``id_field`` column, else ``pipe_id``, else ``#<row>``."""
+    for name in (id_field, "pipe_id"):
+        if name is not None and name in pipes.columns:
+            return texts(pipes.iloc[rows], name).to_numpy(dtype=object)
+    return ("#" + pd.Index(rows).astype(str)).to_numpy(dtype=object)
+
+
+def renewal_candidates(pipes: pd.DataFrame, *, id_field: str | None, limit: int = 20) -> pd.DataFrame:
+    """The ``limit`` flagged pipes most in need of a look, best first.
+
+    Ranked by worst severity (high first), then load ratio, then length of network upstream
+    (both descending, unknown last); ties keep the input order.
+    """
+    rank = {word: place for place, word in enumerate(SEVERITY_ORDER, start=1)}
+    severity = texts(pipes, "severity")
+    flagged = np.flatnonzero(severity.isin(list(rank)).to_numpy())
+    keys = [flagged]
+    keys += [np.nan_to_num(-numeric(pipes, name)[flagged], nan=np.inf) for name in ("upstream_length_m", "load_ratio")]
+    keys.append(-severity.iloc[flagged].map(rank).to_numpy(dtype=float))
+    rows = flagged[np.lexsort(keys)][:limit]
+    chosen = pipes.iloc[rows]
+    return pd.DataFrame(
+        {
+            "pipe": pipe_labels(pipes, rows, id_field=id_field),
+            "from_to": (texts(chosen, "from_node_id") + " \u2192 " + texts(chosen, "to_node_id")).to_numpy(dtype=object),
+            "severity": severity.to_numpy(dtype=object)[rows],
+            "load_ratio": numeric(chosen, "load_ratio"),
+            "height_mm": numeric(chosen, "height_m") * 1000.0,
+            "length_m": numeric(chosen, "length_m"),
+            "upstream_length_m": numeric(chosen, "upstream_length_m"),
+            "reasons": texts(chosen, "reasons").to_numpy(dtype=object),
+        }
+    )
+
+
+def finding_digest(findings: pd.DataFrame, *, examples: int = 3) -> pd.DataFrame:
+    """Findings per code: layers, count and up to ``examples`` feature ids, most frequent first."""
+    if findings.empty:
+        return pd.DataFrame({"code": [], "layers": [], "count": [], "examples": []})
+    frame = pd.DataFrame({name: findings[name].astype(str) for name in ("layer", "feature", "code")})
+    counts = frame.groupby("code").size().rename("count")
+    layers = frame.drop_duplicates(["code", "layer"]).groupby("code")["layer"].agg(", ".join).rename("layers")
+    firsts = frame.drop_duplicates(["code", "feature"]).groupby("code").head(examples)
+    listed = firsts.groupby("code")["feature"].agg(list).rename("examples")
+    digest = pd.concat([layers, counts, listed], axis=1).rename_axis("code").reset_index()
+    return digest.sort_values(["count", "code"], ascending=[False, True], kind="stable").reset_index(drop=True)

@@ -1,0 +1,43 @@
+"""Stage 4, the rules: per-pipe numbers in, flags, a worst severity and reasons out.
+
+In: the metrics frame the pipeline builds from the hydraulics (``METRIC_COLUMNS``), the
+network's graph arrays and ``[rules]`` (:mod:`audit.rules.settings`). Out: per pipe the flag
+codes (a fixed vocabulary, ``FLAG_CODES``), the worst severity and one reason per flag with its
+numbers. docs/rules.md gives every rule's threshold and source.
+
+Modules: ``checks`` (one vectorised mask per rule), ``settings`` (thresholds and tables by
+diameter), ``access`` (runs between access points, for spacing), ``text`` (reasons as Arrow
+strings).
+"""
+
+from audit.rules.checks import (
+    HYDRAULIC_STATUSES,
+    METRIC_COLUMNS,
+    check_pipes,
+    worst_severity_at_least,
+)
+from audit.rules.settings import (
+    DEFAULT_SEVERITY,
+    FLAG_CODES,
+    RSWF_MAX_SPACING,
+    RSWF_MIN_SLOPE,
+    SEVERITY_OFF,
+    SEVERITY_ORDER,
+    DiameterTable,
+    RuleSettings,
+)
+
+__all__ = [
+    "DEFAULT_SEVERITY",
+    "FLAG_CODES",
+    "HYDRAULIC_STATUSES",
+    "METRIC_COLUMNS",
+    "RSWF_MAX_SPACING",
+    "RSWF_MIN_SLOPE",
+    "SEVERITY_OFF",
+    "SEVERITY_ORDER",
+    "DiameterTable",
+    "RuleSettings",
+    "check_pipes",
+    "worst_severity_at_least",
+]

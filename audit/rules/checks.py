@@ -1,0 +1,327 @@
+"""Design-rule checks: per-pipe numbers become flags, a severity and reasons a person can read.
+
+``check_pipes`` takes the hydraulics stage's metrics frame and the network's graph arrays and
+returns, per pipe and in the same order, the flag codes raised (joined by ";" in the fixed order
+of ``FLAG_CODES``), the worst severity among them and one reason per flag with its numbers. Every
+rule is one boolean mask over all pipes; reasons are built with vectorised string operations.
+
+Flag codes: ``surcharge``, ``near_capacity``, ``silting``, ``high_velocity``, ``reverse_grade``,
+``flat_grade``, ``long_spacing``, ``below_min_diameter``, ``diameter_decrease``,
+``shallow_cover``, ``missing_data``. docs/rules.md gives each one's threshold and source.
+
+Where a pipe's slope is zero or negative no uniform flow exists, so only the grade flag speaks
+for its hydraulics: surcharge, near capacity, silting, high velocity and the missing roughness
+or design flow that a velocity would have needed are not raised.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import pandas as pd
+import pyarrow as pa
+
+from audit.errors import ConfigError
+from audit.rules.access import access_runs, run_totals
+from audit.rules.settings import (
+    DEFAULT_SEVERITY,
+    FLAG_CODES,
+    RSWF_MAX_SPACING,
+    RSWF_MIN_SLOPE,
+    SEVERITY_OFF,
+    SEVERITY_ORDER,
+    DiameterTable,
+    RuleSettings,
+)
+from audit.rules.text import concat, fixed, join, pick, rows, strings
+
+__all__ = [
+    "DEFAULT_SEVERITY",
+    "FLAG_CODES",
+    "RSWF_MAX_SPACING",
+    "RSWF_MIN_SLOPE",
+    "SEVERITY_ORDER",
+    "DiameterTable",
+    "RuleSettings",
+    "check_pipes",
+    "worst_severity_at_least",
+]
+
+METRIC_COLUMNS: tuple[str, ...] = (
+    "pipe_id", "shape", "diameter", "height", "length_m", "slope", "q_full", "q_design",
+    "load_ratio", "depth_ratio", "v_design", "shear", "up_cover", "down_cover",
+    "hydraulic_status", "flow_status",
+)  # fmt: skip
+
+#: hydraulic_status codes the hydraulics stage emits; any other value is reported as such.
+HYDRAULIC_STATUSES: tuple[str, ...] = (
+    "ok", "surcharged", "nonpositive_slope", "missing_slope", "missing_size",
+    "missing_roughness", "missing_flow",
+)  # fmt: skip
+
+# Sizes closer than this are equal: absorbs unit-conversion noise, not real steps [m].
+_SIZE_TOLERANCE = 1e-6
+
+Hit = tuple[np.ndarray, pa.Array | str]
+
+
+def check_pipes(
+    metrics: pd.DataFrame,
+    *,
+    upstream: np.ndarray,
+    downstream: np.ndarray,
+    node_access: np.ndarray,
+    settings: RuleSettings,
+) -> pd.DataFrame:
+    """Flags, worst severity and reasons per pipe.
+
+    Parameters
+    ----------
+    metrics : one row per pipe with the columns of ``METRIC_COLUMNS`` (SI, NaN where unknown);
+        optional ``upstream_invert`` / ``downstream_invert`` [m] let a missing slope name the
+        missing invert
+    upstream, downstream : node index at the two ends of each pipe, in flow direction; -1 where
+        unknown
+    node_access : True for each node that is an access point (manhole with a cover)
+    settings : the thresholds
+
+    Returns
+    -------
+    DataFrame on the index of ``metrics`` with ``flags`` (codes joined by ";", "" when none),
+    ``severity`` (the worst, "" when none), ``reasons`` (joined by "; ") and ``access_run_m``,
+    the length of pipe [m] between the access points around each pipe.
+    """
+    columns = _columns(metrics)
+    size = _size(columns)
+    upstream, downstream, node_access = _graph(upstream, downstream, node_access, count=len(metrics))
+    run = access_runs(upstream=upstream, downstream=downstream, node_access=node_access)
+    run_length, run_pipes = run_totals(run, length=columns["length_m"])
+    hits = {
+        **_capacity_hits(columns, settings=settings),
+        **_velocity_hits(columns, settings=settings),
+        **_grade_hits(columns, size=size, settings=settings),
+        "long_spacing": _spacing_hit(size, run, run_length, run_pipes, settings=settings),
+        "below_min_diameter": _diameter_hit(columns, size=size, settings=settings),
+        "diameter_decrease": _decrease_hit(columns, size, upstream, downstream, nodes=len(node_access)),
+        "shallow_cover": _cover_hit(columns, settings=settings),
+        "missing_data": _missing_hit(columns, size=size),
+    }
+    return _assemble(hits, settings=settings, index=metrics.index, run_length=run_length)
+
+
+def worst_severity_at_least(severity_column: pd.Series | np.ndarray, threshold: str) -> np.ndarray:
+    """Mask of pipes whose worst severity is ``threshold`` or more serious.
+
+    Examples
+    --------
+    >>> worst_severity_at_least(np.array(["", "low", "medium", "high"]), "medium").tolist()
+    [False, False, True, True]
+    """
+    if threshold not in SEVERITY_ORDER:
+        raise ConfigError(f"severity threshold: expected one of {', '.join(SEVERITY_ORDER)}, got {threshold!r}")
+    rank = {word: place for place, word in enumerate(SEVERITY_ORDER, start=1)}
+    words = pd.Series(np.asarray(severity_column, dtype=object)).fillna("")
+    unknown = ~words.isin([*rank, ""])
+    if unknown.any():
+        raise ValueError(f"severity column holds {words[unknown].iloc[0]!r}, not one of {', '.join(SEVERITY_ORDER)}")
+    return words.map(rank).fillna(0).to_numpy(dtype=float) >= rank[threshold]
+
+
+def _text_column(values: pd.Series) -> np.ndarray:
+    """Python strings, "unknown" where missing; a column of strings is not converted again."""
+    text = values.to_numpy(dtype=object).copy()
+    if pd.api.types.infer_dtype(text, skipna=True) not in ("string", "empty"):
+        return values.fillna("unknown").astype(str).to_numpy(dtype=object)
+    text[pd.isna(text)] = "unknown"
+    return text
+
+
+def _columns(metrics: pd.DataFrame) -> dict[str, np.ndarray]:
+    missing = [name for name in METRIC_COLUMNS if name not in metrics.columns]
+    if missing:
+        raise ValueError(f"rules: metrics frame lacks column(s) {', '.join(missing)}")
+    texts = ("pipe_id", "shape", "hydraulic_status", "flow_status")
+    columns = {name: _text_column(metrics[name]) for name in texts}
+    for name in (*METRIC_COLUMNS, "upstream_invert", "downstream_invert"):
+        if name not in texts and name in metrics.columns:
+            columns[name] = metrics[name].to_numpy(dtype=float, na_value=np.nan)
+    return columns
+
+
+def _graph(
+    upstream: np.ndarray, downstream: np.ndarray, node_access: np.ndarray, *, count: int
+) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    upstream = np.asarray(upstream, dtype=np.int64)
+    downstream = np.asarray(downstream, dtype=np.int64)
+    node_access = np.asarray(node_access, dtype=bool)
+    for name, ends in (("upstream", upstream), ("downstream", downstream)):
+        if ends.shape != (count,):
+            raise ValueError(f"rules: {name} has {ends.size} entries for {count} pipes")
+        if ends.size and (ends.min() < -1 or ends.max() >= len(node_access)):
+            raise ValueError(f"rules: {name} holds a node index outside -1 .. {len(node_access) - 1}")
+    return upstream, downstream, node_access
+
+
+def _size(columns: dict[str, np.ndarray]) -> np.ndarray:
+    """Internal size [m]: the diameter, else the height of a non-circular section."""
+    return np.where(np.isfinite(columns["diameter"]), columns["diameter"], columns["height"])
+
+
+def _size_word(columns: dict[str, np.ndarray], mask: np.ndarray) -> pa.Array:
+    return pick(("height ", "diameter "), np.isfinite(columns["diameter"][mask]))
+
+
+def _load_ratio(columns: dict[str, np.ndarray]) -> np.ndarray:
+    with np.errstate(divide="ignore", invalid="ignore"):
+        ratio = columns["q_design"] / columns["q_full"]
+    return np.where(np.isfinite(columns["load_ratio"]), columns["load_ratio"], ratio)
+
+
+def _capacity_hits(columns: dict[str, np.ndarray], *, settings: RuleSettings) -> dict[str, Hit]:
+    flowing = columns["slope"] > 0
+    ratio = _load_ratio(columns)
+    over = flowing & (columns["q_design"] > settings.max_load_ratio * columns["q_full"])
+    near = flowing & ~over & (ratio > settings.near_capacity_ratio)
+    return {
+        "surcharge": (over, concat("load ratio ", fixed(ratio[over], 2), f" > {settings.max_load_ratio:.2f}")),
+        "near_capacity": (near, concat("load ratio ", fixed(ratio[near], 2), f" > {settings.near_capacity_ratio:.2f}")),
+    }
+
+
+def _velocity_hits(columns: dict[str, np.ndarray], *, settings: RuleSettings) -> dict[str, Hit]:
+    flowing = columns["slope"] > 0
+    velocity = columns["v_design"]
+    slow = flowing & (velocity < settings.min_velocity)
+    weak = np.zeros_like(slow)
+    if settings.min_shear is not None:
+        weak = flowing & (columns["shear"] < settings.min_shear)
+    parts = join(
+        [
+            (slow, concat("velocity ", fixed(velocity[slow], 2), f" m/s < {settings.min_velocity:.2f} m/s")),
+            (weak, concat("shear ", fixed(columns["shear"][weak], 2), f" Pa < {settings.min_shear or 0:.2f} Pa")),
+        ],
+        sep=" and ",
+        count=len(slow),
+    )
+    fast = flowing & (velocity > settings.max_velocity)
+    return {
+        "silting": (slow | weak, rows(parts, slow | weak)),
+        "high_velocity": (fast, concat("velocity ", fixed(velocity[fast], 2), f" m/s > {settings.max_velocity:.2f} m/s")),
+    }
+
+
+def _grade_hits(columns: dict[str, np.ndarray], *, size: np.ndarray, settings: RuleSettings) -> dict[str, Hit]:
+    slope = columns["slope"]
+    reverse = slope < 0
+    least = np.full(len(slope), np.nan) if settings.min_slope is None else settings.min_slope.lookup(size)
+    zero = slope == 0
+    shy = (slope > 0) & (slope < least)
+    reasons = join(
+        [(zero, "zero slope"), (shy, concat("slope ", fixed(100 * slope[shy], 3), " % < ", fixed(100 * least[shy], 3), " %"))],
+        sep=" ",
+        count=len(slope),
+    )
+    return {
+        "reverse_grade": (reverse, concat("slope ", fixed(100 * slope[reverse], 3), " % falls against the flow")),
+        "flat_grade": (zero | shy, rows(reasons, zero | shy)),
+    }
+
+
+def _spacing_hit(
+    size: np.ndarray, run: np.ndarray, run_length: np.ndarray, run_pipes: np.ndarray, *, settings: RuleSettings
+) -> Hit:
+    """A run is held to the strictest limit of its pipes; a pipe of unknown size to the table's strictest."""
+    limit = settings.max_spacing_m.lookup(size)
+    limit = np.where(np.isnan(limit), settings.max_spacing_m.strictest, limit)
+    run_limit = np.full(int(run.max(initial=-1)) + 1, np.inf)
+    np.minimum.at(run_limit, run, limit)
+    limit = run_limit[run]
+    long = run_length > limit
+    reason = concat(
+        "access run ", fixed(run_length[long], 1), " m > ", fixed(limit[long], 1), " m (", fixed(run_pipes[long], 0), " pipes)"
+    )
+    return long, reason
+
+
+def _diameter_hit(columns: dict[str, np.ndarray], *, size: np.ndarray, settings: RuleSettings) -> Hit:
+    size_mm = np.round(size * 1000.0, 6)
+    small = size_mm < settings.min_diameter_mm
+    return small, concat(_size_word(columns, small), fixed(size_mm[small], 0), f" mm < {settings.min_diameter_mm:.0f} mm")
+
+
+def _decrease_hit(
+    columns: dict[str, np.ndarray], size: np.ndarray, upstream: np.ndarray, downstream: np.ndarray, *, nodes: int
+) -> Hit:
+    """Smaller than the largest pipe that ends at this pipe's upstream node."""
+    largest_in = np.full(nodes, -np.inf)
+    feeds = (downstream >= 0) & np.isfinite(size)
+    np.maximum.at(largest_in, downstream[feeds], size[feeds])
+    entering = np.full(len(size), -np.inf)
+    known = upstream >= 0
+    entering[known] = largest_in[upstream[known]]
+    step = size < entering - _SIZE_TOLERANCE
+    reason = concat(
+        _size_word(columns, step), fixed(1000 * size[step], 0), " mm < ", fixed(1000 * entering[step], 0), " mm entering upstream"
+    )
+    return step, reason
+
+
+def _cover_hit(columns: dict[str, np.ndarray], *, settings: RuleSettings) -> Hit:
+    cover = np.fmin(columns["up_cover"], columns["down_cover"])
+    shallow = cover < settings.min_cover_m
+    return shallow, concat("cover ", fixed(cover[shallow], 2), f" m < {settings.min_cover_m:.2f} m")
+
+
+def _missing_hit(columns: dict[str, np.ndarray], *, size: np.ndarray) -> Hit:
+    """What kept a check from running, in words; hydraulic needs only where the slope is positive or unknown."""
+    status, flow_status = columns["hydraulic_status"], columns["flow_status"]
+    slope = columns["slope"]
+    hydraulic = ~(slope <= 0)
+    loop = hydraulic & (flow_status == "cycle")
+    no_flow = hydraulic & ~loop & (
+        (status == "missing_flow") | (flow_status == "missing") | np.isnan(columns["q_design"])
+    )  # fmt: skip
+    no_slope = np.isnan(slope) | (status == "missing_slope")
+    odd = hydraulic & ~np.isin(status, HYDRAULIC_STATUSES)
+    no_size = ~np.isfinite(size) | (status == "missing_size")
+    circular = columns["shape"][no_size] == "circular"
+    hits: list[Hit] = [
+        (no_size, pick(("no size: height missing", "no size: diameter missing"), circular)),
+        (no_slope, _slope_words(columns, no_slope)),
+        (np.isnan(columns["length_m"]), "no length"),
+        (hydraulic & (status == "missing_roughness"), "no roughness"),
+        (no_flow, "no design flow"),
+        (loop, "no design flow: pipe lies on a loop"),
+        (odd, concat("hydraulics not computed (status '", strings(status[odd]), "')")),
+        (np.isnan(columns["up_cover"]) & np.isnan(columns["down_cover"]), "no cover at either end"),
+    ]
+    missing = np.logical_or.reduce([mask for mask, _ in hits])
+    return missing, rows(join(hits, sep=", ", count=len(slope)), missing)
+
+
+def _slope_words(columns: dict[str, np.ndarray], mask: np.ndarray) -> pa.Array:
+    """Which invert is missing, where the frame carries the inverts."""
+    up = np.isnan(columns.get("upstream_invert", np.zeros(len(mask)))[mask])
+    down = np.isnan(columns.get("downstream_invert", np.zeros(len(mask)))[mask])
+    choices = ("no slope", "no slope: upstream invert missing", "no slope: downstream invert missing",
+               "no slope: both inverts missing")  # fmt: skip
+    return pick(choices, up + 2 * down)
+
+
+def _assemble(
+    hits: dict[str, Hit], *, settings: RuleSettings, index: pd.Index, run_length: np.ndarray
+) -> pd.DataFrame:
+    count = len(index)
+    live = {code: hits[code] for code in FLAG_CODES if settings.severity[code] != SEVERITY_OFF}
+    rank = np.zeros(count, dtype=np.int8)
+    for code, (mask, _) in live.items():
+        rank = np.maximum(rank, mask * np.int8(SEVERITY_ORDER.index(settings.severity[code]) + 1))
+    flags = join([(mask, code) for code, (mask, _) in live.items()], sep=";", count=count)
+    return pd.DataFrame(
+        {
+            "flags": pd.array(flags, dtype="str"),
+            "severity": pd.array(pick(("", *SEVERITY_ORDER), rank), dtype="str"),
+            "reasons": pd.array(join(list(live.values()), sep="; ", count=count), dtype="str"),
+            "access_run_m": run_length,
+        },
+        index=index,
+    )

@@ -1,0 +1,250 @@
+"""Thresholds of the design-rule checks and the ``[rules]`` table that sets them.
+
+Every value is SI (metres, m/s, Pa, m/m) except the sizes that key a table by diameter, which
+are in millimetres because that is how the trade writes them. ``RuleSettings.from_table`` is the
+only way from a TOML table to settings; it refuses unknown keys, wrong types and badly formed
+tables with a ``ConfigError`` that names the file and the dotted key.
+"""
+
+from __future__ import annotations
+
+import difflib
+from collections.abc import Mapping
+from dataclasses import dataclass, field, fields
+from types import MappingProxyType
+
+import numpy as np
+
+from audit.errors import ConfigError
+
+#: Severity words from the least to the most serious; "" in an output column means no flag.
+SEVERITY_ORDER: tuple[str, ...] = ("low", "medium", "high")
+
+#: A severity override of "off" switches a flag off entirely.
+SEVERITY_OFF = "off"
+
+#: Flag codes in the fixed order in which they appear in the ``flags`` column, with the
+#: severity each carries by default (reasons in docs/rules.md).
+DEFAULT_SEVERITY: Mapping[str, str] = MappingProxyType(
+    {
+        "surcharge": "high",
+        "near_capacity": "low",
+        "silting": "medium",
+        "high_velocity": "medium",
+        "reverse_grade": "high",
+        "flat_grade": "medium",
+        "long_spacing": "low",
+        "below_min_diameter": "low",
+        "diameter_decrease": "medium",
+        "shallow_cover": "low",
+        "missing_data": "low",
+    }
+)
+
+FLAG_CODES: tuple[str, ...] = tuple(DEFAULT_SEVERITY)
+
+
+@dataclass(frozen=True)
+class DiameterTable:
+    """A value that depends on pipe size, as rows ``(from_diameter_mm, value)`` in ascending order.
+
+    A pipe takes the value of the last row whose ``from_diameter_mm`` is at most its internal
+    size in millimetres; a pipe smaller than the first row takes the first row. A plain number
+    is a table of one row.
+
+    Examples
+    --------
+    >>> table = DiameterTable(from_diameter_mm=(0.0, 457.0), values=(121.92, 152.4))
+    >>> table.lookup(np.array([0.3, 0.457, 0.6, np.nan])).tolist()
+    [121.92, 152.4, 152.4, nan]
+    """
+
+    from_diameter_mm: tuple[float, ...]
+    values: tuple[float, ...]
+
+    def lookup(self, size_m: np.ndarray) -> np.ndarray:
+        """Value per pipe for internal sizes ``size_m`` [m]; NaN where the size is unknown."""
+        size_mm = np.round(np.asarray(size_m, dtype=float) * 1000.0, 6)
+        row = np.searchsorted(np.asarray(self.from_diameter_mm), size_mm, side="right") - 1
+        value = np.asarray(self.values, dtype=float)[np.clip(row, 0, None)]
+        return np.where(np.isnan(size_mm), np.nan, value)
+
+    @property
+    def strictest(self) -> float:
+        """The smallest value of the table."""
+        return min(self.values)
+
+    @classmethod
+    def constant(cls, value: float) -> DiameterTable:
+        """A table of one row: the same value for every size."""
+        return cls(from_diameter_mm=(0.0,), values=(float(value),))
+
+
+# Source: Recommended Standards for Wastewater Facilities (Great Lakes - Upper Mississippi River
+# Board, 2014), sec. 33.41, minimum slopes for n = 0.013, in percent: 8 in 0.40, 10 in 0.28,
+# 12 in 0.22, 15 in 0.15, 18 in 0.12, 21 in 0.10, 24 in 0.08, 27 in 0.067, 30 in 0.058,
+# 36 in 0.046 (from memory). Rows start at the metric nominal size of each inch size (200 mm for
+# 8 in, ...), so both a 300 mm and a 304.8 mm (12 in) pipe take the 12 in slope; a size between
+# two rows takes the steeper slope of the smaller one. Slopes are m/m.
+RSWF_MIN_SLOPE = DiameterTable(
+    from_diameter_mm=(200.0, 250.0, 300.0, 375.0, 450.0, 525.0, 600.0, 675.0, 750.0, 900.0),
+    values=(0.0040, 0.0028, 0.0022, 0.0015, 0.0012, 0.0010, 0.0008, 0.00067, 0.00058, 0.00046),
+)
+
+# Source: Recommended Standards for Wastewater Facilities (Great Lakes - Upper Mississippi River
+# Board, 2014), manhole spacing: 400 ft for 15 in and smaller, 500 ft for 18 to 30 in
+# (from memory). 400 ft = 121.92 m, 500 ft = 152.4 m; 18 in = 457.2 mm.
+RSWF_MAX_SPACING = DiameterTable(from_diameter_mm=(0.0, 457.0), values=(121.92, 152.4))
+
+
+def _default_severity() -> Mapping[str, str]:
+    return MappingProxyType(dict(DEFAULT_SEVERITY))
+
+
+@dataclass(frozen=True)
+class RuleSettings:
+    """Thresholds of the design-rule checks (SI units).
+
+    Attributes
+    ----------
+    max_load_ratio : design flow over full-bore capacity above which a pipe surcharges [-]
+    near_capacity_ratio : load ratio above which a pipe is near capacity [-]
+    min_velocity : least velocity at design flow against silting [m/s]
+    min_shear : least boundary shear at design flow [Pa]; None: not checked
+    max_velocity : greatest velocity at design flow against scour [m/s]
+    min_slope : least slope by diameter [m/m]; None: only a zero slope is flagged
+    min_diameter_mm : least internal size of a public gravity sewer [mm]
+    min_cover_m : least cover over the pipe at either end [m]
+    max_spacing_m : greatest length of pipe between access points, by diameter [m]
+    severity : severity of each flag code, or "off" to switch the flag off
+    """
+
+    max_load_ratio: float = 1.0  # common practice, no source
+    near_capacity_ratio: float = 0.8  # common practice, no source
+    min_velocity: float = 0.6  # 2 ft/s, common North American figure, from memory
+    min_shear: float | None = None
+    max_velocity: float = 3.0  # common practice, no source
+    min_slope: DiameterTable | None = None
+    min_diameter_mm: float = 200.0  # 8 in in many codes, from memory
+    min_cover_m: float = 0.9  # common practice, no source
+    max_spacing_m: DiameterTable = RSWF_MAX_SPACING
+    severity: Mapping[str, str] = field(default_factory=_default_severity)
+
+    @classmethod
+    def from_table(cls, table: Mapping[str, object], *, source: str) -> RuleSettings:
+        """Settings from the ``[rules]`` table of a config file.
+
+        Parameters
+        ----------
+        table : the parsed ``[rules]`` table; absent keys keep their defaults
+        source : the config file's name, for error messages
+
+        Raises
+        ------
+        ConfigError
+            for an unknown key, a value of the wrong type or a badly formed table, naming
+            ``source``, the dotted key ``rules.<key>`` and what was expected.
+        """
+        if not isinstance(table, Mapping):
+            raise ConfigError(f"{source}: rules: expected a table of settings, got {_kind(table)}")
+        names = [item.name for item in fields(cls)]
+        for key in table:
+            if key not in names:
+                raise ConfigError(f"{source}: rules.{key}: unknown key{_did_you_mean(str(key), names)}")
+        values: dict[str, object] = {}
+        for key, raw in table.items():
+            values[key] = _PARSERS[key](raw, source=source, key=f"rules.{key}")
+        settings = cls(**values)  # type: ignore[arg-type]
+        _check_consistent(settings, source=source)
+        return settings
+
+
+def _kind(value: object) -> str:
+    return f"{type(value).__name__} {value!r}"
+
+
+def _did_you_mean(word: str, choices: list[str] | tuple[str, ...]) -> str:
+    close = difflib.get_close_matches(word, choices, n=1)
+    return f" (did you mean {close[0]!r}?)" if close else f"; expected one of {', '.join(choices)}"
+
+
+def _number(raw: object, *, source: str, key: str) -> float:
+    if isinstance(raw, bool) or not isinstance(raw, int | float) or not np.isfinite(raw):
+        raise ConfigError(f"{source}: {key}: expected a finite number, got {_kind(raw)}")
+    return float(raw)
+
+
+def _non_negative(raw: object, *, source: str, key: str) -> float:
+    value = _number(raw, source=source, key=key)
+    if value < 0:
+        raise ConfigError(f"{source}: {key}: expected a number >= 0, got {value!r}")
+    return value
+
+
+def _positive(raw: object, *, source: str, key: str) -> float:
+    value = _number(raw, source=source, key=key)
+    if value <= 0:
+        raise ConfigError(f"{source}: {key}: expected a number > 0, got {value!r}")
+    return value
+
+
+def _by_diameter(raw: object, *, source: str, key: str) -> DiameterTable:
+    if not isinstance(raw, bool) and isinstance(raw, int | float):
+        return DiameterTable.constant(_positive(raw, source=source, key=key))
+    expected = "a number or a list of [from_diameter_mm, value] rows in ascending order"
+    if not isinstance(raw, list | tuple) or not raw:
+        raise ConfigError(f"{source}: {key}: expected {expected}, got {_kind(raw)}")
+    starts: list[float] = []
+    values: list[float] = []
+    for index, row in enumerate(raw):
+        where = f"{key}[{index}]"
+        if not isinstance(row, list | tuple) or len(row) != 2:
+            raise ConfigError(f"{source}: {where}: expected a row [from_diameter_mm, value], got {_kind(row)}")
+        starts.append(_non_negative(row[0], source=source, key=f"{where}[0]"))
+        values.append(_positive(row[1], source=source, key=f"{where}[1]"))
+        if index and starts[-1] <= starts[-2]:
+            raise ConfigError(
+                f"{source}: {where}: from_diameter_mm must ascend, got {starts[-1]:g} after {starts[-2]:g}"
+            )
+    return DiameterTable(from_diameter_mm=tuple(starts), values=tuple(values))
+
+
+def _severity(raw: object, *, source: str, key: str) -> Mapping[str, str]:
+    if not isinstance(raw, Mapping):
+        raise ConfigError(f"{source}: {key}: expected a table of flag = severity, got {_kind(raw)}")
+    words = (*SEVERITY_ORDER, SEVERITY_OFF)
+    merged = dict(DEFAULT_SEVERITY)
+    for flag, word in raw.items():
+        if flag not in DEFAULT_SEVERITY:
+            raise ConfigError(f"{source}: {key}.{flag}: unknown flag{_did_you_mean(str(flag), FLAG_CODES)}")
+        if word not in words:
+            raise ConfigError(f"{source}: {key}.{flag}: expected one of {', '.join(words)}, got {_kind(word)}")
+        merged[flag] = str(word)
+    return MappingProxyType(merged)
+
+
+_PARSERS = {
+    "max_load_ratio": _positive,
+    "near_capacity_ratio": _positive,
+    "min_velocity": _non_negative,
+    "min_shear": _non_negative,
+    "max_velocity": _positive,
+    "min_slope": _by_diameter,
+    "min_diameter_mm": _non_negative,
+    "min_cover_m": _non_negative,
+    "max_spacing_m": _by_diameter,
+    "severity": _severity,
+}
+
+
+def _check_consistent(settings: RuleSettings, *, source: str) -> None:
+    if settings.near_capacity_ratio > settings.max_load_ratio:
+        raise ConfigError(
+            f"{source}: rules.near_capacity_ratio: expected at most rules.max_load_ratio "
+            f"({settings.max_load_ratio:g}), got {settings.near_capacity_ratio:g}"
+        )
+    if settings.min_velocity >= settings.max_velocity:
+        raise ConfigError(
+            f"{source}: rules.min_velocity: expected less than rules.max_velocity "
+            f"({settings.max_velocity:g}), got {settings.min_velocity:g}"
+        )

@@ -1,0 +1,42 @@
+"""candidates.csv as written through Arrow: text survives quoting, unknowns are empty, sizes keep '.0'."""
+
+import csv
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+
+from audit.outputs.candidates import write_candidates
+
+
+def _rows(path: Path) -> list[dict[str, str]]:
+    with path.open(encoding="utf-8", newline="") as handle:
+        return list(csv.DictReader(handle))
+
+
+def test_text_with_commas_quotes_and_newlines_reads_back_unchanged(tmp_path: Path) -> None:
+    awkward = ['cover 0.5 m, "shallow"', "two\nlines", "plain", None]
+    table = pd.DataFrame({"rank": [1, 2, 3, 4], "reasons": pd.Series(awkward, dtype=object)})
+    write_candidates(table, tmp_path / "c.csv")
+    assert [row["reasons"] for row in _rows(tmp_path / "c.csv")] == ['cover 0.5 m, "shallow"', "two\nlines", "plain", ""]
+
+
+def test_numbers_unknowns_and_whole_sizes(tmp_path: Path) -> None:
+    table = pd.DataFrame({
+        "rank": [1, 2], "load_ratio": [1.235, np.nan], "slope": [0.00123, 0.5],
+        "diameter_mm": [225.0, np.nan], "install_year": [1968.0, np.inf],
+    })  # fmt: skip
+    write_candidates(table, tmp_path / "c.csv")
+    rows = _rows(tmp_path / "c.csv")
+    assert [row["rank"] for row in rows] == ["1", "2"]
+    assert [row["load_ratio"] for row in rows] == ["1.235", ""]
+    assert [row["slope"] for row in rows] == ["0.00123", "0.5"]
+    assert [row["diameter_mm"] for row in rows] == ["225.0", ""]
+    assert [row["install_year"] for row in rows] == ["1968.0", ""]
+    assert (tmp_path / "c.csv").read_bytes().count(b"\r") == 0
+
+
+def test_mixed_objects_are_written_as_their_text(tmp_path: Path) -> None:
+    table = pd.DataFrame({"rank": [1, 2, 3], "material": pd.Series(["clay", 7, None], dtype=object)})
+    write_candidates(table, tmp_path / "c.csv")
+    assert [row["material"] for row in _rows(tmp_path / "c.csv")] == ["clay", "7", ""]
