@@ -12,8 +12,9 @@ order, outfalls), ``findings`` (network findings in bulk), ``levels`` (lengths, 
 cover), ``settings`` (``[network]``).
 """
 
-from audit.network.build import Network, build_network, pipe_labels
-from audit.network.ids import arrow_text
+from audit.network.build import build_network
+from audit.network.graph import Network
+from audit.network.ids import arrow_text, pipe_labels
 from audit.network.levels import LEVEL_COLUMNS, derive_levels
 from audit.network.settings import DIRECTIONS, NetworkOptions, parse_network
 

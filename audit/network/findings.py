@@ -9,18 +9,15 @@ the first pipe that touches it.
 
 from __future__ import annotations
 
-from typing import TYPE_CHECKING
-
 import geopandas as gpd
 import numpy as np
 import pandas as pd
 import shapely
 
 from audit.findings import FindingLog
+from audit.network.graph import Network
+from audit.network.joining import JoinedEnds
 from audit.network.snapping import midpoints
-
-if TYPE_CHECKING:
-    from audit.network.build import Network, _Joined
 
 _END_NAMES = np.array(["from", "to"], dtype=object)
 _FLOW_END_NAMES = np.array(["upstream", "downstream"], dtype=object)
@@ -55,7 +52,7 @@ def duplicate_ids(manholes: gpd.GeoDataFrame, repeated: np.ndarray, *, findings:
     findings.add_many("manholes", ids, "duplicate_id", messages, x=shapely.get_x(geometry), y=shapely.get_y(geometry))
 
 
-def join_findings(joined: _Joined, *, pipe_ids: np.ndarray, unplaced: np.ndarray, findings: FindingLog) -> None:
+def join_findings(joined: JoinedEnds, *, pipe_ids: np.ndarray, findings: FindingLog) -> None:
     """``unknown_node`` per end whose id names no manhole, ``unplaced_pipe`` per unplaced pipe."""
     pipe, end = np.nonzero(joined.unknown)
     node = joined.end_node[pipe, end]
@@ -69,7 +66,7 @@ def join_findings(joined: _Joined, *, pipe_ids: np.ndarray, unplaced: np.ndarray
     )
     xy = joined.end_xy[pipe, end]
     findings.add_many("pipes", pipe_ids[pipe], "unknown_node", messages, x=xy[:, 0], y=xy[:, 1])
-    lost = np.flatnonzero(unplaced)
+    lost = np.flatnonzero(joined.unplaced)
     messages = "pipe " + _text(pipe_ids[lost]) + ": an end has no usable geometry and no known node id; left out of the network"
     findings.add_many("pipes", pipe_ids[lost], "unplaced_pipe", messages)
 
@@ -87,7 +84,7 @@ def reversed_pipes(
     findings.add_many("pipes", pipe_ids[rows], "reversed_by_inverts", messages, x=x, y=y)
 
 
-def drawn_against_flow(joined: _Joined, backwards: np.ndarray, *, pipes: gpd.GeoDataFrame, pipe_ids: np.ndarray, findings: FindingLog) -> None:
+def drawn_against_flow(joined: JoinedEnds, backwards: np.ndarray, *, pipes: gpd.GeoDataFrame, pipe_ids: np.ndarray, findings: FindingLog) -> None:
     """``drawn_against_flow`` per pipe drawn from its to-manhole to its from-manhole."""
     rows = np.flatnonzero(backwards)
     if rows.size == 0:

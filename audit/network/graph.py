@@ -1,6 +1,6 @@
 """Graph questions on the integer arrays of a network: parts, cycles, order, outfalls.
 
-A network is held as two int64 arrays, the upstream and downstream node of every pipe (-1 for a
+A network (:class:`Network`) is held as two int64 arrays, the upstream and downstream node of every pipe (-1 for a
 pipe that is not placed). Every answer here is a handful of numpy / scipy.sparse operations over
 all pipes; the topological order runs Kahn's algorithm one level at a time, so its Python loop
 turns once per level of the network, never once per pipe.
@@ -8,9 +8,42 @@ turns once per level of the network, never once per pipe.
 
 from __future__ import annotations
 
+from dataclasses import dataclass
+
 import numpy as np
+import pandas as pd
 from scipy.sparse import coo_matrix
 from scipy.sparse.csgraph import connected_components
+
+
+@dataclass(frozen=True, eq=False)
+class Network:
+    """A sewer network as integer arrays over pipe positions (0 .. n-1, in input order).
+
+    Attributes
+    ----------
+    nodes : one row per node, columns ``NODE_COLUMNS``; manholes first (in layer order), then
+        junctions; ``manhole_row`` is the row in the manhole layer, -1 for a junction
+    upstream, downstream : int64 node index per pipe in flow direction; -1 for a pipe that
+        could not be placed (no usable geometry and no known ids)
+    reversed : bool per pipe, True where flow runs from the last vertex to the first
+    order : int64 pipe positions, every pipe after all pipes upstream of it; pipes on cycles
+        follow, then pipes that are not placed
+    in_cycle : bool per pipe, True for a pipe on a directed cycle (a self loop included)
+    component : int64 connected part per pipe (0 = the part with most pipes), -1 if not placed
+    outfalls : int64 node indices that pipes flow into and that no pipe leaves
+    direction : the direction rule that was applied (``"ids"``, ``"digitised"``, ``"inverts"``)
+    """
+
+    nodes: pd.DataFrame
+    upstream: np.ndarray
+    downstream: np.ndarray
+    reversed: np.ndarray
+    order: np.ndarray
+    in_cycle: np.ndarray
+    component: np.ndarray
+    outfalls: np.ndarray
+    direction: str
 
 
 def _adjacency(upstream: np.ndarray, downstream: np.ndarray, node_count: int) -> coo_matrix:

@@ -103,3 +103,24 @@ def first_appearance(codes: np.ndarray) -> np.ndarray:
     """
     before = np.maximum.accumulate(np.r_[-1, codes[:-1]]) if codes.size else codes
     return codes > before
+
+
+def pipe_labels(pipes: pd.DataFrame) -> np.ndarray:
+    """The id that names each pipe in findings: ``pipe_id``, or ``#<row>`` where it is missing.
+
+    Examples
+    --------
+    >>> pipe_labels(pd.DataFrame({"pipe_id": ["P1", None]})).tolist()
+    ['P1', '#1']
+    """
+    if "pipe_id" in pipes.columns and isinstance(pipes["pipe_id"].dtype, pd.StringDtype):
+        given = pipes["pipe_id"].to_numpy(dtype=object)
+        missing = pd.isna(given)
+        if not missing.any():  # the layers stage names every pipe: nothing to fill or convert
+            return given
+    rows = pd.Series(np.arange(len(pipes)).astype(str), dtype=object)
+    fallback = "#" + rows
+    if "pipe_id" not in pipes.columns:
+        return fallback.to_numpy(dtype=object)
+    given = pd.Series(pipes["pipe_id"].to_numpy(dtype=object))
+    return given.where(given.notna(), fallback).astype(str).to_numpy(dtype=object)

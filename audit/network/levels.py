@@ -16,18 +16,60 @@ import shapely
 
 from audit.errors import ConfigError, InputError
 from audit.findings import FindingLog
-from audit.network.build import (
-    Network,
-    digitised_end_levels,
-    node_invert_levels,
-    pipe_labels,
-)
+from audit.network.graph import Network
+from audit.network.ids import pipe_labels
 from audit.network.snapping import midpoints
 
 LEVEL_COLUMNS = (
     "length_m", "geometry_length_m", "up_invert", "down_invert", "invert_source",
     "slope", "up_cover", "down_cover",
 )
+
+
+def node_invert_levels(nodes: pd.DataFrame) -> np.ndarray:
+    """Invert level of every node: its invert, else rim minus depth [m]; NaN when unknown.
+
+    .. math:: z_{invert} = z_{rim} - d
+
+    Examples
+    --------
+    >>> frame = pd.DataFrame({"invert": [10.0, np.nan], "rim": [12.0, 12.0], "depth": [1.0, 1.5]})
+    >>> node_invert_levels(frame).tolist()
+    [10.0, 10.5]
+    """
+    invert = nodes["invert"].to_numpy(dtype=float)
+    return np.where(np.isnan(invert), nodes["rim"].to_numpy(float) - nodes["depth"].to_numpy(float), invert)
+
+
+def digitised_end_levels(
+    pipes: pd.DataFrame, end_node: np.ndarray, node_level: np.ndarray
+) -> tuple[np.ndarray, np.ndarray]:
+    """Invert level at each end in digitising order, and whether it came from the pipe's fields.
+
+    The pipe's ``upstream_invert`` / ``downstream_invert`` (as digitised) win; where one is
+    missing, the node at that end gives its level.
+
+    Parameters
+    ----------
+    pipes : canonical pipe layer
+    end_node : int64 (n, 2) node index of the first and last vertex, -1 where unknown
+    node_level : invert level per node [m], NaN where unknown (see :func:`node_invert_levels`)
+
+    Returns
+    -------
+    levels : float (n, 2) [m], NaN where unknown
+    from_pipe : bool (n, 2)
+    """
+    count = len(pipes)
+    given = np.stack(
+        [pipes[name].to_numpy(dtype=float) if name in pipes else np.full(count, np.nan)
+         for name in ("upstream_invert", "downstream_invert")],
+        axis=1,
+    )
+    padded = np.r_[np.asarray(node_level, dtype=float), np.nan]
+    at_node = padded[np.where(end_node >= 0, end_node, len(padded) - 1)]
+    from_pipe = ~np.isnan(given)
+    return np.where(from_pipe, given, at_node), from_pipe
 
 
 def derive_levels(
