@@ -56,9 +56,10 @@ class ConfigProblems:
         if not isinstance(data, dict):
             self.fail(key, "a table", data)
             return {}
-        for name in data if allowed is not None else ():
-            if name not in allowed:
-                self._unknown(f"{key}.{name}" if key else name, name, allowed)
+        if allowed is not None:
+            for name in data:
+                if name not in allowed:
+                    self._unknown(f"{key}.{name}" if key else name, name, allowed)
         return data
 
     def _unknown(self, dotted: str, name: str, allowed: tuple[str, ...]) -> None:

@@ -170,11 +170,11 @@ def network_totals(layers: Layers, network: Network, computed: pd.DataFrame) -> 
     }
     placed = network.component >= 0
     return {
-        "pipes": int(len(canonical)),
+        "pipes": len(canonical),
         "length_m": round(float(np.nansum(computed["length_m"].to_numpy(dtype=float))), 1),
-        "manholes": int(len(layers.manholes.canonical)) if layers.manholes is not None else 0,
+        "manholes": len(layers.manholes.canonical) if layers.manholes is not None else 0,
         "junctions": int((network.nodes["kind"] == "junction").sum()),
-        "outfalls": int(len(network.outfalls)),
+        "outfalls": len(network.outfalls),
         "components": int(np.unique(network.component[placed]).size),
         "pipes_on_loops": int(np.sum(network.in_cycle)),
         "pipes_evaluated": int(np.sum(evaluated)),

@@ -20,6 +20,7 @@ seconds per stage, best of ``--repeat`` runs. It asserts nothing: speed is read,
 from __future__ import annotations
 
 import argparse
+import itertools
 import json
 import shutil
 import subprocess
@@ -246,7 +247,7 @@ def audit_run(config: Path, outdir: Path) -> dict[str, float]:
     total = time.perf_counter() - start
     if code not in (0, 3):
         raise SystemExit(f"the audit of {config} exited with code {code}")
-    seconds = {name: later - now for (name, now), (_, later) in zip(marks, marks[1:], strict=False)}
+    seconds = {name: later - now for (name, now), (_, later) in itertools.pairwise(marks)}
     seconds.pop("end of run", None)
     return {"total": total, **seconds}
 

@@ -15,8 +15,8 @@ import time
 import numpy as np
 
 from audit.hydraulics.friction import Friction
-from audit.hydraulics.uniform import FlowStatus, full_bore, normal_depth
 from audit.hydraulics.sections import PipeSections
+from audit.hydraulics.uniform import FlowStatus, full_bore, normal_depth
 
 COMMERCIAL_SIZES_M = np.array([0.15, 0.225, 0.3, 0.375, 0.45, 0.6, 0.75, 0.9, 1.2, 1.5])
 

@@ -83,7 +83,7 @@ def main() -> None:
     snapped = pipes.assign(from_node=None, to_node=None)
     for label, layer in (("by snapping", snapped), ("by ids", pipes)):
         log = FindingLog()
-        seconds, network = timed(lambda: build_network(layer, manholes, snap_tolerance_m=1.0, findings=log))
+        seconds, network = timed(lambda layer=layer, log=log: build_network(layer, manholes, snap_tolerance_m=1.0, findings=log))
         outfalls = len(network.outfalls)  # type: ignore[attr-defined]
         print(f"build_network {label}: {seconds:.2f} s, {seconds / base:.1f} x floor; "
               f"{outfalls} outfall(s), {len(log)} finding(s)")

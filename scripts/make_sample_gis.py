@@ -35,10 +35,10 @@ import pyogrio
 
 sys.path.insert(0, str(Path(__file__).resolve().parent))  # the _sample_town parts beside this script
 
-from _sample_town.layout import build_town  # noqa: E402
-from _sample_town.plan import CRS, SEED, TIMESTAMP  # noqa: E402
-from _sample_town.planted import ErrorBook, error_report, network_errors, typing_errors  # noqa: E402
-from _sample_town.register import catchment_layer, register_tables  # noqa: E402
+from _sample_town.layout import build_town
+from _sample_town.plan import CRS, SEED, TIMESTAMP
+from _sample_town.planted import ErrorBook, error_report, network_errors, typing_errors
+from _sample_town.register import catchment_layer, register_tables
 
 
 def write_town(outdir: Path, *, seed: int = SEED) -> None:

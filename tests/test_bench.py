@@ -23,7 +23,8 @@ SCRIPT = Path(__file__).resolve().parent.parent / "scripts" / "bench.py"
 @pytest.fixture(scope="module")
 def bench() -> ModuleType:
     spec = importlib.util.spec_from_file_location("bench_script", SCRIPT)
-    assert spec is not None and spec.loader is not None
+    assert spec is not None
+    assert spec.loader is not None
     module = importlib.util.module_from_spec(spec)
     sys.modules[spec.name] = module
     spec.loader.exec_module(module)
@@ -62,5 +63,6 @@ def test_the_benchmark_prints_a_row_per_size_and_a_column_per_stage(bench: Modul
     rows = [[cell.strip() for cell in line.strip("|").split("|")] for line in lines[2:]]
     assert [row[0] for row in rows] == ["1,500", "2,500"]
     numbers = np.array([[float(cell) for cell in row[1:]] for row in rows])
-    assert np.isfinite(numbers).all() and (numbers >= 0).all()
+    assert np.isfinite(numbers).all()
+    assert (numbers >= 0).all()
     assert (numbers[:, 1:3] > 0).all()  # audit seconds and the ratio

@@ -5,8 +5,8 @@ from pathlib import Path
 
 import geopandas as gpd
 import pytest
-
 from _small_town import write_town
+
 from audit import cli
 
 
@@ -46,7 +46,8 @@ def test_run_writes_layers_that_hand_back_every_feature_and_field(tmp_path: Path
     assert written.crs == original.crs
     assert set(written.loc[written["REF"] == "P3", "flags"].iloc[0].split(";")) == {"surcharge", "below_min_diameter", "diameter_decrease"}
     manholes = gpd.read_file(tmp_path / "out" / "audit.gpkg", layer="manholes")
-    assert len(manholes) == 6 and manholes.loc[manholes["MH"] == "E", "pipes_in"].iloc[0] == 1
+    assert len(manholes) == 6
+    assert manholes.loc[manholes["MH"] == "E", "pipes_in"].iloc[0] == 1
     summary = json.loads((tmp_path / "out" / "summary.json").read_text())
     assert summary["flags"]["surcharge"]["pipes"] == 1
     assert "licensed engineer" in summary["caution"]
@@ -68,7 +69,9 @@ def test_exit_codes_for_scripts(tmp_path: Path, capsys: pytest.CaptureFixture[st
     capsys.readouterr()
     assert cli.main(["run", str(bad), "-o", str(tmp_path / "o2")]) == cli.EXIT_BAD_INPUT
     error = capsys.readouterr().err
-    assert "bad.toml" in error and "hydraulics.formula" in error and "Traceback" not in error
+    assert "bad.toml" in error
+    assert "hydraulics.formula" in error
+    assert "Traceback" not in error
     # a mapped field that the layer does not have: exit 1 naming the field
     config.write_text(config.read_text().replace('diameter = "DIA"', 'diameter = "BORE"'), encoding="utf-8")
     assert cli.main(["run", str(config), "-o", str(tmp_path / "o3")]) == cli.EXIT_BAD_INPUT
@@ -81,5 +84,7 @@ def test_exit_codes_for_scripts(tmp_path: Path, capsys: pytest.CaptureFixture[st
 def test_demo_runs_on_the_bundled_town_and_prints_a_table(tmp_path: Path, capsys: pytest.CaptureFixture[str]) -> None:
     assert cli.main(["demo", "-o", str(tmp_path / "demo")]) == cli.EXIT_OK
     text = capsys.readouterr().out
-    assert "surcharge" in text and "audit.gpkg" in text and "licensed engineer" in text
+    assert "surcharge" in text
+    assert "audit.gpkg" in text
+    assert "licensed engineer" in text
     assert {path.name for path in (tmp_path / "demo").iterdir()} >= {"audit.gpkg", "summary.json", "candidates.csv", "report.html"}

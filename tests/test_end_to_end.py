@@ -12,9 +12,9 @@ import geopandas as gpd
 import numpy as np
 import pytest
 import shapely
+from _small_town import DESIGN_FLOW_LS, EXPECTED_FLAGS, PIPES, N, write_town
 from scipy.optimize import brentq
 
-from _small_town import DESIGN_FLOW_LS, EXPECTED_FLAGS, N, PIPES, write_town
 from audit.pipeline import run
 
 RHO_15C = 999.10  # kg/m3 at 15 C, to 5 figures (Tanaka et al. 2001, from memory)
@@ -56,7 +56,8 @@ def test_flags_and_numbers_match_an_independent_computation(tmp_path: Path, driv
         assert row["q_design"] == pytest.approx(DESIGN_FLOW_LS[ref] / 1000, rel=1e-12)
         assert set(filter(None, row["flags"].split(";"))) == EXPECTED_FLAGS[ref], ref
         if slope <= 0:
-            assert np.isnan(row["q_full"]) and np.isnan(row["v_design"])
+            assert np.isnan(row["q_full"])
+            assert np.isnan(row["v_design"])
             assert row["hydraulic_status"] == "nonpositive_slope"
             continue
         expected = independent_hydraulics(diameter_mm / 1000, slope, DESIGN_FLOW_LS[ref] / 1000)
@@ -64,9 +65,11 @@ def test_flags_and_numbers_match_an_independent_computation(tmp_path: Path, driv
             tolerance = 1e-5 if name == "shear" else 1e-6  # the density above has 5 figures
             assert row[name] == pytest.approx(value, rel=tolerance), (ref, name)
         assert row["load_ratio"] == pytest.approx(DESIGN_FLOW_LS[ref] / 1000 / expected["q_full"], rel=1e-6)
-    assert pipes.loc["P3", "severity"] == "high" and pipes.loc["P2", "severity"] == "high"
+    assert pipes.loc["P3", "severity"] == "high"
+    assert pipes.loc["P2", "severity"] == "high"
     assert pipes.loc["P1", "severity"] == ""
-    assert result.totals["outfalls"] == 1 and result.totals["pipes"] == 5
+    assert result.totals["outfalls"] == 1
+    assert result.totals["pipes"] == 5
     # the reasons carry the numbers: P3's load ratio by hand
     p3 = independent_hydraulics(0.15, 0.04 / 40.0, 0.0355)
     assert f"load ratio {0.0355 / p3['q_full']:.2f}" in pipes.loc["P3", "reasons"]
@@ -92,12 +95,16 @@ def test_a_user_field_named_like_a_result_is_kept_and_the_result_renamed(tmp_pat
     pipes["flags"] = 7
     pipes.to_file(tmp_path / "pipes.gpkg", driver="GPKG")
     result = run(config)
-    assert result.pipes["Slope"].eq("as surveyed").all() and result.pipes["flags"].eq(7).all()
-    assert "audit_slope" in result.pipes.columns and "audit_flags" in result.pipes.columns
+    assert result.pipes["Slope"].eq("as surveyed").all()
+    assert result.pipes["flags"].eq(7).all()
+    assert "audit_slope" in result.pipes.columns
+    assert "audit_flags" in result.pipes.columns
     p2 = result.pipe_results.loc[result.pipes["REF"] == "P2"].iloc[0]
-    assert p2["flags"] == "reverse_grade" and p2["slope"] < 0
+    assert p2["flags"] == "reverse_grade"
+    assert p2["slope"] < 0
     renamed = result.findings[result.findings["code"] == "field_renamed"]
-    assert len(renamed) == 2 and renamed["message"].str.contains("audit_slope").any()
+    assert len(renamed) == 2
+    assert renamed["message"].str.contains("audit_slope").any()
 
 
 def test_every_configured_layer_file_counts_as_an_input(tmp_path: Path) -> None:

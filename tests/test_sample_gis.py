@@ -43,7 +43,8 @@ EGG_AREA, EGG_RADIUS = 1.1486, 0.2897  # full standard egg, A = c B^2, R = c B  
 
 def _generator() -> ModuleType:
     spec = importlib.util.spec_from_file_location("make_sample_gis", ROOT / "scripts" / "make_sample_gis.py")
-    assert spec is not None and spec.loader is not None
+    assert spec is not None
+    assert spec.loader is not None
     module = importlib.util.module_from_spec(spec)
     sys.modules.setdefault(spec.name, module)
     spec.loader.exec_module(module)
@@ -107,9 +108,11 @@ def test_bundled_town_equals_a_fresh_run(fresh: Path) -> None:
 def test_register_has_a_few_hundred_pipes_in_metres(pipes: gpd.GeoDataFrame, manholes: gpd.GeoDataFrame) -> None:
     assert 300 <= len(pipes) <= 400
     assert len(manholes) >= len(pipes)
-    assert set(pipes.geom_type) == {"LineString"} and set(manholes.geom_type) == {"Point"}
+    assert set(pipes.geom_type) == {"LineString"}
+    assert set(manholes.geom_type) == {"Point"}
     for layer in (pipes, manholes):
-        assert layer.crs.to_epsg() == 32630 and layer.crs.axis_info[0].unit_name == "metre"
+        assert layer.crs.to_epsg() == 32630
+        assert layer.crs.axis_info[0].unit_name == "metre"
 
 
 def test_every_pipe_end_names_a_manhole_but_the_listed_typo(pipes: gpd.GeoDataFrame, manholes: gpd.GeoDataFrame,
@@ -127,12 +130,17 @@ def test_exactly_two_outfalls(pipes: gpd.GeoDataFrame, manholes: gpd.GeoDataFram
 def test_sections_materials_and_years_are_plausible(pipes: gpd.GeoDataFrame, errors: pd.DataFrame) -> None:
     bad = _fids(errors, "sentinel_diameter") + _fids(errors, "null_diameter") + _fids(errors, "zero_diameter")
     circular = pipes[(pipes["profile"] == "C") & ~pipes.index.isin(bad)]
-    assert set(circular["bore_mm"]) <= CIRCULAR_MM and {225, 900, LARGEST_MM} <= set(circular["bore_mm"])
+    assert set(circular["bore_mm"]) <= CIRCULAR_MM
+    assert {225, 900, LARGEST_MM} <= set(circular["bore_mm"])
     egg = pipes[pipes["profile"] == "OV"]
     assert egg["span_mm"].max() <= LARGEST_MM
-    assert len(egg) >= 3 and (egg["rise_mm"] == 1.5 * egg["span_mm"]).all() and egg["bore_mm"].isna().all()
-    assert set(egg["mat"]) == {"BRICK"} and set(pipes["mat"]) == {"BRICK", "CONC", "PVC", "VC"}
-    assert pipes["laid"].between(1890, 2015).all() and pipes["laid"].min() < 1900 < 2010 < pipes["laid"].max()
+    assert len(egg) >= 3
+    assert (egg["rise_mm"] == 1.5 * egg["span_mm"]).all()
+    assert egg["bore_mm"].isna().all()
+    assert set(egg["mat"]) == {"BRICK"}
+    assert set(pipes["mat"]) == {"BRICK", "CONC", "PVC", "VC"}
+    assert pipes["laid"].between(1890, 2015).all()
+    assert pipes["laid"].min() < 1900 < 2010 < pipes["laid"].max()
     assert pipes.loc[bad, "bore_mm"].isna().tolist() == [False, True, False]
     assert pipes.loc[bad, "bore_mm"].fillna(1).tolist() == [-9999.0, 1, 0.0]
 
@@ -232,7 +240,7 @@ def _design_m3s(fresh: Path, pipes: gpd.GeoDataFrame, manholes: gpd.GeoDataFrame
     to_node = _to_node(pipes, manholes)
     length = pipes.geometry.length
     graph = nx.DiGraph()
-    graph.add_weighted_edges_from(zip(pipes["mh_up"], to_node, length))
+    graph.add_weighted_edges_from(zip(pipes["mh_up"], to_node, length, strict=True))
     catchments = _read(fresh, "catchments").set_index("outlet_mh")
     persons = catchments["persons"].reindex(manholes.index).fillna(0)
     share = catchments["imp_share"]
@@ -319,7 +327,8 @@ def test_config_parses_and_maps_existing_fields(pipes: gpd.GeoDataFrame, manhole
     catchments = _read(SAMPLE, "catchments")
     for name, layer in (("pipes", pipes), ("manholes", manholes), ("catchments", catchments)):
         section = config[name]
-        assert (SAMPLE / section["path"]).is_file() and section["layer"] == name
+        assert (SAMPLE / section["path"]).is_file()
+        assert section["layer"] == name
         assert set(section["fields"].values()) <= set(layer.columns)
         assert set(section.get("units", {})) <= set(section["fields"])
     assert set(config["pipes"]["shapes"]) == set(pipes["profile"])
@@ -329,8 +338,10 @@ def test_config_parses_and_maps_existing_fields(pipes: gpd.GeoDataFrame, manhole
 
 def test_catchments_hold_the_people_behind_the_manhole_loads(fresh: Path, manholes: gpd.GeoDataFrame) -> None:
     catchments = _read(fresh, "catchments")
-    assert set(catchments.geom_type) <= {"Polygon", "MultiPolygon"} and catchments.crs.to_epsg() == 32630
-    assert catchments["outlet_mh"].is_unique and catchments["outlet_mh"].isin(manholes.index).all()
+    assert set(catchments.geom_type) <= {"Polygon", "MultiPolygon"}
+    assert catchments.crs.to_epsg() == 32630
+    assert catchments["outlet_mh"].is_unique
+    assert catchments["outlet_mh"].isin(manholes.index).all()
     assert catchments["imp_share"].between(0, 1).all()
     assert catchments.union_all().area == pytest.approx(catchments.area.sum(), rel=1e-6)  # the cells do not overlap
     outlets = manholes.loc[catchments["outlet_mh"]].geometry.to_numpy()

@@ -45,7 +45,7 @@ def test_cubic_foot_is_the_cube_of_the_foot_exactly() -> None:
 
 def test_gallon_definition_is_231_cubic_inches() -> None:
     # Source: NIST SP 811 (2008), appendix B: the US gallon is 231 in^3
-    assert 231 * INCH**3 * 1000 == pytest.approx(GALLON_L, rel=1e-12)
+    assert pytest.approx(GALLON_L, rel=1e-12) == 231 * INCH**3 * 1000
     assert FLOW_FACTORS["gpm"] * 60 * 1000 == pytest.approx(GALLON_L, rel=1e-12)
 
 

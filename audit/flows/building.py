@@ -73,12 +73,12 @@ def built_flows(network: Network, *, manholes: pd.DataFrame | None, catchments: 
     """
     nodes = network.nodes
     inflow = nodes["inflow"].to_numpy(dtype=float)
-    arrays = {"upstream": network.upstream, "downstream": network.downstream, "order": network.order, "in_cycle": network.in_cycle}
+    up, down, order, in_cycle = network.upstream, network.downstream, network.order, network.in_cycle
     if options.kind == "given":
-        return design_flows(**arrays, node_inflow=inflow, given_flow=given_flow, length=pipes.length, pipe_labels=pipe_labels,
+        return design_flows(upstream=up, downstream=down, order=order, in_cycle=in_cycle, node_inflow=inflow, given_flow=given_flow, length=pipes.length, pipe_labels=pipe_labels,
                             node_labels=nodes["node_id"].to_numpy(dtype=object), findings=findings)  # fmt: skip
-    carrier = Carrier.build(**arrays, node_count=len(nodes))
-    shape = design_flows(**arrays, node_inflow=np.zeros(inflow.size), given_flow=np.full(given_flow.size, np.nan), length=pipes.length,
+    carrier = Carrier.build(upstream=up, downstream=down, order=order, in_cycle=in_cycle, node_count=len(nodes))
+    shape = design_flows(upstream=up, downstream=down, order=order, in_cycle=in_cycle, node_inflow=np.zeros(inflow.size), given_flow=np.full(given_flow.size, np.nan), length=pipes.length,
                          pipe_labels=pipe_labels, node_labels=nodes["node_id"].to_numpy(dtype=object), findings=findings,
                          carrier=carrier)  # fmt: skip
     loads = node_loads(nodes, manholes, catchments, options=options, findings=findings)

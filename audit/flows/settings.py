@@ -7,6 +7,7 @@ half way through an audit. Defaults and their sources are in docs/config.md.
 
 from __future__ import annotations
 
+import itertools
 from dataclasses import dataclass
 from typing import Any
 
@@ -79,8 +80,8 @@ def _rows(check: ConfigProblems, value: object, key: str) -> tuple[tuple[float, 
         isinstance(row, list) and len(row) == 2 and all(isinstance(v, int | float) and not isinstance(v, bool) and v > 0 for v in row)
         for row in value
     )
-    rows = tuple((float(row[0]), float(row[1])) for row in value) if ok else ()  # type: ignore[union-attr]
-    if not ok or any(later[0] <= earlier[0] for earlier, later in zip(rows, rows[1:])):
+    rows = tuple((float(row[0]), float(row[1])) for row in value) if ok and isinstance(value, list) else ()
+    if not ok or any(later[0] <= earlier[0] for earlier, later in itertools.pairwise(rows)):
         check.fail(key, "an array of at least two [x, value] rows of positive numbers, x increasing", value)
         return ()
     return rows
@@ -137,4 +138,4 @@ def parse_flows(check: ConfigProblems, data: object) -> FlowOptions:
         check.fail("flows.rainfall", f"a rainfall table for kind = {kind!r} (a, b, c or table; inlet_time_min)")
     numbers = {name: _number(check, table, name) for name in _NUMBERS}
     return FlowOptions(kind=kind, peaking=peaking, peaking_table=peaking_table, tc_max_iterations=int(iterations),
-                       rainfall=rainfall, **numbers)  # type: ignore[arg-type]
+                       rainfall=rainfall, **numbers)

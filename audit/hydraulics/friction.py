@@ -140,7 +140,7 @@ def colebrook_white_velocity(
     diameter = 4.0 * np.asarray(hydraulic_radius, dtype=float)
     with np.errstate(invalid="ignore", divide="ignore"):
         scale = np.sqrt(2.0 * GRAVITY * diameter * np.asarray(slope, dtype=float))
-        term = np.asarray(ks_mm, dtype=float) / 1000.0 / (3.7 * diameter) + 2.51 * kinematic_viscosity / (diameter * scale)
+        term = np.asarray(ks_mm, dtype=float) / 1000.0 / (3.7 * diameter) + 2.51 * np.asarray(kinematic_viscosity, dtype=float) / (diameter * scale)
         return -2.0 * scale * np.log10(term)
 
 

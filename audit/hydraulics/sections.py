@@ -40,7 +40,9 @@ Array = NDArray[np.float64]
 class Section(Protocol):
     """What every section shape provides; all arrays broadcast against each other."""
 
-    name: str
+    @property
+    def name(self) -> str:
+        """The name the section is registered under."""
 
     def elements(self, eta: Array, height: Array, width: Array) -> tuple[Array, Array, Array]:
         """Area [m^2], wetted perimeter [m] and top width [m] at relative depth ``eta``."""
@@ -164,7 +166,7 @@ class Egg:
         for radius, centre, offset, low, high in _EGG_ARCS:
             upper = np.clip(level, low, high) - centre
             lower = low - centre
-            area += 2.0 * (_arc_integral(upper, radius, offset) - _arc_integral(np.float64(lower), radius, offset))
+            area += 2.0 * (_arc_integral(upper, radius, offset) - _arc_integral(np.full_like(upper, lower), radius, offset))
             perimeter += 2.0 * radius * (np.arcsin(upper / radius) - np.arcsin(lower / radius))
             inside = (level >= low) & (level <= high)
             top = np.where(inside, 2.0 * (offset + np.sqrt(np.maximum(radius**2 - (level - centre) ** 2, 0.0))), top)

@@ -127,7 +127,8 @@ def describe(path: Path) -> list[LayerInfo]:
 def _pick(layers: Sequence[LayerInfo], kind: str, names: re.Pattern[str]) -> LayerInfo | None:
     candidates = [layer for layer in layers if layer.kind == kind]
     named = [layer for layer in candidates if names.search(layer.name.lower())]
-    return (named or candidates or [None])[0]
+    found = named or candidates
+    return found[0] if found else None
 
 
 def guess_roles(layers: Sequence[LayerInfo]) -> tuple[LayerInfo | None, LayerInfo | None]:

@@ -36,7 +36,6 @@ import numpy as np
 import pandas as pd
 import pyogrio
 import pyproj
-import shapely
 
 from audit.errors import InputError
 from audit.findings import FindingLog

@@ -64,7 +64,7 @@ def rank_candidates(pipes: pd.DataFrame, *, include_low: bool = False) -> pd.Dat
     ))  # fmt: skip
     table = pd.DataFrame({name: _ordered(picked, name, order) for name in CANDIDATE_COLUMNS[1:]})
     table.insert(0, "rank", np.arange(1, len(order) + 1))
-    return table.round({name: places for name, places in DECIMALS.items()})
+    return table.round(dict(DECIMALS))
 
 
 def write_candidates(table: pd.DataFrame, path: Path) -> None:

@@ -97,14 +97,13 @@ def write_outputs(
     _prepare_folder(outdir, overwrite=overwrite)
     pipes, manholes, findings = _layers_to_write(result)
     steps = 4 + (manholes is not None)  # two or three layers, then the two files
-    with tqdm(total=steps, desc="writing outputs", unit="part", file=sys.stderr, disable=not progress) as bar:
-        with _staged(outdir, targets) as temp:
-            _write_geopackage(temp["geopackage"], pipes=pipes, manholes=manholes, findings=findings, step=bar.update)
-            summary = build_summary(result, pipes=result.pipe_results, findings=findings)
-            write_summary(summary, temp["summary"])
-            bar.update()
-            write_candidates(rank_candidates(_with_canonical(result), include_low=include_low), temp["candidates"])
-            bar.update()
+    with tqdm(total=steps, desc="writing outputs", unit="part", file=sys.stderr, disable=not progress) as bar, _staged(outdir, targets) as temp:
+        _write_geopackage(temp["geopackage"], pipes=pipes, manholes=manholes, findings=findings, step=bar.update)
+        summary = build_summary(result, pipes=result.pipe_results, findings=findings)
+        write_summary(summary, temp["summary"])
+        bar.update()
+        write_candidates(rank_candidates(_with_canonical(result), include_low=include_low), temp["candidates"])
+        bar.update()
     return targets
 
 

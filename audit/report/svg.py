@@ -118,7 +118,7 @@ def dot_path_data(x: ArrayLike, y: ArrayLike, *, cell_px: float = RESOLUTION_PX)
     >>> dot_path_data([1, 1.4, 3.2], [2, 2.3, 4], cell_px=1.0)
     'M1 2h0M3 4h0'
     """
-    step = max(int(round(cell_px / RESOLUTION_PX)), 1)
+    step = max(round(cell_px / RESOLUTION_PX), 1)
     cells = np.rint(np.stack([np.asarray(x, dtype=float), np.asarray(y, dtype=float)]) / (step * RESOLUTION_PX)).astype(np.int64)
     if cells.shape[1] == 0:
         return ""
@@ -141,7 +141,7 @@ def attributes(**values: object) -> str:
     return "".join(f' {name.rstrip("_").replace("_", "-")}="{html.escape(str(value))}"' for name, value in values.items() if value is not None)
 
 
-def element(tag: str, content: str = "", **values: object) -> str:
+def element(tag: str, content: object = "", **values: object) -> str:
     """One SVG or HTML element; ``content`` must already be escaped markup."""
     return f"<{tag}{attributes(**values)}>{content}</{tag}>"
 

@@ -65,7 +65,7 @@ def join(hits: Sequence[tuple[np.ndarray, pa.Array | str]], *, sep: str, count: 
     ['a; b', 'c', 'a']
     """
     where = [np.flatnonzero(mask) for mask, _ in hits]
-    texts = [pa.repeat(text, len(rows_)) if isinstance(text, str) else text for (_, text), rows_ in zip(hits, where)]
+    texts = [pa.repeat(text, len(rows_)) if isinstance(text, str) else text for (_, text), rows_ in zip(hits, where, strict=True)]
     if not texts:
         return pa.repeat("", count)
     row = np.concatenate(where)

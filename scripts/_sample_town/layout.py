@@ -6,16 +6,41 @@ import numpy as np
 import pandas as pd
 import shapely
 
-from .plan import (
-    BANK_HEIGHT_M, BANK_WIDTH_M, BANK_X, BEND_OFFSET_M, BEND_SHARE, CATCHMENTS, Catchment,
-    DEPTH_MIN_M, DEPTH_SPREAD_M, DEPTH_TRUNK_EXTRA_M, GRADE_CROSS, GRADE_TRUNK, JITTER_M,
-    LATERAL_NODES, LATERAL_STEP_M, MIN_GRADE, ORIGIN_E, ORIGIN_N, PER_CAPITA_L_DAY,
-    RIDGE_SOFT_M, RIVER_LEVEL_M, SPUR_SHARE, SPUR_STEP_M, TOWN_SPAN_M, TRUNK_STEP_M,
-    UNDULATION_M, UNDULATION_WAVE_M, VALLEY_AMP_M, VALLEY_SOFT_M, VALLEY_WAVE_M,
-)
 from .loads import catchment_cells, design_flows, settle_people
-from .tree import accumulate, levels, sweep
+from .plan import (
+    BANK_HEIGHT_M,
+    BANK_WIDTH_M,
+    BANK_X,
+    BEND_OFFSET_M,
+    BEND_SHARE,
+    CATCHMENTS,
+    DEPTH_MIN_M,
+    DEPTH_SPREAD_M,
+    DEPTH_TRUNK_EXTRA_M,
+    GRADE_CROSS,
+    GRADE_TRUNK,
+    JITTER_M,
+    LATERAL_NODES,
+    LATERAL_STEP_M,
+    MIN_GRADE,
+    ORIGIN_E,
+    ORIGIN_N,
+    PER_CAPITA_L_DAY,
+    RIDGE_SOFT_M,
+    RIVER_LEVEL_M,
+    SPUR_SHARE,
+    SPUR_STEP_M,
+    TOWN_SPAN_M,
+    TRUNK_STEP_M,
+    UNDULATION_M,
+    UNDULATION_WAVE_M,
+    VALLEY_AMP_M,
+    VALLEY_SOFT_M,
+    VALLEY_WAVE_M,
+    Catchment,
+)
 from .sizing import size_pipes
+from .tree import accumulate, levels, sweep
 
 
 def terrain(x: np.ndarray, y: np.ndarray) -> np.ndarray:
@@ -79,7 +104,7 @@ def build_town(rng: np.random.Generator) -> tuple[pd.DataFrame, pd.DataFrame]:
     """The clean register: manholes and pipes with levels, loads, sizes, materials and years."""
     parts = [tree_layout(c, rng) for c in CATCHMENTS]
     offset = np.cumsum([0] + [len(p) for p in parts[:-1]])
-    for part, off in zip(parts, offset):
+    for part, off in zip(parts, offset, strict=True):
         part["down"] = np.where(part["down"] >= 0, part["down"] + off, -1)
         part["ref"] = part["zone"] + part.index.astype(str).str.zfill(3)
     nodes = pd.concat(parts, ignore_index=True)

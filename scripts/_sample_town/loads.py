@@ -15,8 +15,18 @@ import pandas as pd
 import shapely
 
 from .plan import (
-    ASSUMED_VELOCITY_M_S, CATCHMENTS, C_IMPERVIOUS, C_PERVIOUS, DENSITY_PER_HA, IDF_A, IDF_B,
-    IDF_C, IMPERVIOUS_SHARE, INFILTRATION_L_S_KM, INLET_TIME_MIN, PER_CAPITA_L_DAY,
+    ASSUMED_VELOCITY_M_S,
+    C_IMPERVIOUS,
+    C_PERVIOUS,
+    CATCHMENTS,
+    DENSITY_PER_HA,
+    IDF_A,
+    IDF_B,
+    IDF_C,
+    IMPERVIOUS_SHARE,
+    INFILTRATION_L_S_KM,
+    INLET_TIME_MIN,
+    PER_CAPITA_L_DAY,
     STREET_BLOCK_M,
 )
 from .tree import accumulate, sweep

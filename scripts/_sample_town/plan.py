@@ -6,8 +6,6 @@ from dataclasses import dataclass
 
 import numpy as np
 
-import shapely
-
 SEED = 18_900_417
 CRS = "EPSG:32630"
 ORIGIN_E, ORIGIN_N = 487_350.0, 4_983_120.0  # invented; open water, no real place

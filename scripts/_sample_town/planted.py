@@ -6,14 +6,26 @@ import numpy as np
 import pandas as pd
 import shapely
 
-from .plan import (
-    BREWERY_LOAD_LS, CATCHMENTS, CHAMBER_MM, CIRCULAR_MM, DEPTH_MIN_M, LATERAL_STEP_M,
-    LENGTH_TYPO_RATIO, OLD_LATERAL_MM, ORIGIN_E, REVERSE_RISE_M, SHALLOW_DEPTH_M, SILT_GRADE, SILT_MAX_DEPTH_M,
-    SILT_LOAD_RATIO, TOWN_SPAN_M,
-)
-from .loads import design_flows
-from .sizing import full_bore_capacity, size_pipes
 from .layout import terrain, valley
+from .loads import design_flows
+from .plan import (
+    BREWERY_LOAD_LS,
+    CATCHMENTS,
+    CHAMBER_MM,
+    CIRCULAR_MM,
+    DEPTH_MIN_M,
+    LATERAL_STEP_M,
+    LENGTH_TYPO_RATIO,
+    OLD_LATERAL_MM,
+    ORIGIN_E,
+    REVERSE_RISE_M,
+    SHALLOW_DEPTH_M,
+    SILT_GRADE,
+    SILT_LOAD_RATIO,
+    SILT_MAX_DEPTH_M,
+    TOWN_SPAN_M,
+)
+from .sizing import full_bore_capacity, size_pipes
 
 
 class ErrorBook:

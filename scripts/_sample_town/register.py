@@ -8,8 +8,13 @@ import pandas as pd
 import shapely
 
 from .plan import (
-    CHAMBER_MM, CONCRETE_FROM_MM, CRS, EGG_RISE_RATIO, PVC_FROM_YEAR,
-    SURVEY_COLUMN, SURVEY_MARGIN,
+    CHAMBER_MM,
+    CONCRETE_FROM_MM,
+    CRS,
+    EGG_RISE_RATIO,
+    PVC_FROM_YEAR,
+    SURVEY_COLUMN,
+    SURVEY_MARGIN,
 )
 
 

@@ -6,8 +6,15 @@ import numpy as np
 import pandas as pd
 
 from .plan import (
-    CIRCULAR_MM, EGG_AREA_COEF, EGG_RADIUS_COEF, EGG_SPAN_MM, MANNING_N, MODERN_MIN_MM,
-    OLD_LATERAL_YEAR, OLD_MIN_MM, TARGET_LOAD_RATIO,
+    CIRCULAR_MM,
+    EGG_AREA_COEF,
+    EGG_RADIUS_COEF,
+    EGG_SPAN_MM,
+    MANNING_N,
+    MODERN_MIN_MM,
+    OLD_LATERAL_YEAR,
+    OLD_MIN_MM,
+    TARGET_LOAD_RATIO,
 )
 from .tree import sweep
 

@@ -5,8 +5,8 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from audit.errors import ConfigError
 from audit.config import load_config
+from audit.errors import ConfigError
 
 
 def _write(folder: Path, text: str) -> Path:
@@ -27,15 +27,24 @@ def _problem(folder: Path, text: str) -> str:
 def test_minimal_config_takes_documented_defaults(tmp_path: Path) -> None:
     config = load_config(_write(tmp_path, '[pipes]\npath = "data/pipes.gpkg"\n'))
     assert config.pipes.path == (tmp_path / "data" / "pipes.gpkg").resolve()
-    assert config.pipes.layer is None and config.pipes.crs is None and config.manholes is None
+    assert config.pipes.layer is None
+    assert config.pipes.crs is None
+    assert config.manholes is None
     assert dict(config.pipes.fields) == {}
-    assert config.pipes.units["diameter"] == "mm" and config.pipes.units["upstream_invert"] == "m"
-    assert config.pipes.units["flow"] == "l/s" and config.pipes.units["length"] == "m"
-    assert config.input.engine == "pyogrio" and config.input.sentinels == (-9999.0, -999.0)
-    assert config.network.snap_tolerance_m == 1.0 and config.network.direction == "ids"
-    assert config.network.length_tolerance_ratio == 0.05 and config.network.length_tolerance_m == 0.5
-    assert config.hydraulics.formula == "manning" and config.hydraulics.manning_n == 0.013
-    assert config.hydraulics.ks_mm == 1.5 and config.hydraulics.water_temp_c == 15.0
+    assert config.pipes.units["diameter"] == "mm"
+    assert config.pipes.units["upstream_invert"] == "m"
+    assert config.pipes.units["flow"] == "l/s"
+    assert config.pipes.units["length"] == "m"
+    assert config.input.engine == "pyogrio"
+    assert config.input.sentinels == (-9999.0, -999.0)
+    assert config.network.snap_tolerance_m == 1.0
+    assert config.network.direction == "ids"
+    assert config.network.length_tolerance_ratio == 0.05
+    assert config.network.length_tolerance_m == 0.5
+    assert config.hydraulics.formula == "manning"
+    assert config.hydraulics.manning_n == 0.013
+    assert config.hydraulics.ks_mm == 1.5
+    assert config.hydraulics.water_temp_c == 15.0
 
 
 FULL = """
@@ -78,17 +87,24 @@ min_slope = [[150, 0.0067], [225, 0.004]]
 
 def test_full_config_is_read_into_frozen_dataclasses(tmp_path: Path) -> None:
     config = load_config(_write(tmp_path, FULL))
-    assert config.input.engine == "fiona" and config.input.sentinels == (-1.0, 9999.5)
-    assert config.pipes.layer == "sewers" and config.pipes.crs == "EPSG:27700"
+    assert config.input.engine == "fiona"
+    assert config.input.sentinels == (-1.0, 9999.5)
+    assert config.pipes.layer == "sewers"
+    assert config.pipes.crs == "EPSG:27700"
     assert dict(config.pipes.fields) == {"id": "PIPE_REF", "diameter": "DIA", "upstream_invert": "US_IL"}
-    assert config.pipes.units["diameter"] == "in" and config.pipes.units["upstream_invert"] == "ft"
-    assert config.pipes.units["flow"] == "mgd" and config.pipes.units["height"] == "mm"
+    assert config.pipes.units["diameter"] == "in"
+    assert config.pipes.units["upstream_invert"] == "ft"
+    assert config.pipes.units["flow"] == "mgd"
+    assert config.pipes.units["height"] == "mm"
     assert dict(config.pipes.shapes) == {"C": "circular", "E": "egg"}
     assert config.manholes is not None
     assert config.manholes.path == (tmp_path.parent / "shared" / "nodes.geojson").resolve()
-    assert config.manholes.units["inflow"] == "gpm" and config.manholes.units["rim"] == "m"
-    assert config.network.direction == "digitised" and config.network.snap_tolerance_m == 0.25
-    assert config.hydraulics.formula == "colebrook-white" and config.hydraulics.ks_mm == 0.6
+    assert config.manholes.units["inflow"] == "gpm"
+    assert config.manholes.units["rim"] == "m"
+    assert config.network.direction == "digitised"
+    assert config.network.snap_tolerance_m == 0.25
+    assert config.hydraulics.formula == "colebrook-white"
+    assert config.hydraulics.ks_mm == 0.6
     with pytest.raises(AttributeError):
         config.network.direction = "ids"  # type: ignore[misc]
 
@@ -151,7 +167,8 @@ def test_bad_value_names_file_and_dotted_key(tmp_path: Path, text: str, expected
 
 def test_all_problems_are_reported_at_once(tmp_path: Path) -> None:
     message = _problem(tmp_path, '[pipes]\npath = "a.gpkg"\nlayr = "x"\n[network]\ndirection = "up"\n')
-    assert "pipes.layr" in message and "network.direction" in message
+    assert "pipes.layr" in message
+    assert "network.direction" in message
 
 
 def test_not_toml_names_the_file(tmp_path: Path) -> None:
@@ -166,8 +183,11 @@ def test_missing_file_names_the_file(tmp_path: Path) -> None:
 
 def test_flows_default_to_the_given_flows_as_before(tmp_path: Path) -> None:
     config = load_config(_write(tmp_path, '[pipes]\npath = "p.gpkg"\n'))
-    assert config.flows.kind == "given" and config.flows.rainfall is None and config.catchments is None
-    assert config.flows.growth_factor == 1.0 and config.flows.peaking == "harmon"
+    assert config.flows.kind == "given"
+    assert config.flows.rainfall is None
+    assert config.catchments is None
+    assert config.flows.growth_factor == 1.0
+    assert config.flows.peaking == "harmon"
     assert config.manholes is None
 
 
@@ -203,14 +223,23 @@ inlet_time_min = 7
 def test_flows_catchments_and_manhole_loads_are_read(tmp_path: Path) -> None:
     config = load_config(_write(tmp_path, COMBINED))
     flows, rain = config.flows, config.flows.rainfall
-    assert flows.kind == "combined" and flows.builds_sanitary and flows.needs_rainfall
-    assert flows.per_capita_l_day == 250.0 and flows.peaking == "table"
+    assert flows.kind == "combined"
+    assert flows.builds_sanitary
+    assert flows.needs_rainfall
+    assert flows.per_capita_l_day == 250.0
+    assert flows.peaking == "table"
     assert flows.peaking_table == ((1000.0, 3.5), (10000.0, 2.5))
-    assert flows.infiltration_l_s_km == 0.2 and flows.growth_factor == 1.25
-    assert rain is not None and rain.a is None and rain.table == ((5.0, 120.0), (60.0, 30.0)) and rain.inlet_time_min == 7.0
-    assert config.catchments is not None and config.catchments.layer == "subareas"
+    assert flows.infiltration_l_s_km == 0.2
+    assert flows.growth_factor == 1.25
+    assert rain is not None
+    assert rain.a is None
+    assert rain.table == ((5.0, 120.0), (60.0, 30.0))
+    assert rain.inlet_time_min == 7.0
+    assert config.catchments is not None
+    assert config.catchments.layer == "subareas"
     assert dict(config.catchments.fields) == {"id": "AREA_ID", "drains_to": "OUTLET_MH", "impervious_fraction": "IMP"}
-    assert config.manholes is not None and config.manholes.units["point_load"] == "m3/s"
+    assert config.manholes is not None
+    assert config.manholes.units["point_load"] == "m3/s"
     assert config.manholes.fields["population"] == "POP"
 
 

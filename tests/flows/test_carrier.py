@@ -4,9 +4,9 @@ import numpy as np
 import pandas as pd
 import pytest
 
-from audit.network.graph import order_pipes
 from audit.findings import FindingLog
 from audit.flows.carrier import design_flows
+from audit.network.graph import order_pipes
 
 
 def flows_for(up: list[int], down: list[int], inflow: list[float], given: list[float] | None = None, length: list[float] | None = None):  # type: ignore[no-untyped-def]
@@ -52,13 +52,15 @@ def test_a_bifurcation_splits_equally_and_is_reported() -> None:
     result, findings = flows_for([0, 0, 1, 2], [1, 2, 3, 3], [4.0, 1.0, 0.0, 0.0])
     assert result.q_design.tolist() == [2.0, 2.0, 3.0, 2.0]
     assert result.node_total[3] == 5.0  # peak of the sum, nothing counted twice
-    assert findings["code"].tolist() == ["flow_split"] and findings["feature"].tolist() == ["N0"]
+    assert findings["code"].tolist() == ["flow_split"]
+    assert findings["feature"].tolist() == ["N0"]
 
 
 def test_pipes_on_and_below_a_loop_get_no_flow_but_pipes_above_do() -> None:
     # 0 -> 1, loop 1 -> 2 -> 1, then 2 -> 3 -> 4
     result, findings = flows_for([0, 1, 2, 2, 3], [1, 2, 1, 3, 4], [1.0, 1.0, 1.0, 1.0, 0.0])
-    assert result.q_design[0] == 1.0 and result.source[0] == "accumulated"
+    assert result.q_design[0] == 1.0
+    assert result.source[0] == "accumulated"
     assert np.isnan(result.q_design[1:]).all()
     assert result.source[1:].tolist() == ["cycle"] * 4
     assert set(findings.loc[findings["code"] == "flow_below_loop", "feature"]) == {"P3", "P4"}
@@ -66,8 +68,10 @@ def test_pipes_on_and_below_a_loop_get_no_flow_but_pipes_above_do() -> None:
 
 def test_unplaced_pipes_and_missing_loads() -> None:
     result, _ = flows_for([0, -1], [1, -1], [np.nan, 2.0])
-    assert result.q_design[0] == 0.0 and result.source[0] == "accumulated"
-    assert np.isnan(result.q_design[1]) and result.source[1] == "missing"
+    assert result.q_design[0] == 0.0
+    assert result.source[0] == "accumulated"
+    assert np.isnan(result.q_design[1])
+    assert result.source[1] == "missing"
 
 
 def test_a_random_tree_conserves_its_load() -> None:
@@ -96,9 +100,9 @@ def _network(up: list[int], down: list[int], inflow: list[float]):  # type: igno
 
 
 def _hydraulics(count: int):  # type: ignore[no-untyped-def]
+    from audit.flows.storm import PipeHydraulics
     from audit.hydraulics.friction import Friction
     from audit.hydraulics.sections import PipeSections
-    from audit.flows.storm import PipeHydraulics
 
     sections = PipeSections.from_names(np.full(count, "circular"), np.full(count, 0.3), np.full(count, 0.3))
     return PipeHydraulics(sections, np.full(count, 0.005), Friction.uniform("manning", 0.013, count), np.full(count, 100.0))
@@ -123,7 +127,8 @@ def test_built_sanitary_flows_scale_by_growth_and_a_given_flow_wins_only_in_its_
     np.testing.assert_allclose(flows.q_design, [15.15e-3, 0.009, 31.95e-3])
     assert flows.source.tolist() == ["accumulated", "given", "accumulated"]
     np.testing.assert_allclose(flows.node_total, [15.15e-3, 0.009, 31.95e-3, 31.95e-3])
-    assert np.isnan(flows.parts.tc_min).all() and flows.parts.population_served.tolist() == [2000.0, 4000.0, 4000.0]
+    assert np.isnan(flows.parts.tc_min).all()
+    assert flows.parts.population_served.tolist() == [2000.0, 4000.0, 4000.0]
 
 
 def test_given_kind_keeps_the_flows_as_before() -> None:

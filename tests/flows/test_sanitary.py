@@ -8,11 +8,17 @@ import pandas as pd
 import pytest
 import shapely
 
-from audit.flows.settings import FlowOptions
 from audit.findings import FindingLog
 from audit.flows.carrier import Carrier
-from audit.flows.sanitary import (babbitt_peaking, catchment_outlets, harmon_peaking, node_loads, peaking_factor,
-                         sanitary_flows)  # fmt: skip
+from audit.flows.sanitary import (
+    babbitt_peaking,
+    catchment_outlets,
+    harmon_peaking,
+    node_loads,
+    peaking_factor,
+    sanitary_flows,  # fmt: skip
+)
+from audit.flows.settings import FlowOptions
 
 DAY = 86_400.0
 
@@ -119,7 +125,9 @@ def test_catchments_drain_to_their_manhole_else_the_nearest_node() -> None:
     findings = FindingLog()
     assert catchment_outlets(areas, _nodes([0.0] * 4), findings=findings).tolist() == [2, 1, 3]
     frame = findings.to_frame()
-    assert frame["code"].tolist() == ["unknown_outlet"] and frame["feature"].tolist() == ["S1"] and "X9" in frame["message"][0]
+    assert frame["code"].tolist() == ["unknown_outlet"]
+    assert frame["feature"].tolist() == ["S1"]
+    assert "X9" in frame["message"][0]
 
 
 def test_catchment_population_and_area_reach_their_nodes() -> None:

@@ -7,13 +7,19 @@ import pandas as pd
 import pytest
 from scipy.optimize import brentq
 
-from audit.flows.settings import FlowOptions, Rainfall
 from audit.findings import FindingLog
 from audit.flows.carrier import Carrier
+from audit.flows.settings import FlowOptions, Rainfall
+from audit.flows.storm import (
+    PipeHydraulics,
+    pipe_levels,
+    rainfall_intensity,
+    rational_discharge,
+    runoff_coefficients,
+    storm_flows,  # fmt: skip
+)
 from audit.hydraulics.friction import Friction
 from audit.hydraulics.sections import PipeSections
-from audit.flows.storm import (PipeHydraulics, pipe_levels, rainfall_intensity, rational_discharge, runoff_coefficients,
-                         storm_flows)  # fmt: skip
 
 ACRE_HA = 0.40468564224  # Source: NIST SP 811, Appendix B (1 acre = 4046.8564224 m2)
 CFS = 0.028316846592  # m3/s; Source: NIST SP 811, Appendix B (1 ft3 = 0.028316846592 m3)
@@ -41,7 +47,7 @@ def test_runoff_coefficient_from_field_or_impervious_share() -> None:
     findings = FindingLog()
     coefficient = runoff_coefficients(areas, options=FlowOptions(c_impervious=0.9, c_pervious=0.2), findings=findings)
     np.testing.assert_allclose(coefficient, [0.7, 0.5 * 0.9 + 0.5 * 0.2, 0.0, 0.0])
-    assert sorted(zip(findings.to_frame()["feature"], findings.to_frame()["code"])) == [("c", "no_runoff_coefficient"), ("d", "runoff_out_of_range")]
+    assert sorted(zip(findings.to_frame()["feature"], findings.to_frame()["code"], strict=True)) == [("c", "no_runoff_coefficient"), ("d", "runoff_out_of_range")]
 
 
 # A small invented storm sewer laid out like a design table: head pipes 0 and 1 join at node 2,
@@ -96,13 +102,16 @@ def test_storm_sewer_design_table_through_the_whole_module() -> None:
     assert flows.q_storm[0] == pytest.approx(1.0 * 1200 / 20**0.8 / 360, rel=1e-12)
     np.testing.assert_allclose(flows.tc_min, tc, rtol=1e-5)
     np.testing.assert_allclose(flows.q_storm, q, rtol=1e-5)
-    assert flows.settled and 1 < flows.iterations < 20 and len(findings) == 0
+    assert flows.settled
+    assert 1 < flows.iterations < 20
+    assert len(findings) == 0
 
 
 def test_tc_grows_downstream_and_runoff_area_adds_up() -> None:
     options = FlowOptions(kind="storm", rainfall=RAIN)
     flows = storm_flows(_carrier(), CA_NODE, _pipes(), base_flow=np.zeros(4), given_flow=np.full(4, np.nan), options=options, findings=FindingLog())
-    assert flows.tc_min[0] == flows.tc_min[1] == 10.0 and 10.0 < flows.tc_min[2] < flows.tc_min[3]
+    assert flows.tc_min[0] == flows.tc_min[1] == 10.0
+    assert 10.0 < flows.tc_min[2] < flows.tc_min[3]
     np.testing.assert_allclose(flows.runoff_area_ha, [1.0, 0.6, 2.8, 2.8])
     assert flows.q_storm[3] < flows.q_storm[2]  # same area, longer time, lower intensity
 
@@ -111,7 +120,8 @@ def test_unsettled_iteration_is_reported() -> None:
     options = FlowOptions(kind="storm", rainfall=RAIN, tc_max_iterations=1, tc_tolerance_min=1e-12)
     findings = FindingLog()
     flows = storm_flows(_carrier(), CA_NODE, _pipes(), base_flow=np.zeros(4), given_flow=np.full(4, np.nan), options=options, findings=findings)
-    assert not flows.settled and flows.iterations == 1
+    assert not flows.settled
+    assert flows.iterations == 1
     assert findings.to_frame()["code"].tolist() == ["tc_not_settled"]
 
 

@@ -23,7 +23,8 @@ def test_bracketed_root_matches_brentq_on_many_problems() -> None:
 def test_no_sign_change_gives_nan_and_exact_ends_are_kept() -> None:
     roots = bracketed_root(lambda x, i: x - np.array([2.0, 0.0, 1.0])[i], np.zeros(3), np.ones(3))
     assert np.isnan(roots[0])
-    assert roots[1] == 0.0 and roots[2] == 1.0
+    assert roots[1] == 0.0
+    assert roots[2] == 1.0
 
 
 def test_golden_maximum_matches_minimize_scalar() -> None:

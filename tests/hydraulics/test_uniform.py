@@ -7,6 +7,7 @@ from hypothesis import strategies as st
 from scipy.optimize import brentq
 
 from audit.hydraulics.friction import Friction
+from audit.hydraulics.sections import PipeSections
 from audit.hydraulics.uniform import (
     FlowStatus,
     capacity_peak,
@@ -16,7 +17,6 @@ from audit.hydraulics.uniform import (
     required_slope,
     smallest_diameter,
 )
-from audit.hydraulics.sections import PipeSections
 
 SHAPES = st.sampled_from(["circular", "egg", "rectangular"])
 FORMULAS = st.sampled_from([("manning", 0.013), ("colebrook-white", 1.5), ("chezy", 60.0)])
@@ -121,7 +121,8 @@ def test_bad_inputs_give_nan_and_a_reason_never_an_exception() -> None:
     assert np.isnan(state.velocity).all()
     q_full, _ = full_bore(pipes, slope, Friction("manning", roughness))
     assert np.isfinite(q_full[[0, 6]]).all()  # the flow does not matter for capacity
-    assert np.isnan(q_full[1:6]).all() and np.isnan(q_full[7])
+    assert np.isnan(q_full[1:6]).all()
+    assert np.isnan(q_full[7])
 
 
 def test_smallest_diameter_and_required_slope_against_manning_written_out() -> None:

@@ -14,8 +14,8 @@ import pytest
 import shapely
 from shapely.geometry import LineString, MultiLineString, Point
 
-from audit.errors import InputError
 from audit.config import load_config
+from audit.errors import InputError
 from audit.findings import FindingLog
 from audit.layers.reading import Layers, read_layers
 
@@ -120,13 +120,15 @@ def test_each_format_gives_canonical_si_columns(tmp_path: Path, make_config: Map
     pipes = layers.pipes.canonical
     assert len(findings) == 0
     assert pipes["pipe_id"].tolist() == ["P1", "P2", "P3"]
-    assert pipes["from_node"].tolist() == ["M1", "M2", "M3"] and pipes["to_node"].tolist() == ["M2", "M3", "M4"]
+    assert pipes["from_node"].tolist() == ["M1", "M2", "M3"]
+    assert pipes["to_node"].tolist() == ["M2", "M3", "M4"]
     np.testing.assert_allclose(pipes["diameter"], [0.225, 0.300, 0.375])  # mm to m by definition
     np.testing.assert_allclose(pipes["flow"], [0.005, 0.0125, 0.030])  # l/s to m3/s by definition
     np.testing.assert_allclose(pipes["upstream_invert"], [10.0, 9.5, 9.0])
     assert pipes["shape"].tolist() == ["circular"] * 3
     assert pipes.index.equals(layers.pipes.original.index)
-    assert layers.crs == pyproj.CRS(UTM) and layers.pipes.layer == "pipes"
+    assert layers.crs == pyproj.CRS(UTM)
+    assert layers.pipes.layer == "pipes"
     np.testing.assert_allclose(pipes.length, [40.0, 50.0, 60.0])  # 3-4-5 triangle, by hand
 
 
@@ -149,7 +151,8 @@ def test_pipes_and_manholes_in_different_files_formats_and_crs(tmp_path: Path, m
         f'[manholes]\npath = "{manholes.name}"\n[manholes.fields]\nid = "MH"\nrim = "COVER"\naccess = "LID"\n'
     )
     layers, findings = _read(make_config(body))
-    assert layers.manholes is not None and len(findings) == 0
+    assert layers.manholes is not None
+    assert len(findings) == 0
     nodes = layers.manholes.canonical
     assert nodes.crs == pyproj.CRS(UTM)
     np.testing.assert_allclose(shapely.get_x(nodes.geometry.values), [500000, 500040, 500080, 500080], atol=1e-3)
@@ -162,7 +165,8 @@ def test_geographic_layer_is_projected_and_lengths_match_the_ellipsoid(tmp_path:
     lines = [LineString([(-27.5, 40.0), (-27.49, 40.004), (-27.48, 40.0)]), LineString([(-27.2, 40.3), (-27.2, 40.31)])]
     path = _write(gpd.GeoDataFrame({"REF": ["A", "B"]}, geometry=lines, crs="EPSG:4326"), tmp_path, "lines", "geojson")
     layers, _ = _read(make_config(_pipes_config(path)))
-    assert layers.crs.is_projected and layers.crs.axis_info[0].unit_name == "metre"
+    assert layers.crs.is_projected
+    assert layers.crs.axis_info[0].unit_name == "metre"
     # Source: pyproj.Geod.line_length on the WGS84 ellipsoid (an independent geodesic length)
     geod = pyproj.Geod(ellps="WGS84")
     expected = [geod.line_length(*line.xy) for line in lines]
@@ -174,7 +178,9 @@ def test_layer_without_crs_names_file_and_layer(tmp_path: Path, make_config: Map
     unchanged()
     with pytest.raises(InputError) as error:
         _read(make_config(_pipes_config(path)))
-    assert str(path) in str(error.value) and "layer 'pipes'" in str(error.value) and "pipes.crs" in str(error.value)
+    assert str(path) in str(error.value)
+    assert "layer 'pipes'" in str(error.value)
+    assert "pipes.crs" in str(error.value)
     unchanged()
 
 
@@ -205,7 +211,9 @@ def test_z_and_m_are_dropped(tmp_path: Path, make_config: MapConfig) -> None:
     path = _write_measured_line(tmp_path)
     layers, findings = _read(make_config(_pipes_config(path)))
     geometry = layers.pipes.canonical.geometry.iloc[0]
-    assert not geometry.has_z and not shapely.has_m(geometry) and geometry.length == 10.0
+    assert not geometry.has_z
+    assert not shapely.has_m(geometry)
+    assert geometry.length == 10.0
     assert len(findings) == 0
 
 
@@ -214,7 +222,8 @@ def test_null_geometry_keeps_the_row_with_a_finding(tmp_path: Path, make_config:
     frame.loc[1, "geometry"] = None
     path = _write(frame, tmp_path, "pipes", "gpkg")
     layers, findings = _read(make_config(_pipes_config(path, PIPE_FIELDS)))
-    assert len(layers.pipes.canonical) == 3 and layers.pipes.canonical.geometry.iloc[1] is None
+    assert len(layers.pipes.canonical) == 3
+    assert layers.pipes.canonical.geometry.iloc[1] is None
     assert findings.to_frame()[["feature", "code"]].values.tolist() == [["P2", "no_geometry"]]
 
 
@@ -222,7 +231,8 @@ def test_points_in_a_pipe_layer_are_a_finding(tmp_path: Path, make_config: MapCo
     path = _write(_manholes(), tmp_path, "points", "gpkg")
     layers, findings = _read(make_config(_pipes_config(path, '[pipes.fields]\nid = "MH"\n')))
     found = findings.to_frame()
-    assert set(found["code"]) == {"wrong_geometry_type"} and "Point" in found["message"].iloc[0]
+    assert set(found["code"]) == {"wrong_geometry_type"}
+    assert "Point" in found["message"].iloc[0]
     assert layers.pipes.canonical.geometry.isna().all()
 
 
@@ -255,7 +265,8 @@ def test_text_in_a_number_field_becomes_nan_with_a_finding(
     np.testing.assert_allclose(layers.pipes.canonical["diameter"], [0.225, np.nan, np.nan])
     found = findings.to_frame()
     assert found[["feature", "code"]].values.tolist() == [["P2", "not_a_number"]]
-    assert "'DIA_MM'" in found["message"].iloc[0] and "'about 300'" in found["message"].iloc[0]
+    assert "'DIA_MM'" in found["message"].iloc[0]
+    assert "'about 300'" in found["message"].iloc[0]
     unchanged()
 
 
@@ -268,7 +279,8 @@ def test_sentinels_become_nan_with_a_finding(tmp_path: Path, make_config: MapCon
     np.testing.assert_allclose(layers.pipes.canonical["upstream_invert"], [np.nan, 9.5, np.nan])
     found = findings.to_frame()
     assert found[["feature", "code"]].values.tolist() == [["P1", "sentinel_value"], ["P3", "sentinel_value"]]
-    assert "'-9999.0'" in found["message"].iloc[0] and "'US_IL'" in found["message"].iloc[0]
+    assert "'-9999.0'" in found["message"].iloc[0]
+    assert "'US_IL'" in found["message"].iloc[0]
     unchanged()
 
 
@@ -293,7 +305,8 @@ def test_duplicate_and_missing_ids_are_findings(tmp_path: Path, make_config: Map
     found = findings.to_frame()
     assert found[["feature", "code"]].values.tolist() == [["#1", "missing_id"], ["P1", "duplicate_id"],
                                                           ["P1", "duplicate_id"]]  # fmt: skip
-    assert "'P1'" in found["message"].iloc[1] and "2 features" in found["message"].iloc[1]
+    assert "'P1'" in found["message"].iloc[1]
+    assert "2 features" in found["message"].iloc[1]
     unchanged()
 
 
@@ -308,8 +321,10 @@ def test_unmapped_fields_are_listed_and_left_empty(tmp_path: Path, make_config: 
     layers, _ = _read(make_config(_pipes_config(path)))
     pipes = layers.pipes.canonical
     assert pipes["pipe_id"].tolist() == ["#0", "#1", "#2"]
-    assert pipes["diameter"].isna().all() and pipes["from_node"].isna().all()
-    assert "pipe_id" in layers.missing_fields["pipes"] and "diameter" in layers.missing_fields["pipes"]
+    assert pipes["diameter"].isna().all()
+    assert pipes["from_node"].isna().all()
+    assert "pipe_id" in layers.missing_fields["pipes"]
+    assert "diameter" in layers.missing_fields["pipes"]
     assert "manholes" not in layers.missing_fields
 
 
@@ -366,7 +381,8 @@ def test_file_with_several_layers_needs_a_layer_name(tmp_path: Path, make_config
     with pytest.raises(InputError, match=r"layer 'drains' not found \(pipes\.layer\)"):
         _read(make_config(_pipes_config(path, 'layer = "drains"\n')))
     layers, _ = _read(make_config(_pipes_config(path, 'layer = "sewers"\n')))
-    assert layers.pipes.layer == "sewers" and len(layers.pipes.canonical) == 3
+    assert layers.pipes.layer == "sewers"
+    assert len(layers.pipes.canonical) == 3
 
 
 def _catchments() -> gpd.GeoDataFrame:
@@ -403,20 +419,23 @@ def test_catchments_are_read_as_polygons_in_the_working_crs(tmp_path: Path, make
     unchanged()
     assert layers.catchments is not None
     areas_read = layers.catchments.canonical
-    assert areas_read.crs == pyproj.CRS(UTM) and areas_read["catchment_id"].tolist() == ["A1", "A2", "A3"]
+    assert areas_read.crs == pyproj.CRS(UTM)
+    assert areas_read["catchment_id"].tolist() == ["A1", "A2", "A3"]
     # the projected square keeps its 10,000 m2 to well within a square metre
     np.testing.assert_allclose(areas_read.geometry.area.to_numpy()[:2], [10_000.0, 10_000.0], rtol=1e-4)
-    assert areas_read.geometry.geom_type.tolist()[:2] == ["Polygon", "MultiPolygon"] and areas_read.geometry.iloc[2] is None
+    assert areas_read.geometry.geom_type.tolist()[:2] == ["Polygon", "MultiPolygon"]
+    assert areas_read.geometry.iloc[2] is None
     assert areas_read["drains_to"].fillna("none").tolist() == ["M1", "none", "M3"]
     np.testing.assert_allclose(areas_read["population"], [120.0, np.nan, 5.0])
     np.testing.assert_allclose(areas_read["impervious_fraction"], [0.5, np.nan, 0.2])
     np.testing.assert_allclose(areas_read["area_ha"], [np.nan, np.nan, 0.3])
     found = findings.to_frame()
-    assert sorted(zip(found["feature"], found["code"])) == [
+    assert sorted(zip(found["feature"], found["code"], strict=True)) == [
         ("A2", "nonpositive_size"), ("A2", "not_a_number"), ("A2", "sentinel_value"), ("A3", "wrong_geometry_type")
     ]
     assert set(found["layer"]) == {"catchments"}
-    assert "occupancy" in layers.missing_fields["catchments"] and "population" not in layers.missing_fields["catchments"]
+    assert "occupancy" in layers.missing_fields["catchments"]
+    assert "population" not in layers.missing_fields["catchments"]
 
 
 def test_a_finding_sits_at_the_midpoint_of_its_own_pipe(tmp_path: Path, make_config: MapConfig) -> None:

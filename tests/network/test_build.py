@@ -62,7 +62,7 @@ def pipe_layer(
 
 def joins(network: Network) -> list[tuple[str, str]]:
     names = network.nodes["node_id"].to_numpy()
-    return [(str(names[u]), str(names[d])) for u, d in zip(network.upstream, network.downstream)]
+    return [(str(names[u]), str(names[d])) for u, d in zip(network.upstream, network.downstream, strict=True)]
 
 
 def codes(log: FindingLog) -> dict[str, int]:
@@ -91,8 +91,10 @@ def test_y_tree_by_ids_joins_named_manholes() -> None:
     assert network.nodes["kind"].tolist() == ["manhole"] * 4
     assert network.outfalls.tolist() == [3]
     assert network.component.tolist() == [0, 0, 0]
-    assert not network.reversed.any() and not network.in_cycle.any()
-    assert sorted(network.order.tolist()) == [0, 1, 2] and network.order[-1] == 2
+    assert not network.reversed.any()
+    assert not network.in_cycle.any()
+    assert sorted(network.order.tolist()) == [0, 1, 2]
+    assert network.order[-1] == 2
     assert_upstream_first(network)
     assert codes(log) == {"outfall": 1}
     (outfall,) = rows(log, "outfall")
@@ -146,7 +148,9 @@ def test_backwards_pipe_is_turned_by_pipe_inverts() -> None:
     assert network.reversed.tolist() == [False, False, True]
     assert network.outfalls.tolist() == [3]
     (turned,) = rows(log, "reversed_by_inverts")
-    assert turned["feature"] == "P3" and "6.000" in turned["message"] and "7.000" in turned["message"]
+    assert turned["feature"] == "P3"
+    assert "6.000" in turned["message"]
+    assert "7.000" in turned["message"]
     assert (turned["x"], turned["y"]) == (5.0, 2.5)
 
 
@@ -169,8 +173,11 @@ def test_ends_meeting_without_a_manhole_form_a_junction() -> None:
     network = build_network(pipes, manhole_layer({"D": (5.0, 0.0)}), snap_tolerance_m=0.5, findings=log)
     assert joins(network) == [("J1", "J2"), ("J3", "J2"), ("J2", "D")]
     junction = network.nodes.set_index("node_id").loc["J2"]
-    assert junction["kind"] == "junction" and not junction["access"] and junction["manhole_row"] == -1
-    assert junction["x"] == pytest.approx((20 + 20.1 + 20.2) / 3) and junction["y"] == pytest.approx(0.2 / 3)
+    assert junction["kind"] == "junction"
+    assert not junction["access"]
+    assert junction["manhole_row"] == -1
+    assert junction["x"] == pytest.approx((20 + 20.1 + 20.2) / 3)
+    assert junction["y"] == pytest.approx(0.2 / 3)
     dangling = rows(log, "dangling_end")
     assert [(r["feature"], r["x"], r["y"]) for r in dangling] == [("Q1", 40.0, 0.0), ("Q2", 20.0, 10.0)]
     assert all("upstream end" in r["message"] for r in dangling)
@@ -195,8 +202,10 @@ def test_two_components_are_numbered_by_size() -> None:
     assert sorted(network.outfalls.tolist()) == [3, 5]
     parts = rows(log, "separate_components")
     assert [r["feature"] for r in parts] == ["P1", "S1"]
-    assert "2 separate parts" in parts[0]["message"] and "3 pipes" in parts[0]["message"]
-    assert "1 pipes" in parts[1]["message"] and (parts[1]["x"], parts[1]["y"]) == (50.0, 0.0)
+    assert "2 separate parts" in parts[0]["message"]
+    assert "3 pipes" in parts[0]["message"]
+    assert "1 pipes" in parts[1]["message"]
+    assert (parts[1]["x"], parts[1]["y"]) == (50.0, 0.0)
 
 
 def test_orphan_manhole_is_reported() -> None:
@@ -220,7 +229,8 @@ def test_duplicate_manhole_id_keeps_the_first() -> None:
     assert joins(network) == [("A", "C"), ("B", "C"), ("C", "D")]
     (dup,) = rows(log, "duplicate_id")
     assert (dup["feature"], dup["x"], dup["y"]) == ("C", 70.0, 70.0)
-    assert "first" in dup["message"] and "row 4" in dup["message"]
+    assert "first" in dup["message"]
+    assert "row 4" in dup["message"]
     assert "orphan_manhole" not in codes(log)
 
 
@@ -231,7 +241,9 @@ def test_unknown_id_falls_back_to_snapping() -> None:
     network = build_network(pipes, manhole_layer(MANHOLE_XY), findings=log)
     assert joins(network)[2] == ("C", "D")
     (unknown,) = rows(log, "unknown_node")
-    assert unknown["feature"] == "P3" and "X9" in unknown["message"] and "'D'" in unknown["message"]
+    assert unknown["feature"] == "P3"
+    assert "X9" in unknown["message"]
+    assert "'D'" in unknown["message"]
     assert (unknown["x"], unknown["y"]) == (5.0, 0.0)
 
 
@@ -289,7 +301,8 @@ def test_input_layers_are_not_modified() -> None:
     pipes, manholes = pipe_layer(Y_PIPES), manhole_layer(MANHOLE_XY)
     before = (pipes.copy(), manholes.copy())
     build_network(pipes, manholes, direction="inverts", findings=FindingLog())
-    assert pipes.equals(before[0]) and manholes.equals(before[1])
+    assert pipes.equals(before[0])
+    assert manholes.equals(before[1])
 
 
 @pytest.mark.parametrize("seed", [1, 2, 3])
@@ -307,9 +320,9 @@ def test_cycles_components_and_order_agree_with_networkx(seed: int) -> None:
     network = build_network(pipes, manholes, findings=FindingLog())
     graph = nx.MultiDiGraph()
     graph.add_nodes_from(range(100))
-    graph.add_edges_from(zip(source, target))
+    graph.add_edges_from(zip(source, target, strict=True))
     strong = {node: k for k, part in enumerate(nx.strongly_connected_components(graph)) for node in part}
-    assert network.in_cycle.tolist() == [strong[a] == strong[b] for a, b in zip(source, target)]
+    assert network.in_cycle.tolist() == [strong[a] == strong[b] for a, b in zip(source, target, strict=True)]
     assert network.in_cycle.any()
     weak = {node: k for k, part in enumerate(nx.weakly_connected_components(graph)) for node in part}
     weak_part = np.array([weak[a] for a in source])
@@ -340,7 +353,8 @@ def test_a_pipe_drawn_against_its_ids_is_reported_and_the_ids_keep_the_direction
     assert drawn["feature"].tolist() == ["P2"]
     assert "drawn from C to B" in drawn["message"].iloc[0]
     node = dict(zip(network.nodes["node_id"], range(len(network.nodes)), strict=True))
-    assert network.upstream[1] == node["B"] and network.downstream[1] == node["C"]
+    assert network.upstream[1] == node["B"]
+    assert network.downstream[1] == node["C"]
     # by digitising order there is nothing to compare the drawing with
     digitised = FindingLog()
     build_network(pipe_layer(Y_PIPES, ids=False), manhole_layer(MANHOLE_XY), findings=digitised)

@@ -79,7 +79,8 @@ def test_slopes_by_hand(levels_and_log: tuple[pd.DataFrame, FindingLog]) -> None
     slope = levels["slope"].to_numpy()
     assert slope[0] == pytest.approx((10.0 - 9.5) / 50.0)  # 0.01
     assert slope[1] == pytest.approx((9.4 - 9.0) / 40.0)  # 0.01
-    assert np.isnan(slope[2]) and np.isnan(slope[3])  # unknown level; zero length
+    assert np.isnan(slope[2])
+    assert np.isnan(slope[3])
 
 
 def test_cover_to_the_crown(levels_and_log: tuple[pd.DataFrame, FindingLog]) -> None:
@@ -94,10 +95,14 @@ def test_findings_name_the_pipe_and_the_numbers(levels_and_log: tuple[pd.DataFra
     frame = log.to_frame()
     assert log.codes() == {"length_mismatch": 1, "zero_length": 1, "missing_invert": 1}
     mismatch = frame[frame["code"] == "length_mismatch"].iloc[0]
-    assert mismatch["feature"] == "P3" and "36.000" in mismatch["message"] and "30.000" in mismatch["message"]
+    assert mismatch["feature"] == "P3"
+    assert "36.000" in mismatch["message"]
+    assert "30.000" in mismatch["message"]
     assert (mismatch["x"], mismatch["y"]) == (45.0, 0.0)
     missing = frame[frame["code"] == "missing_invert"].iloc[0]
-    assert missing["feature"] == "P3" and "downstream end" in missing["message"] and "upstream end" not in missing["message"]
+    assert missing["feature"] == "P3"
+    assert "downstream end" in missing["message"]
+    assert "upstream end" not in missing["message"]
     assert frame[frame["code"] == "zero_length"].iloc[0]["feature"] == "P4"
 
 
@@ -127,7 +132,8 @@ def test_reversed_pipe_swaps_its_levels() -> None:
     row = derive_levels(pipes, network, manholes, findings=FindingLog()).iloc[0]
     assert (row["up_invert"], row["down_invert"]) == (8.6, 8.0)
     assert row["slope"] == pytest.approx(0.6 / 30.0)
-    assert row["up_cover"] == pytest.approx(10.0 - 8.825) and row["down_cover"] == pytest.approx(9.9 - 8.225)
+    assert row["up_cover"] == pytest.approx(10.0 - 8.825)
+    assert row["down_cover"] == pytest.approx(9.9 - 8.225)
 
 
 def test_without_manholes_levels_come_from_pipes_only() -> None:

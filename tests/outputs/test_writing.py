@@ -12,11 +12,10 @@ import pandas as pd
 import pytest
 import shapely
 
-from audit.outputs import writing as outputs
 from audit.errors import AuditError, OutputExistsError
 from audit.outputs import print_summary_table, rank_candidates, write_outputs
-from audit.result import CAUTION
-from audit.result import FINDING_COLUMNS, MANHOLE_COLUMNS, PIPE_COLUMNS, AuditResult
+from audit.outputs import writing as outputs
+from audit.result import CAUTION, FINDING_COLUMNS, MANHOLE_COLUMNS, PIPE_COLUMNS, AuditResult
 from audit.rules.checks import RuleSettings
 
 CRS = "EPSG:27700"
@@ -136,7 +135,8 @@ def test_names_equal_but_for_case_are_renamed_and_reported(tmp_path: Path) -> No
     findings = gpd.read_file(path, layer="findings", engine="pyogrio")
     renamed = findings[findings["code"] == "field_renamed"]
     assert renamed[["layer", "feature"]].values.tolist() == [["pipes", "*"]]
-    assert "'pipe id'" in renamed["message"].iloc[0] and "'pipe id_2'" in renamed["message"].iloc[0]
+    assert "'pipe id'" in renamed["message"].iloc[0]
+    assert "'pipe id_2'" in renamed["message"].iloc[0]
 
 
 def test_an_existing_folder_with_files_is_refused(tmp_path: Path) -> None:
@@ -257,7 +257,8 @@ def test_summary_header_rules_settings_and_nan_as_null(tmp_path: Path) -> None:
     # Source: Recommended Standards for Wastewater Facilities, 400 ft up to 15 in, 500 ft from 18 in
     # (from memory): 400 ft = 121.92 m, 500 ft = 152.4 m
     assert rules["max_spacing_m"] == [[0.0, 121.92], [457.0, 152.4]]  # type: ignore[index]
-    assert rules["min_slope"] is None and rules["severity"]["surcharge"] == "high"  # type: ignore[index]
+    assert rules["min_slope"] is None
+    assert rules["severity"]["surcharge"] == "high"
 
 
 def _ranking_frame() -> pd.DataFrame:
@@ -294,7 +295,8 @@ def test_candidates_file(tmp_path: Path) -> None:
     assert [row["severity"] for row in rows] == ["high", "medium"]
     assert rows[0]["reasons"] == "load ratio 1.20 > 1.00; velocity 0.40 < 0.60"
     assert rows[0]["pipe_id"] == "#0"  # the test frame has no canonical pipe_id column
-    assert rows[0]["material"] == "" and math.isclose(float(rows[0]["load_ratio"]), 0.5)
+    assert rows[0]["material"] == ""
+    assert math.isclose(float(rows[0]["load_ratio"]), 0.5)
 
 
 def test_candidates_rounding() -> None:

@@ -5,8 +5,8 @@ import numpy as np
 import pytest
 
 from audit.hydraulics.friction import Friction, water_kinematic_viscosity
-from audit.hydraulics.uniform import capacity_peak, discharge_at, full_bore, normal_depth
 from audit.hydraulics.sections import Circular, PipeSections
+from audit.hydraulics.uniform import capacity_peak, discharge_at, full_bore, normal_depth
 
 # Hydraulic elements of a circular section with constant Manning n:
 # y/D, A/Af, R/Rf, V/Vf, Q/Qf.

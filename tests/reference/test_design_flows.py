@@ -91,7 +91,7 @@ def _mean_m3s(persons: float, per_capita_l_day: float) -> float:
 
 def test_harmon_at_published_points_and_the_peak_of_the_sum(tmp_path: Path) -> None:
     people = {"A": 1000.0, "B": 8000.0, "C": 7000.0}  # AC serves 1000, BC 8000, CD and DO 16,000
-    config = _write_network(tmp_path, people=people, runoff={n: 0.5 for n in people},
+    config = _write_network(tmp_path, people=people, runoff=dict.fromkeys(people, 0.5),
                             flows='kind = "sanitary"\nper_capita_l_day = 200\npeaking = "harmon"')  # fmt: skip
     flows = _by_pipe(config)
     # Harmon PF = 1 + 14 / (4 + sqrt(P / 1000)): 3.8 at 1000 persons, 2.75 at 16,000 (sqrt = 4),
@@ -104,12 +104,13 @@ def test_harmon_at_published_points_and_the_peak_of_the_sum(tmp_path: Path) -> N
     # the peak of the sum: a larger population peaks less, so CD carries less than its parts' peaks
     parts = flows.loc["AC", "q_sanitary"] + flows.loc["BC", "q_sanitary"] + 3.8 * _mean_m3s(7000.0, 200.0)
     assert flows.loc["CD", "q_sanitary"] < parts
-    assert (flows["q_storm"].fillna(0) == 0).all() and (flows["q_infiltration"] == 0).all()
+    assert (flows["q_storm"].fillna(0) == 0).all()
+    assert (flows["q_infiltration"] == 0).all()
 
 
 def test_babbitt_at_published_points(tmp_path: Path) -> None:
     people = {"A": 1000.0, "B": 31_000.0, "C": 0.0}  # AC 1000 persons, CD 32,000
-    config = _write_network(tmp_path, people=people, runoff={n: 0.5 for n in people},
+    config = _write_network(tmp_path, people=people, runoff=dict.fromkeys(people, 0.5),
                             flows='kind = "sanitary"\nper_capita_l_day = 250\npeaking = "babbitt"')  # fmt: skip
     flows = _by_pipe(config)
     # Babbitt PF = 5 / (P / 1000)^0.2: 5.0 at 1000 persons, 2.5 at 32,000 (32^0.2 = 2)
@@ -120,7 +121,7 @@ def test_babbitt_at_published_points(tmp_path: Path) -> None:
 
 def test_infiltration_per_km_of_sewer_upstream(tmp_path: Path) -> None:
     people = {"A": 100.0, "B": 100.0, "C": 100.0}
-    config = _write_network(tmp_path, people=people, runoff={n: 0.5 for n in people},
+    config = _write_network(tmp_path, people=people, runoff=dict.fromkeys(people, 0.5),
                             flows='kind = "sanitary"\npeaking = "constant"\npeaking_factor = 2.0\ninfiltration_l_s_km = 0.5')  # fmt: skip
     flows = _by_pipe(config)
     # AC: its own 223.6 m (hypot(200, 100)); CD: AC + BC + its own 200 m; 0.5 l/s per km
@@ -133,7 +134,7 @@ def test_infiltration_per_km_of_sewer_upstream(tmp_path: Path) -> None:
 def test_rational_method_conversion_at_a_constant_intensity(tmp_path: Path) -> None:
     runoff = {"A": 0.8, "B": 0.4, "C": 0.6}
     flat_curve = "[flows.rainfall]\ntable = [[1, 36], [1000, 36]]\ninlet_time_min = 5"  # 36 mm/h at every duration
-    config = _write_network(tmp_path, people={n: 0.0 for n in runoff}, runoff=runoff, flows=f'kind = "storm"\n{flat_curve}')
+    config = _write_network(tmp_path, people=dict.fromkeys(runoff, 0.0), runoff=runoff, flows=f'kind = "storm"\n{flat_curve}')
     flows = _by_pipe(config)
     # Q = C i A: 36 mm/h on 1 ha is 10,000 m2 x 0.036 m / 3600 s = 0.1 m3/s (rational method, SI units by hand)
     # Source: FHWA HEC-22, Urban Drainage Design Manual (2009), ch. 3 (from memory)
@@ -147,11 +148,12 @@ def test_rational_method_conversion_at_a_constant_intensity(tmp_path: Path) -> N
 def test_time_of_concentration_grows_by_the_travel_time(tmp_path: Path) -> None:
     runoff = {"A": 0.8, "B": 0.4, "C": 0.6}
     curve = "[flows.rainfall]\na = 1000.0\nb = 5.0\nc = 1.0\ninlet_time_min = 5"  # invented: i = 1000 / (t + 5)
-    config = _write_network(tmp_path, people={n: 0.0 for n in runoff}, runoff=runoff, flows=f'kind = "storm"\n{curve}')
+    config = _write_network(tmp_path, people=dict.fromkeys(runoff, 0.0), runoff=runoff, flows=f'kind = "storm"\n{curve}')
     flows = _by_pipe(config)
     # tc = inlet time at the heads, then the longest arrival: tc(down) = tc(up) + L / (60 V)
     # Source: FHWA HEC-22, Urban Drainage Design Manual (2009), ch. 7 (from memory)
-    assert flows.loc["AC", "tc_min"] == pytest.approx(5.0) and flows.loc["BC", "tc_min"] == pytest.approx(5.0)
+    assert flows.loc["AC", "tc_min"] == pytest.approx(5.0)
+    assert flows.loc["BC", "tc_min"] == pytest.approx(5.0)
     travel = flows["length_m"] / (60 * flows["v_design"])
     arrive_c = max(5.0 + travel["AC"], 5.0 + travel["BC"])
     assert flows.loc["CD", "tc_min"] == pytest.approx(arrive_c, abs=0.02)

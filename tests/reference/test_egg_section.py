@@ -4,8 +4,8 @@ import numpy as np
 import pytest
 
 from audit.hydraulics.friction import Friction
-from audit.hydraulics.uniform import capacity_peak, full_bore
 from audit.hydraulics.sections import Egg, PipeSections
+from audit.hydraulics.uniform import capacity_peak, full_bore
 
 
 def test_full_area_perimeter_and_hydraulic_radius_match_the_handbook() -> None:

@@ -77,7 +77,8 @@ def png_size_and_rows(path: Path) -> tuple[int, int, int]:
         chunks[kind] = chunks.get(kind, b"") + data[offset + 8 : offset + 8 + length]
         offset += 12 + length
     width, height, depth, colour = struct.unpack(">IIBB", chunks[b"IHDR"][:10])
-    assert depth == 8 and colour in (2, 6)
+    assert depth == 8
+    assert colour in (2, 6)
     stride = width * (3 if colour == 2 else 4) + 1
     raw = zlib.decompress(chunks[b"IDAT"])
     assert len(raw) == height * stride

@@ -20,11 +20,11 @@ import pytest
 import shapely
 
 from audit.errors import InputError, OutputExistsError
+from audit.hydraulics.sections import Circular, Egg
 from audit.pipeline import run
 from audit.report import part_full_curve, render_report, write_report
 from audit.result import PIPE_COLUMNS, AuditResult
 from audit.rules.checks import RuleSettings
-from audit.hydraulics.sections import Circular, Egg
 
 TOWN = Path(__file__).resolve().parents[2] / "sample_gis" / "town.toml"
 SECTION_ORDER = ["caution", "totals", "map", "flags", "part-full", "velocity", "candidates", "findings", "flows", "rules"]
@@ -100,13 +100,15 @@ def flag_counts(result: AuditResult) -> Counter[str]:
 
 def test_page_is_self_contained(town_page: Page) -> None:
     for tag, name, value in town_page.attributes:
-        assert "http:" not in value.lower() and "https:" not in value.lower(), (tag, name, value)
+        assert "http:" not in value.lower(), (tag, name, value)
+        assert "https:" not in value.lower(), (tag, name, value)
         if name in ("src", "href", "srcset", "xlink:href", "action"):
             assert value.startswith("#"), (tag, name, value)
         assert not (tag == "script" and name == "src")
     assert not [tag for tag, _, _ in town_page.attributes if tag in ("link", "img", "iframe", "object", "embed")]
     styles = "".join(town_page.styles)
-    assert "@import" not in styles and not re.search(r"url\(", styles)
+    assert "@import" not in styles
+    assert not re.search(r"url\(", styles)
     assert town_page.root.find_all("script") == []
 
 
@@ -128,7 +130,8 @@ def test_every_flag_appears_in_legend_and_table_with_its_count(town: AuditResult
         assert re.search(rf"\b{code}\b", legend), code
     bars = town_page.section("flags").find_all("svg")[0].text()
     for code, count in expected.items():
-        assert code in bars and str(count) in bars
+        assert code in bars
+        assert str(count) in bars
 
 
 def test_legend_counts_add_up_to_every_pipe(town: AuditResult, town_page: Page) -> None:
@@ -144,7 +147,8 @@ def test_legend_counts_add_up_to_every_pipe(town: AuditResult, town_page: Page) 
 def test_map_draws_one_path_per_class_with_scale_bar_and_north_arrow(town_page: Page) -> None:
     (drawing,) = town_page.section("map").find_all("svg")
     classes = [node.attrs["data-class"] for node in drawing.find_all("path") if "data-class" in node.attrs]
-    assert len(classes) == len(set(classes)) and set(classes) <= {"high", "medium", "low", "not_evaluated", "none"}
+    assert len(classes) == len(set(classes))
+    assert set(classes) <= {"high", "medium", "low", "not_evaluated", "none"}
     (bar,) = drawing.find_all("g", **{"data-role": "scale-bar"})
     metres = float(bar.attrs["data-metres"])
     mantissa = metres / 10 ** np.floor(np.log10(metres))
@@ -157,7 +161,8 @@ def test_map_coordinates_are_rounded_to_a_tenth_of_a_pixel(town_page: Page) -> N
     (drawing,) = town_page.section("map").find_all("svg")
     data = " ".join(node.attrs["d"] for node in drawing.find_all("path") if "data-class" in node.attrs)
     numbers = re.findall(r"-?\d+(?:\.\d+)?", data)
-    assert numbers and all(len(number.partition(".")[2]) <= 1 for number in numbers)
+    assert numbers
+    assert all(len(number.partition(".")[2]) <= 1 for number in numbers)
 
 
 def test_geographic_layer_is_drawn_in_metres(town: AuditResult) -> None:
@@ -175,7 +180,8 @@ def test_findings_by_code_with_counts_and_three_examples(town: AuditResult, town
     for code, row in rows.items():
         features = set(town.findings.loc[town.findings["code"] == code, "feature"].astype(str))
         examples = row[3].split(", ")
-        assert 1 <= len(examples) <= 3 and set(examples) <= features
+        assert 1 <= len(examples) <= 3
+        assert set(examples) <= features
 
 
 def test_candidates_are_ranked_by_severity_then_load_ratio(town: AuditResult, town_page: Page) -> None:
@@ -195,18 +201,23 @@ def test_velocity_limits_and_rules_are_shown(town: AuditResult, town_page: Page)
     limits = {node.attrs["data-limit"] for node in chart.find_all("line") if "data-limit" in node.attrs}
     assert limits == {"min", "max"}
     words = chart.text()
-    assert f"{town.rules.min_velocity:g} m/s" in words and f"{town.rules.max_velocity:g} m/s" in words
+    assert f"{town.rules.min_velocity:g} m/s" in words
+    assert f"{town.rules.max_velocity:g} m/s" in words
     rules = {row[0]: row[2] for row in town_page.table_rows("rule-table")}
-    assert rules["max_load_ratio"] == "1" and rules["min_velocity"] == "0.6"  # defaults of docs/rules.md
+    assert rules["max_load_ratio"] == "1"
+    assert rules["min_velocity"] == "0.6"
     run_rows = {row[0]: row[1] for row in town_page.table_rows("run-table")}
-    assert run_rows["Config"] == str(TOWN) and run_rows["Tool"].startswith("sewer-audit ")
+    assert run_rows["Config"] == str(TOWN)
+    assert run_rows["Tool"].startswith("sewer-audit ")
 
 
 @pytest.mark.parametrize(("section", "width"), [(Circular(), 1.0), (Egg(), 2.0 / 3.0)])
 def test_part_full_curve_passes_through_full_bore(section: object, width: float) -> None:
     depth, ratio = part_full_curve(section, width_ratio=width, points=2001)  # type: ignore[arg-type]
-    assert depth[0] == 0.0 and ratio[0] == pytest.approx(0.0, abs=1e-12)
-    assert depth[-1] == 1.0 and ratio[-1] == pytest.approx(1.0, abs=1e-9)
+    assert depth[0] == 0.0
+    assert ratio[0] == pytest.approx(0.0, abs=1e-12)
+    assert depth[-1] == 1.0
+    assert ratio[-1] == pytest.approx(1.0, abs=1e-9)
 
 
 def test_circular_part_full_curve_peaks_near_1_076_at_0_938() -> None:
@@ -255,8 +266,10 @@ def test_small_network_escapes_user_strings_and_writes_atomically(tmp_path: Path
     target = write_report(result, tmp_path / "out", id_field="ref")
     assert target == tmp_path / "out" / "report.html"
     markup = target.read_text(encoding="utf-8")
-    assert 'P<1>&"x"' not in markup and "P&lt;1&gt;&amp;&quot;x&quot;" in markup
-    assert "odd <&> name" not in markup and "odd &lt;&amp;&gt; name" in markup
+    assert 'P<1>&"x"' not in markup
+    assert "P&lt;1&gt;&amp;&quot;x&quot;" in markup
+    assert "odd <&> name" not in markup
+    assert "odd &lt;&amp;&gt; name" in markup
     assert [path.name for path in (tmp_path / "out").iterdir()] == ["report.html"]
     assert (tmp_path / "net.gpkg").read_bytes() == before
     page = Page(markup)
@@ -347,5 +360,6 @@ def test_flows_section_shows_each_part_arriving_at_the_outfalls(town: AuditResul
 def test_nested_flow_settings_are_shown_as_dotted_rows(town: AuditResult) -> None:
     page = render_report(town)
     assumptions = page[page.index('id="flow-assumptions"') :]
-    assert ">rainfall.a<" in assumptions and ">rainfall.inlet_time_min<" in assumptions
+    assert ">rainfall.a<" in assumptions
+    assert ">rainfall.inlet_time_min<" in assumptions
     assert "{&#x27;a&#x27;" not in assumptions
