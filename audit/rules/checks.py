@@ -23,28 +23,12 @@ import pyarrow as pa
 from audit.errors import ConfigError
 from audit.rules.access import access_runs, run_totals
 from audit.rules.settings import (
-    DEFAULT_SEVERITY,
     FLAG_CODES,
-    RSWF_MAX_SPACING,
-    RSWF_MIN_SLOPE,
     SEVERITY_OFF,
     SEVERITY_ORDER,
-    DiameterTable,
     RuleSettings,
 )
 from audit.rules.text import concat, fixed, join, pick, rows, strings
-
-__all__ = [
-    "DEFAULT_SEVERITY",
-    "FLAG_CODES",
-    "RSWF_MAX_SPACING",
-    "RSWF_MIN_SLOPE",
-    "SEVERITY_ORDER",
-    "DiameterTable",
-    "RuleSettings",
-    "check_pipes",
-    "worst_severity_at_least",
-]
 
 METRIC_COLUMNS: tuple[str, ...] = (
     "pipe_id", "shape", "diameter", "height", "length_m", "slope", "q_full", "q_design",

@@ -16,7 +16,7 @@ from audit.errors import AuditError, OutputExistsError
 from audit.outputs import print_summary_table, rank_candidates, write_outputs
 from audit.outputs import writing as outputs
 from audit.result import CAUTION, FINDING_COLUMNS, MANHOLE_COLUMNS, PIPE_COLUMNS, AuditResult
-from audit.rules.checks import RuleSettings
+from audit.rules import RuleSettings
 
 CRS = "EPSG:27700"
 ORIGINAL = ["Pipe ID", "DIAM_MM_10", "Up Level", "note", "laid", "isPublic", "fid", "geom"]

@@ -24,7 +24,7 @@ from audit.hydraulics.sections import Circular, Egg
 from audit.pipeline import run
 from audit.report import part_full_curve, render_report, write_report
 from audit.result import PIPE_COLUMNS, AuditResult
-from audit.rules.checks import RuleSettings
+from audit.rules import RuleSettings
 
 TOWN = Path(__file__).resolve().parents[2] / "sample_gis" / "town.toml"
 SECTION_ORDER = ["caution", "totals", "map", "flags", "part-full", "velocity", "candidates", "findings", "flows", "rules"]

@@ -7,7 +7,7 @@ import pandas as pd
 import pytest
 
 from audit.errors import ConfigError
-from audit.rules.checks import (
+from audit.rules import (
     RSWF_MAX_SPACING,
     RSWF_MIN_SLOPE,
     SEVERITY_ORDER,
