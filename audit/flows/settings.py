@@ -54,6 +54,10 @@ class FlowOptions:
     tc_tolerance_min: float = 0.01
     tc_max_iterations: int = 50
     rainfall: Rainfall | None = None
+    # assumed loads for a rough screen of a register without load fields (0: none)
+    persons_per_manhole: float = 0.0  # persons at every manhole
+    persons_per_km: float = 0.0  # persons per km of sewer, placed at each pipe's upstream node
+    load_per_manhole_l_s: float = 0.0  # a point load at every manhole [l/s]
 
     @property
     def needs_rainfall(self) -> bool:
@@ -68,7 +72,7 @@ class FlowOptions:
 
 _NUMBERS = ("per_capita_l_day", "peaking_factor", "min_peaking_population", "occupancy", "infiltration_l_s_km",
             "infiltration_l_s_ha", "growth_factor", "c_impervious", "c_pervious", "fallback_velocity_m_s",
-            "tc_tolerance_min")  # fmt: skip
+            "tc_tolerance_min", "persons_per_manhole", "persons_per_km", "load_per_manhole_l_s")  # fmt: skip
 _KEYS = ("kind", "peaking", "tc_max_iterations", "rainfall", *_NUMBERS)
 _POSITIVE = frozenset({"growth_factor", "fallback_velocity_m_s", "tc_tolerance_min", "occupancy"})
 _FRACTIONS = frozenset({"c_impervious", "c_pervious"})

@@ -19,12 +19,13 @@ from audit.errors import ConfigProblems
 from audit.units import FACTORS, SPELLING, normalise_unit
 
 PIPE_FIELDS = (
-    "id", "from_node", "to_node", "shape", "diameter", "height", "width", "upstream_invert",
-    "downstream_invert", "length", "roughness", "material", "install_year", "flow",
+    "id", "from_node", "to_node", "kind", "shape", "diameter", "height", "width", "side_slope",
+    "upstream_invert", "downstream_invert", "upstream_depth", "downstream_depth", "length",
+    "roughness", "material", "install_year", "flow",
 )  # fmt: skip
 """Canonical pipe keys of ``[pipes.fields]``."""
 
-MANHOLE_FIELDS = ("id", "rim", "invert", "depth", "inflow", "access", "population", "point_load")
+MANHOLE_FIELDS = ("id", "kind", "rim", "invert", "depth", "inflow", "access", "population", "point_load")
 """Canonical manhole keys of ``[manholes.fields]``."""
 
 CATCHMENT_FIELDS = ("id", "drains_to", "population", "dwellings", "occupancy", "area_ha", "runoff_coefficient",
@@ -38,6 +39,8 @@ PIPE_UNITS: Mapping[str, tuple[str, str]] = MappingProxyType(
         "width": ("length", "mm"),
         "upstream_invert": ("length", "m"),
         "downstream_invert": ("length", "m"),
+        "upstream_depth": ("length", "m"),
+        "downstream_depth": ("length", "m"),
         "length": ("length", "m"),
         "flow": ("flow", "l/s"),
     }
@@ -50,7 +53,19 @@ MANHOLE_UNITS: Mapping[str, tuple[str, str]] = MappingProxyType(
 )
 """Keys of ``[manholes.units]``: (quantity, default unit)."""
 
-SHAPES = ("circular", "rectangular", "egg")
+SHAPES = ("circular", "rectangular", "egg", "open_rectangular", "trapezoidal")
+"""Canonical section shapes; ``[pipes.shapes]`` maps the user's codes to them."""
+
+PIPE_KINDS = ("gravity", "private", "rising_main", "siphon", "overflow", "abandoned")
+"""Canonical pipe kinds; ``[pipes.kinds]`` maps the user's codes to them (docs/config.md).
+
+gravity and private pipes are judged by the gravity rules; rising mains and siphons run under
+pressure and carry flow through the network unjudged; overflow pipes join the network but carry
+no design flow; abandoned pipes are kept in the output and left out of the network."""
+
+NODE_KINDS = ("manhole", "chamber", "pump_station", "outfall")
+"""Canonical node kinds; ``[manholes.kinds]`` maps the user's codes to them (docs/config.md)."""
+
 ENGINES = ("pyogrio", "fiona")
 
 
@@ -68,7 +83,9 @@ class LayerSource:
 
     ``fields`` maps canonical key -> the user's field name (mapped keys only); ``units`` holds
     every unit key with its default filled in; ``shapes`` maps the user's shape codes to
-    canonical shapes (pipes only).
+    canonical shapes (pipes only); ``kinds`` the user's kind codes to canonical kinds (pipes
+    and manholes); ``sentinels`` canonical key -> values that mean "unknown" in that field
+    only, beside ``[input] sentinels``.
     """
 
     path: Path
@@ -77,6 +94,8 @@ class LayerSource:
     fields: Mapping[str, str] = field(default_factory=lambda: MappingProxyType({}))
     units: Mapping[str, str] = field(default_factory=lambda: MappingProxyType({}))
     shapes: Mapping[str, str] = field(default_factory=lambda: MappingProxyType({}))
+    kinds: Mapping[str, str] = field(default_factory=lambda: MappingProxyType({}))
+    sentinels: Mapping[str, tuple[float, ...]] = field(default_factory=lambda: MappingProxyType({}))
 
 
 def parse_input(check: ConfigProblems, data: object) -> InputOptions:
@@ -121,15 +140,35 @@ def _unit_map(check: ConfigProblems, data: object, key: str, spec: Mapping[str, 
     return MappingProxyType(units)
 
 
-def _shape_map(check: ConfigProblems, data: object, key: str) -> Mapping[str, str]:
+def _code_map(check: ConfigProblems, data: object, key: str, choices: tuple[str, ...]) -> Mapping[str, str]:
+    """A table of the user's codes to one of ``choices`` (``[pipes.shapes]``, ``[pipes.kinds]``, ...)."""
     table = check.table(data, key, None)
-    shapes: dict[str, str] = {}
-    for code, shape in table.items():
-        if shape not in SHAPES:
-            check.fail(f"{key}.{code}", "one of " + ", ".join(repr(s) for s in SHAPES), shape)
+    codes: dict[str, str] = {}
+    for code, value in table.items():
+        if value not in choices:
+            check.fail(f"{key}.{code}", "one of " + ", ".join(repr(c) for c in choices), value)
         else:
-            shapes[code] = shape
-    return MappingProxyType(shapes)
+            codes[code] = value
+    return MappingProxyType(codes)
+
+
+def _is_number(value: object) -> bool:
+    return isinstance(value, int | float) and not isinstance(value, bool)
+
+
+def _sentinel_map(check: ConfigProblems, data: object, key: str, names: tuple[str, ...]) -> Mapping[str, tuple[float, ...]]:
+    """``[<layer>.sentinels]``: canonical key -> a number or an array of numbers meaning "unknown"."""
+    table = check.table(data, key, names)
+    sentinels: dict[str, tuple[float, ...]] = {}
+    for name, value in table.items():
+        values = value if isinstance(value, list) else [value]
+        if name not in names:
+            continue
+        if not values or not all(_is_number(v) for v in values):
+            check.fail(f"{key}.{name}", "a number or an array of numbers", value)
+            continue
+        sentinels[name] = tuple(float(v) for v in values)
+    return MappingProxyType(sentinels)
 
 
 _LAYER_KEYS: Mapping[str, tuple[tuple[str, ...], Mapping[str, tuple[str, str]]]] = MappingProxyType(
@@ -140,7 +179,9 @@ _LAYER_KEYS: Mapping[str, tuple[tuple[str, ...], Mapping[str, tuple[str, str]]]]
 def parse_layer_source(check: ConfigProblems, data: object, key: str, folder: Path) -> LayerSource:
     """``[pipes]``, ``[manholes]`` or ``[catchments]`` (``key``); a relative path resolves against ``folder``."""
     names, units = _LAYER_KEYS[key]
-    allowed = ("path", "layer", "crs", "fields") + (("units",) if units else ()) + (("shapes",) if key == "pipes" else ())
+    kinds = {"pipes": PIPE_KINDS, "manholes": NODE_KINDS}.get(key)
+    allowed = ("path", "layer", "crs", "fields", "sentinels") + (("units",) if units else ()) + (("shapes",) if key == "pipes" else ())
+    allowed += ("kinds",) if kinds else ()
     table = check.table(data, key, allowed)
     path = check.text(table, "path", key, None)
     if path is None and "path" not in table:
@@ -151,5 +192,7 @@ def parse_layer_source(check: ConfigProblems, data: object, key: str, folder: Pa
         crs=_crs(check, table, key),
         fields=_field_map(check, table.get("fields", {}), f"{key}.fields", names),
         units=_unit_map(check, table.get("units", {}), f"{key}.units", units),
-        shapes=_shape_map(check, table.get("shapes", {}), f"{key}.shapes"),
+        shapes=_code_map(check, table.get("shapes", {}), f"{key}.shapes", SHAPES),
+        kinds=_code_map(check, table.get("kinds", {}), f"{key}.kinds", kinds) if kinds else MappingProxyType({}),
+        sentinels=_sentinel_map(check, table.get("sentinels", {}), f"{key}.sentinels", tuple(n for n in names if n != "id")),
     )

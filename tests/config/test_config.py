@@ -66,6 +66,13 @@ flow = "MGD"
 [pipes.shapes]
 C = "circular"
 E = "egg"
+[pipes.kinds]
+GRAV = "gravity"
+FM = "rising_main"
+ABAN = "abandoned"
+[pipes.sentinels]
+upstream_invert = 0
+diameter = [0, 99]
 [manholes]
 path = "../shared/nodes.geojson"
 [manholes.fields]
@@ -73,6 +80,8 @@ id = "MH"
 inflow = "Q"
 [manholes.units]
 inflow = "gpm"
+[manholes.kinds]
+LS = "pump_station"
 [network]
 direction = "digitised"
 snap_tolerance_m = 0.25
@@ -97,10 +106,13 @@ def test_full_config_is_read_into_frozen_dataclasses(tmp_path: Path) -> None:
     assert config.pipes.units["flow"] == "mgd"
     assert config.pipes.units["height"] == "mm"
     assert dict(config.pipes.shapes) == {"C": "circular", "E": "egg"}
+    assert dict(config.pipes.kinds) == {"GRAV": "gravity", "FM": "rising_main", "ABAN": "abandoned"}
+    assert dict(config.pipes.sentinels) == {"upstream_invert": (0.0,), "diameter": (0.0, 99.0)}
     assert config.manholes is not None
     assert config.manholes.path == (tmp_path.parent / "shared" / "nodes.geojson").resolve()
     assert config.manholes.units["inflow"] == "gpm"
     assert config.manholes.units["rim"] == "m"
+    assert dict(config.manholes.kinds) == {"LS": "pump_station"}
     assert config.network.direction == "digitised"
     assert config.network.snap_tolerance_m == 0.25
     assert config.hydraulics.formula == "colebrook-white"
@@ -151,9 +163,20 @@ P = '[pipes]\npath = "a.gpkg"\n'
         pytest.param('[input]\nengine = "gdal"\n' + P, "input.engine: expected one of 'pyogrio', 'fiona'",
                      id="engine"),
         pytest.param(P + '[pipes.shapes]\nOV = "oval"\n',
-                     "pipes.shapes.OV: expected one of 'circular', 'rectangular', 'egg', got 'oval'", id="shape"),
+                     "pipes.shapes.OV: expected one of 'circular', 'rectangular', 'egg', 'open_rectangular', 'trapezoidal', got 'oval'", id="shape"),
         pytest.param('[input]\nsentinels = ["none"]\n' + P, "input.sentinels: expected an array of numbers",
                      id="sentinels"),
+        pytest.param(P + '[pipes.kinds]\nFM = "force_main"\n',
+                     "pipes.kinds.FM: expected one of 'gravity', 'private', 'rising_main', 'siphon', 'overflow', 'abandoned', got 'force_main'",
+                     id="pipe-kind"),
+        pytest.param(P + '[manholes]\npath = "b.gpkg"\n[manholes.kinds]\nLS = "lift"\n',
+                     "manholes.kinds.LS: expected one of 'manhole', 'chamber', 'pump_station', 'outfall', got 'lift'", id="node-kind"),
+        pytest.param(P + '[pipes.sentinels]\ndiameter = ["zero"]\n', "pipes.sentinels.diameter: expected a number or an array of numbers",
+                     id="field-sentinels"),
+        pytest.param(P + '[pipes.sentinels]\ndiam = 0\n', "pipes.sentinels.diam: unknown key; did you mean 'diameter'?",
+                     id="field-sentinels-key"),
+        pytest.param(P + '[catchments]\npath = "c.gpkg"\n[catchments.kinds]\nX = "manhole"\n', "catchments.kinds: unknown key",
+                     id="kinds-only-for-pipes-and-manholes"),
         pytest.param(P + 'crs = "EPSG:0"\n', "pipes.crs: expected a CRS", id="crs"),
         pytest.param('[pipes]\nlayer = "sewers"\n',
                      "pipes.path: expected the path of the layer's file (required)", id="path-required"),
