@@ -1,7 +1,7 @@
 """Field values of one layer: text, numbers in the user's unit, ids; problems become findings.
 
-Findings emitted: ``not_a_number``, ``sentinel_value``, ``nonpositive_size``, ``missing_id``,
-``duplicate_id`` (see audit.layers for their meaning).
+Findings emitted: ``not_a_number``, ``sentinel_value``, ``nonpositive_size``, ``not_a_date``,
+``missing_id``, ``duplicate_id`` (see audit.layers.reading for their meaning).
 
 Messages are built only for the rows that get a finding, so a clean column of a million values
 costs a few array operations and no text.
@@ -17,7 +17,19 @@ import pandas as pd
 
 from audit.findings import FindingLog
 
-SIZES = frozenset({"diameter", "height", "width", "length", "depth", "area_ha"})
+SIZES = frozenset({"diameter", "height", "width", "length", "depth", "upstream_depth", "downstream_depth", "area_ha"})
+"""Fields whose zero or negative values are no size at all: they become NaN with a finding."""
+
+YEARS = (1800, 2200)
+"""Install years outside this range are not taken as years (an epoch count, a typo)."""
+
+# Date text a register may hold: ISO (yyyy-mm-dd, optionally with a time), month or day first
+# with slashes, dashes or dots (m/d/yyyy, d/m/yyyy, d.m.yyyy), or a bare year. Only the year is
+# needed, so the order of day and month never matters; both must still be a day and a month.
+_ISO_DATE = r"(?P<iso_year>\d{4})[-/.](?P<iso_month>\d{1,2})[-/.](?P<iso_day>\d{1,2})(?:[ T].*)?"
+_DAY_FIRST = r"(?P<first>\d{1,2})[-/.](?P<second>\d{1,2})[-/.](?P<year>\d{4})(?:[ T].*)?"
+_BARE_YEAR = r"(?P<bare_year>\d{4})(?:\.0+)?"
+DATE_PATTERN = rf"^(?:{_ISO_DATE}|{_DAY_FIRST}|{_BARE_YEAR})$"
 
 Located = Callable[[np.ndarray], tuple[np.ndarray, np.ndarray]]
 
@@ -124,6 +136,59 @@ def as_number(raw: pd.Series, *, name: str, field: str, sentinels: tuple[float, 
         report.add(nonpositive, "nonpositive_size", Quoted(raw, before, " is not a positive size"))
         values[nonpositive] = np.nan
     return values
+
+
+def as_year(raw: pd.Series, *, field: str, sentinels: tuple[float, ...], report: Reporter) -> np.ndarray:
+    """Install year per feature from a year number, a Date or DateTime field, or date text.
+
+    A Date or DateTime field gives its year (an empty one gives none, silently); a number is a
+    year when it is whole and within ``YEARS``; text is read as in ``DATE_PATTERN``. Anything
+    else gives a ``not_a_date`` finding and no year, never a wrong number.
+
+    Examples
+    --------
+    >>> log = FindingLog()
+    >>> report = Reporter(log, "pipes", np.array(["A", "B", "C", "D", "E"], dtype=object), lambda rows: (rows * 0.0, rows * 0.0))
+    >>> text = pd.Series(["1987-10-31", "10/31/1987", "31.10.1987", "1987", "13/13/1987"])
+    >>> as_year(text, field="LAID", sentinels=(), report=report).tolist()
+    [1987.0, 1987.0, 1987.0, 1987.0, nan]
+    >>> log.to_frame()["feature"].tolist()
+    ['E']
+    """
+    if pd.api.types.is_datetime64_any_dtype(raw.dtype):
+        return raw.dt.year.to_numpy(dtype=float, na_value=np.nan)
+    if pd.api.types.is_numeric_dtype(raw.dtype) and not pd.api.types.is_bool_dtype(raw.dtype):
+        years = raw.to_numpy(dtype=float, na_value=np.nan).copy()
+        blank = np.isnan(years) | np.isin(years, sentinels)
+    else:
+        years, blank = _text_years(raw, sentinels)
+    plausible = (years == np.round(years)) & (years >= YEARS[0]) & (years <= YEARS[1])
+    bad = ~blank & ~plausible
+    report.add(bad, "not_a_date", Quoted(raw, f"install date field '{field}' = ", " is neither a date nor a year; no year is taken"))
+    return np.where(plausible & ~blank, years, np.nan)
+
+
+def _text_years(raw: pd.Series, sentinels: tuple[float, ...]) -> tuple[np.ndarray, np.ndarray]:
+    """Years [-] read from date text (NaN where it is not one) and the mask of blank or sentinel values.
+
+    Python ``date`` objects (a Date field read without Arrow) are taken as their ISO text.
+    """
+    text = raw.astype("string").str.strip()
+    blank = (text.isna() | (text == "")).to_numpy(dtype=bool, na_value=True)
+    number = pd.to_numeric(text, errors="coerce").to_numpy(dtype=float, na_value=np.nan)
+    blank |= np.isin(number, sentinels)
+    parts = text.str.extract(DATE_PATTERN)
+    value = {name: pd.to_numeric(parts[name], errors="coerce").to_numpy(dtype=float, na_value=np.nan) for name in parts.columns}
+    iso_ok = _is_day_month(value["iso_day"], value["iso_month"])
+    swapped_ok = _is_day_month(value["first"], value["second"]) | _is_day_month(value["second"], value["first"])
+    years = np.where(iso_ok, value["iso_year"], np.where(swapped_ok, value["year"], value["bare_year"]))
+    return years, blank
+
+
+def _is_day_month(day: np.ndarray, month: np.ndarray) -> np.ndarray:
+    """True where ``day`` and ``month`` can be a day of a month (1-31 and 1-12)."""
+    with np.errstate(invalid="ignore"):
+        return (day >= 1) & (day <= 31) & (month >= 1) & (month <= 12)
 
 
 def feature_ids(raw: pd.Series | None, *, count: int) -> tuple[np.ndarray, np.ndarray]:

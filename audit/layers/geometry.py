@@ -1,34 +1,73 @@
 """Geometry clean-up of one layer: 2D, one part per feature, of the layer's kind.
 
-Vectorised over all features with shapely; the caller turns the returned masks into findings
-(codes ``no_geometry``, ``wrong_geometry_type``, ``multipart_line``, ``multipart_point``).
+Vectorised over all features with shapely; the caller turns the returned masks and messages into
+findings (codes ``no_geometry``, ``wrong_geometry_type``, ``multipart_line``,
+``multipart_point``).
+
+A multi-line whose parts join end to start is merged into one line. One whose parts do not join
+(a gap, or parts drawn in different directions) is chained: its parts are taken in the order
+they are stored, each turned where that brings its start nearer the end of the one before, and
+joined across the gaps into one line, so the pipe keeps both of its real ends. Its drawn length
+is the total of its parts, without the gaps; the finding gives the parts, their lengths and the
+gaps.
 """
 
 from __future__ import annotations
+
+from dataclasses import dataclass
 
 import numpy as np
 import shapely
 
 
-def _longest_parts(multi: np.ndarray) -> np.ndarray:
-    """The longest part of each multi-line, vectorised over all of them."""
-    parts, owner = shapely.get_parts(multi, return_index=True)
-    order = np.lexsort((-shapely.length(parts), owner))
-    _, first = np.unique(owner[order], return_index=True)
-    return parts[order][first]
+@dataclass(frozen=True)
+class CleanGeometry:
+    """A layer's geometries after clean-up, with what was found on the way.
+
+    ``drawn_length`` is the total length of every part of a line [layer units] (NaN for points
+    and polygons and where there is no geometry); ``flags`` one mask per finding code;
+    ``messages`` per code one message per feature where the generic wording is not enough.
+    """
+
+    geometry: np.ndarray
+    drawn_length: np.ndarray
+    flags: dict[str, np.ndarray]
+    messages: dict[str, np.ndarray]
 
 
-def _merge_lines(geometry: np.ndarray, multi: np.ndarray) -> np.ndarray:
-    """Merge multi-lines in place (directed) where they join; else keep their longest part.
+def _chain(multi: shapely.MultiLineString) -> tuple[shapely.LineString, str]:
+    """The parts of a multi-line joined in stored order across their gaps, and a message with the numbers."""
+    parts = [part for part in shapely.get_parts(multi) if not part.is_empty and part.length > 0]
+    coordinates: list[np.ndarray] = []
+    gaps: list[float] = []
+    for part in parts:
+        xy = np.asarray(part.coords)[:, :2]
+        if coordinates:
+            end = coordinates[-1][-1]
+            if np.hypot(*(xy[-1] - end)) < np.hypot(*(xy[0] - end)):
+                xy = xy[::-1]
+            gaps.append(float(np.hypot(*(xy[0] - end))))
+        coordinates.append(xy)
+    line = shapely.linestrings(np.concatenate(coordinates)) if coordinates else None
+    lengths = ", ".join(f"{part.length:.2f}" for part in parts)
+    message = (f"the line has {len(parts)} parts that do not join (lengths {lengths} m, {sum(p.length for p in parts):.2f} m in all; "
+               f"gaps {', '.join(f'{gap:.2f}' for gap in gaps)} m); the parts are joined in order across the gaps")
+    return line, message
 
-    Returns the mask of the multi-lines that did not join.
+
+def _merge_lines(geometry: np.ndarray, multi: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Merge multi-lines in place (directed) where they join; else chain their parts.
+
+    Returns the mask of the multi-lines that did not join, and a message per feature for them.
     """
     index = np.flatnonzero(multi)
     merged = shapely.line_merge(geometry[index], directed=True)
     joined = shapely.get_type_id(merged) == shapely.GeometryType.LINESTRING
     geometry[index[joined]] = merged[joined]
-    geometry[index[~joined]] = _longest_parts(geometry[index[~joined]])
-    return np.isin(np.arange(len(geometry)), index[~joined])
+    messages = np.full(len(geometry), None, dtype=object)
+    for row in index[~joined]:  # rare: a loop over the lines whose parts do not join, not over every pipe
+        geometry[row], messages[row] = _chain(geometry[row])
+    return np.isin(np.arange(len(geometry)), index[~joined]), messages
 
 
 _KINDS = {
@@ -38,11 +77,11 @@ _KINDS = {
 }
 
 
-def clean_geometry(geometry: np.ndarray, *, kind: str) -> tuple[np.ndarray, dict[str, np.ndarray]]:
+def clean_geometry(geometry: np.ndarray, *, kind: str) -> CleanGeometry:
     """2D geometries of one kind: LineStrings, Points or (multi-)Polygons.
 
-    A multi-line keeps its merged line, else its longest part; a multi-point keeps its first
-    point; a multi-polygon stays whole (its area is the sum of its parts).
+    A multi-line keeps its merged line, else its parts chained across the gaps; a multi-point
+    keeps its first point; a multi-polygon stays whole (its area is the sum of its parts).
 
     Parameters
     ----------
@@ -51,7 +90,8 @@ def clean_geometry(geometry: np.ndarray, *, kind: str) -> tuple[np.ndarray, dict
 
     Returns
     -------
-    the cleaned geometries (None where unusable) and one boolean mask per finding code
+    :class:`CleanGeometry`: the cleaned geometries (None where unusable), the drawn length of
+    lines (all parts), one boolean mask per finding code and the messages that carry numbers
     """
     single, several = _KINDS[kind]
     measured = shapely.has_z(geometry)
@@ -63,13 +103,17 @@ def clean_geometry(geometry: np.ndarray, *, kind: str) -> tuple[np.ndarray, dict
     empty = (type_id < 0) | shapely.is_empty(geometry)
     multi = (type_id == several) & ~empty
     flags = {"no_geometry": empty, "wrong_geometry_type": ~empty & ~np.isin(type_id, [single, several])}
+    messages: dict[str, np.ndarray] = {}
+    drawn_length = np.full(len(geometry), np.nan)
     if kind == "line":
-        flags["multipart_line"] = _merge_lines(geometry, multi)
+        usable = ~empty & ~flags["wrong_geometry_type"]
+        drawn_length[usable] = shapely.length(geometry[usable])  # a multi-line's length is the total of its parts
+        flags["multipart_line"], messages["multipart_line"] = _merge_lines(geometry, multi)
     elif kind == "point":
         flags["multipart_point"] = multi & (shapely.get_num_geometries(geometry) > 1)
         geometry[multi] = shapely.get_geometry(geometry[multi], 0)
     geometry[empty | flags["wrong_geometry_type"]] = None
-    return geometry, flags
+    return CleanGeometry(geometry, drawn_length, flags, messages)
 
 
 def representative_points(geometry: np.ndarray, *, kind: str) -> tuple[np.ndarray, np.ndarray]:
@@ -85,6 +129,6 @@ def representative_points(geometry: np.ndarray, *, kind: str) -> tuple[np.ndarra
 GEOMETRY_MESSAGES = {
     "no_geometry": "the feature has no geometry",
     "wrong_geometry_type": "not of the layer's kind (lines for pipes, points for manholes, polygons for catchments); it is left out",
-    "multipart_line": "the parts of the line do not join into one line; the longest part is kept",
+    "multipart_line": "the parts of the line do not join into one line; they are joined in order across the gaps",
     "multipart_point": "the manhole has several points; the first is kept",
 }

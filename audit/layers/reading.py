@@ -11,7 +11,8 @@ Findings emitted (layer ``pipes``, ``manholes`` or ``catchments``; each message 
 
 * ``no_geometry``: null or empty geometry; the row stays with no geometry;
 * ``wrong_geometry_type``: not a line (pipes), point (manholes) or polygon (catchments); dropped;
-* ``multipart_line``: parts that do not join into one line; the longest part is kept;
+* ``multipart_line``: parts that do not join into one line; they are chained in order across the gaps
+  (the message gives the parts, their lengths and the gaps; the drawn length is the total of the parts);
 * ``multipart_point``: a multi-point manhole; its first point is kept;
 * ``not_a_number``: a value where a number is needed is not one; it becomes NaN;
 * ``sentinel_value``: a value listed in ``[input] sentinels``; it becomes NaN;
@@ -19,6 +20,10 @@ Findings emitted (layer ``pipes``, ``manholes`` or ``catchments``; each message 
 * ``missing_id``: an empty id; the feature is called ``#<row>``;
 * ``duplicate_id``: an id used by more than one feature;
 * ``unknown_shape``: a shape code neither mapped in ``[pipes.shapes]`` nor canonical;
+* ``unknown_kind``: a pipe or node kind code neither mapped in ``[<layer>.kinds]`` nor canonical;
+  the pipe is taken as gravity, the node as a manhole;
+* ``not_a_date``: an install date that is neither a date, a date and time, date text (ISO,
+  m/d/yyyy, d/m/yyyy, d.m.yyyy) nor a year from 1800 to 2200; no year is taken;
 * ``unknown_access``: an access value read neither as yes nor as no; taken as accessible.
 """
 
@@ -34,6 +39,7 @@ import fiona.errors
 import geopandas as gpd
 import numpy as np
 import pandas as pd
+import pyarrow as pa
 import pyogrio
 import pyproj
 
@@ -44,17 +50,21 @@ from audit.layers.fields import (
     Reporter,
     as_number,
     as_text,
+    as_year,
     feature_ids,
     report_ids,
     text_column,
 )
 from audit.layers.geometry import (
     GEOMETRY_MESSAGES,
+    CleanGeometry,
     clean_geometry,
     representative_points,
 )
 from audit.layers.settings import (
     MANHOLE_UNITS,
+    NODE_KINDS,
+    PIPE_KINDS,
     PIPE_UNITS,
     SHAPES,
     InputOptions,
@@ -62,8 +72,8 @@ from audit.layers.settings import (
 )
 from audit.units import to_si
 
-PIPE_NUMBERS = ("diameter", "height", "width", "upstream_invert", "downstream_invert", "length",
-                "roughness", "install_year", "flow")  # fmt: skip
+PIPE_NUMBERS = ("diameter", "height", "width", "side_slope", "upstream_invert", "downstream_invert", "upstream_depth",
+                "downstream_depth", "length", "roughness", "install_year", "flow")  # fmt: skip
 MANHOLE_NUMBERS = ("rim", "invert", "depth", "inflow", "population", "point_load")
 CATCHMENT_NUMBERS = ("population", "dwellings", "occupancy", "area_ha", "runoff_coefficient", "impervious_fraction")
 GEOMETRY_KINDS = {"pipes": "line", "manholes": "point", "catchments": "polygon"}
@@ -134,17 +144,49 @@ def _layer_name(source: LayerSource, key: str) -> str:
     raise InputError(f"{_where(source, source.layer)} not found ({key}.layer); the file holds: {listed}")
 
 
+# Integer fields read through Arrow keep an integer type (nullable where a value is missing)
+# instead of becoming floats, so that the output writes them back as integers.
+_INTEGER_DTYPES = {
+    pa.int8(): pd.Int8Dtype(), pa.int16(): pd.Int16Dtype(), pa.int32(): pd.Int32Dtype(), pa.int64(): pd.Int64Dtype(),
+    pa.uint8(): pd.UInt8Dtype(), pa.uint16(): pd.UInt16Dtype(), pa.uint32(): pd.UInt32Dtype(), pa.uint64(): pd.UInt64Dtype(),
+}  # fmt: skip
+
+
 def _read_original(source: LayerSource, key: str, *, engine: str) -> tuple[gpd.GeoDataFrame, str]:
     layer = _layer_name(source, key)
-    options = {"use_arrow": True} if engine == "pyogrio" else {}
+    options: dict[str, object] = {}
+    if engine == "pyogrio":
+        options = {"use_arrow": True, "arrow_to_pandas_kwargs": {"types_mapper": _INTEGER_DTYPES.get}}
     try:
         with quiet_measures():
             frame = gpd.read_file(source.path, layer=layer, engine=engine, **options)
+            if engine == "fiona":
+                frame = _declared_types(frame, source.path, layer)
     except _READ_ERRORS as error:
         raise InputError(f"{_where(source, layer)}: cannot be read ({error})") from None
     if not isinstance(frame, gpd.GeoDataFrame) or frame.geometry.name not in frame:
         raise InputError(f"{_where(source, layer)}: has no geometry column")
     return frame, layer
+
+
+def _declared_types(frame: gpd.GeoDataFrame, path: Path, layer: str) -> gpd.GeoDataFrame:
+    """The fields fiona read as floats or text back in the type the file declares.
+
+    Integer fields with a missing value come back as floats, narrow integers as 64-bit ones and
+    Date fields as text; all are restored (nullable integers of the declared width, dates) so the
+    output writes them as the input had them.
+    """
+    info = pyogrio.read_info(path, layer=layer)
+    for name, declared in zip(info["fields"], info["dtypes"], strict=True):
+        if name not in frame.columns:
+            continue
+        column = frame[name]
+        numeric = pd.api.types.is_float_dtype(column.dtype) or pd.api.types.is_integer_dtype(column.dtype)
+        if str(declared).startswith(("int", "uint")) and numeric and not pd.api.types.is_bool_dtype(column.dtype):
+            frame[name] = column.astype(str(declared).capitalize().replace("Uint", "UInt"))
+        elif str(declared) == "datetime64[D]" and not pd.api.types.is_datetime64_any_dtype(column.dtype):
+            frame[name] = pd.to_datetime(column, errors="coerce").dt.date.astype(pd.ArrowDtype(pa.date32()))
+    return frame
 
 
 def _source_crs(frame: gpd.GeoDataFrame, source: LayerSource, key: str, layer: str) -> pyproj.CRS:
@@ -187,23 +229,24 @@ def _field(frame: gpd.GeoDataFrame, wanted: str, *, key: str, where: str) -> pd.
     raise InputError(f"{where}: {key} = '{wanted}' is not a field of the layer; its fields are: {', '.join(fields)}")
 
 
-def _report_geometry(report: Reporter, flags: dict[str, np.ndarray], *, original: np.ndarray) -> None:
+def _report_geometry(report: Reporter, cleaned: CleanGeometry, *, original: np.ndarray) -> None:
     """One finding per flagged feature; a wrong type is named from the ``original`` geometry."""
-    for code, mask in flags.items():
+    for code, mask in cleaned.flags.items():
         messages: pd.Series | str = GEOMETRY_MESSAGES[code]
-        if code == "wrong_geometry_type" and mask.any():
+        if code in cleaned.messages:
+            messages = pd.Series(cleaned.messages[code], dtype=object)
+        elif code == "wrong_geometry_type" and mask.any():
             kinds = np.full(len(mask), "", dtype=object)
             kinds[mask] = gpd.GeoSeries(original[mask]).geom_type.to_numpy(dtype=object)
             messages = "the geometry is a " + pd.Series(kinds, dtype=object) + ", " + GEOMETRY_MESSAGES[code]
         report.add(mask, code, messages)
 
 
-def _geometry(frame: gpd.GeoDataFrame, source_crs: pyproj.CRS, crs: pyproj.CRS, *, kind: str) -> tuple[
-    gpd.GeoSeries, dict[str, np.ndarray]
-]:  # fmt: skip
-    geometry, flags = clean_geometry(frame.geometry.to_numpy().copy(), kind=kind)
-    series = gpd.GeoSeries(geometry, index=frame.index, crs=source_crs).to_crs(crs)
-    return series, flags
+def _geometry(frame: gpd.GeoDataFrame, source_crs: pyproj.CRS, crs: pyproj.CRS, *, kind: str) -> tuple[gpd.GeoSeries, CleanGeometry]:
+    """Geometry in the working CRS, cleaned there so that lengths and gaps are in metres."""
+    projected = gpd.GeoSeries(frame.geometry.to_numpy().copy(), index=frame.index, crs=source_crs).to_crs(crs)
+    cleaned = clean_geometry(projected.to_numpy().copy(), kind=kind)
+    return gpd.GeoSeries(cleaned.geometry, index=frame.index, crs=crs), cleaned
 
 
 @dataclass(frozen=True)
@@ -216,6 +259,10 @@ class _Context:
     where: str
     report: Reporter
     sentinels: tuple[float, ...]
+
+    def sentinels_of(self, name: str) -> tuple[float, ...]:
+        """The values that mean "unknown" in the field mapped to ``name``: ``[input]`` and ``[<layer>.sentinels]``."""
+        return self.sentinels + tuple(self.source.sentinels.get(name, ()))
 
 
 def _raw(context: _Context, name: str) -> pd.Series | None:
@@ -232,7 +279,10 @@ def _numbers(context: _Context, names: tuple[str, ...], units: Mapping[str, tupl
         if raw is None:
             columns[name] = np.full(len(context.frame), np.nan)
             continue
-        values = as_number(raw, name=name, field=str(raw.name), sentinels=context.sentinels, report=context.report)
+        if name == "install_year":
+            columns[name] = as_year(raw, field=str(raw.name), sentinels=context.sentinels_of(name), report=context.report)
+            continue
+        values = as_number(raw, name=name, field=str(raw.name), sentinels=context.sentinels_of(name), report=context.report)
         columns[name] = to_si(values, context.source.units[name], quantity=units[name][0]) if name in units else values
     return columns
 
@@ -264,6 +314,26 @@ def _shapes(context: _Context, sizes: dict[str, np.ndarray]) -> np.ndarray:
     return np.where(unmapped, np.where(which >= 0, codes, inferred.to_numpy(dtype=object)), mapped)
 
 
+def _kinds(context: _Context, choices: tuple[str, ...]) -> np.ndarray:
+    """Canonical kind per feature from the mapped codes (``[<layer>.kinds]``, else a canonical word).
+
+    Unmapped codes get an ``unknown_kind`` finding and the first choice (gravity, manhole); so do
+    features with no kind value.
+    """
+    raw = _raw(context, "kind")
+    if raw is None:
+        return np.full(len(context.frame), choices[0], dtype=object)
+    which, distinct = _distinct(as_text(raw))
+    table = dict(context.source.kinds)
+    lower = {code.lower(): kind for code, kind in table.items()} | {kind: kind for kind in choices}
+    named = distinct.map(table).fillna(distinct.str.lower().map(lower)).to_numpy(dtype=object)
+    mapped = np.where(which >= 0, named[np.maximum(which, 0)] if named.size else None, None)
+    unmapped = pd.isna(mapped) & (which >= 0)
+    context.report.add(unmapped, "unknown_kind", Quoted(raw, f"kind field '{raw.name}' = ",
+                       f" is neither in [{context.key}.kinds] nor one of " + ", ".join(choices) + f"; taken as {choices[0]}"))  # fmt: skip
+    return np.where(pd.isna(mapped), choices[0], mapped).astype(object)
+
+
 def _distinct(codes: np.ndarray) -> tuple[np.ndarray, pd.Series]:
     """Each value's position among the distinct values (-1 where None), and those values.
 
@@ -273,10 +343,11 @@ def _distinct(codes: np.ndarray) -> tuple[np.ndarray, pd.Series]:
     return which, pd.Series(np.asarray(distinct, dtype=object), dtype=object)
 
 
-def _access(context: _Context) -> np.ndarray:
+def _access(context: _Context, kind: np.ndarray) -> np.ndarray:
+    """Whether a person can open the node: the access field, else every kind but a chamber."""
     raw = _raw(context, "access")
     if raw is None:
-        return np.ones(len(context.frame), dtype=bool)
+        return np.asarray(kind != "chamber", dtype=bool)
     which, distinct = _distinct(as_text(raw))
     words = distinct.str.lower()
     known = np.r_[(words.isin(ACCESS_YES) | words.isin(ACCESS_NO)).to_numpy(dtype=bool), True][which]  # -1: no value
@@ -292,11 +363,12 @@ def _pipe_columns(context: _Context) -> dict[str, np.ndarray | pd.api.extensions
     fill = np.where(np.isnan(numbers["height"]), numbers["width"], numbers["height"])
     numbers["diameter"] = np.where(circular & np.isnan(numbers["diameter"]), fill, numbers["diameter"])
     texts = _texts(context, ("from_node", "to_node", "material"))
-    return {**texts, "shape": shape, **numbers}
+    return {**texts, "kind": _kinds(context, PIPE_KINDS), "shape": shape, **numbers}
 
 
 def _manhole_columns(context: _Context) -> dict[str, np.ndarray]:
-    return {**_numbers(context, MANHOLE_NUMBERS, MANHOLE_UNITS), "access": _access(context)}
+    kind = _kinds(context, NODE_KINDS)
+    return {**_numbers(context, MANHOLE_NUMBERS, MANHOLE_UNITS), "kind": kind, "access": _access(context, kind)}
 
 
 def _catchment_columns(context: _Context) -> dict[str, np.ndarray | pd.api.extensions.ExtensionArray]:
@@ -306,9 +378,10 @@ def _catchment_columns(context: _Context) -> dict[str, np.ndarray | pd.api.exten
 _COLUMNS = {"pipes": _pipe_columns, "manholes": _manhole_columns, "catchments": _catchment_columns}
 
 
-PIPE_ORDER = ("pipe_id", "from_node", "to_node", "shape", "diameter", "height", "width", "upstream_invert",
-              "downstream_invert", "length", "roughness", "material", "install_year", "flow")  # fmt: skip
-MANHOLE_ORDER = ("manhole_id", "rim", "invert", "depth", "inflow", "access", "population", "point_load")
+PIPE_ORDER = ("pipe_id", "from_node", "to_node", "kind", "shape", "diameter", "height", "width", "side_slope",
+              "upstream_invert", "downstream_invert", "upstream_depth", "downstream_depth", "length", "drawn_length",
+              "roughness", "material", "install_year", "flow")  # fmt: skip
+MANHOLE_ORDER = ("manhole_id", "kind", "rim", "invert", "depth", "inflow", "access", "population", "point_load")
 CATCHMENT_ORDER = ("catchment_id", "drains_to", *CATCHMENT_NUMBERS)
 _ORDER = {"pipes": ("pipe_id", PIPE_ORDER), "manholes": ("manhole_id", MANHOLE_ORDER),
           "catchments": ("catchment_id", CATCHMENT_ORDER)}  # fmt: skip
@@ -326,18 +399,20 @@ def _read_layer(source: LayerSource, key: str, *, options: InputOptions, finding
     id_field = source.fields.get("id")
     raw_id = None if id_field is None else _field(frame, id_field, key=f"{key}.fields.id", where=where)
     ids, missing = feature_ids(raw_id, count=len(frame))
-    geometry, flags = _geometry(frame, source_crs, crs, kind=kind)
+    geometry, clean = _geometry(frame, source_crs, crs, kind=kind)
     cleaned = geometry.to_numpy()
     report = Reporter(findings, key, ids, lambda rows: representative_points(cleaned[rows], kind=kind))
-    _report_geometry(report, flags, original=frame.geometry.to_numpy())
+    _report_geometry(report, clean, original=frame.geometry.to_numpy())
     report_ids(report, missing, field=None if raw_id is None else str(raw_id.name))
     context = _Context(frame, source, key, where, report, options.sentinels)
     columns = _COLUMNS[key](context)
     id_column, order = _ORDER[key]
     columns[id_column] = ids
+    columns["drawn_length"] = clean.drawn_length
     canonical = gpd.GeoDataFrame({name: columns[name] for name in order}, geometry=geometry, index=frame.index)
     mapping = {id_column: "id"}
-    absent = tuple(name for name in order if mapping.get(name, name) not in source.fields and name != "shape")
+    derived = ("shape", "drawn_length")  # filled whether or not a field is mapped
+    absent = tuple(name for name in order if mapping.get(name, name) not in source.fields and name not in derived)
     return LayerData(source.path, layer, frame, canonical, absent)
 
 

@@ -158,7 +158,7 @@ def test_pipes_and_manholes_in_different_files_formats_and_crs(tmp_path: Path, m
     np.testing.assert_allclose(shapely.get_x(nodes.geometry.values), [500000, 500040, 500080, 500080], atol=1e-3)
     assert nodes["access"].tolist() == [True, True, False, True]
     np.testing.assert_allclose(nodes["rim"], [11.5, 11.2, 10.9, 10.4])
-    assert layers.missing_fields["manholes"] == ("invert", "depth", "inflow", "population", "point_load")
+    assert layers.missing_fields["manholes"] == ("kind", "invert", "depth", "inflow", "population", "point_load")
 
 
 def test_geographic_layer_is_projected_and_lengths_match_the_ellipsoid(tmp_path: Path, make_config: MapConfig) -> None:
@@ -190,20 +190,29 @@ def test_crs_from_the_config_is_used_when_the_layer_has_none(tmp_path: Path, mak
     assert layers.crs == pyproj.CRS(UTM)
 
 
-def test_multipart_lines_are_merged_or_cut_to_the_longest_part(
+def test_multipart_lines_are_merged_or_chained_across_their_gaps(
     tmp_path: Path, make_config: MapConfig, unchanged: Check
 ) -> None:
     joined = MultiLineString([[(0, 0), (10, 0)], [(10, 0), (10, 5)]])
-    apart = MultiLineString([[(0, 0), (3, 0)], [(50, 0), (50, 20)], [(60, 0), (61, 0)]])
-    frame = gpd.GeoDataFrame({"REF": ["J", "S"]}, geometry=[joined, apart], crs=UTM)
+    # three parts that do not join; the third is drawn backwards against the second's end
+    apart = MultiLineString([[(0, 0), (3, 0)], [(50, 0), (50, 20)], [(61, 0), (60, 0)]])
+    frame = gpd.GeoDataFrame({"REF": ["J", "S"], "LEN": [15.0, 24.0]}, geometry=[joined, apart], crs=UTM)
     path = _write(frame, tmp_path, "pipes", "gpkg")
     unchanged()
-    layers, findings = _read(make_config(_pipes_config(path, '[pipes.fields]\nid = "REF"\n')))
+    layers, findings = _read(make_config(_pipes_config(path, '[pipes.fields]\nid = "REF"\nlength = "LEN"\n')))
     geometry = layers.pipes.canonical.geometry
     assert geometry.iloc[0].equals(LineString([(0, 0), (10, 0), (10, 5)]))
-    assert geometry.iloc[1].equals(LineString([(50, 0), (50, 20)]))
+    # chained in stored order; the third part is turned so that it starts nearer (50, 20)
+    assert geometry.iloc[1].equals(LineString([(0, 0), (3, 0), (50, 0), (50, 20), (60, 0), (61, 0)]))
+    # the drawn length is the total of the parts, without the gaps: 3 + 20 + 1 m
+    assert layers.pipes.canonical["drawn_length"].tolist() == [15.0, 24.0]
     found = findings.to_frame()
     assert found[["feature", "code"]].values.tolist() == [["S", "multipart_line"]]
+    gap = float(np.hypot(10.0, 20.0))  # from (50, 20) to (60, 0)
+    assert found["message"].iloc[0] == (
+        "the line has 3 parts that do not join (lengths 3.00, 20.00, 1.00 m, 24.00 m in all; "
+        f"gaps 47.00, {gap:.2f} m); the parts are joined in order across the gaps"
+    )
     unchanged()
 
 
