@@ -32,6 +32,7 @@ def build_network(
     *,
     snap_tolerance_m: float = 1.0,
     direction: str = "ids",
+    placeholder_ids: tuple[str, ...] = (),
     findings: FindingLog,
 ) -> Network:
     """Join pipe ends to nodes, set the flow direction and answer the graph questions.
@@ -45,7 +46,11 @@ def build_network(
     direction : ``"ids"`` (``from_node`` is upstream; falls back to ``"digitised"`` when no
         ids are mapped), ``"digitised"`` (first vertex is upstream) or ``"inverts"`` (the end
         with the higher invert level is upstream)
+    placeholder_ids : node ids that mean "no node" even where a manhole bears them
     findings : log that receives the problems found in the data
+
+    Abandoned pipes (``kind == "abandoned"``) are kept out of the network: both their nodes are
+    -1 and ``Network.left_out`` marks them.
 
     Returns
     -------
@@ -61,7 +66,8 @@ def build_network(
     _check_options(snap_tolerance_m=snap_tolerance_m, direction=direction)
     _check_layers(pipes, manholes)
     pipe_ids = pipe_labels(pipes)
-    joined = join_ends(pipes, manholes, tolerance_m=snap_tolerance_m)
+    left_out = (pipes["kind"] == "abandoned").to_numpy(dtype=bool) if "kind" in pipes else None
+    joined = join_ends(pipes, manholes, tolerance_m=snap_tolerance_m, placeholders=placeholder_ids, left_out=left_out)
     if manholes is not None:
         report.duplicate_ids(manholes, joined.repeated, findings=findings)
     report.join_findings(joined, pipe_ids=pipe_ids, findings=findings)
@@ -77,7 +83,7 @@ def build_network(
     upstream = np.where(flip, joined.end_node[:, 1], joined.end_node[:, 0])
     downstream = np.where(flip, joined.end_node[:, 0], joined.end_node[:, 1])
     node_count = len(joined.nodes)
-    order, in_cycle = order_pipes(upstream, downstream, node_count=node_count)
+    order, in_cycle, node_group = order_pipes(upstream, downstream, node_count=node_count)
     network = Network(
         nodes=joined.nodes,
         upstream=upstream,
@@ -88,6 +94,8 @@ def build_network(
         component=pipe_components(upstream, downstream, node_count=node_count),
         outfalls=outfall_nodes(upstream, downstream, node_count=node_count),
         direction=applied,
+        node_group=node_group,
+        left_out=joined.left_out,
     )
     report.graph_findings(network, pipes=pipes, pipe_ids=pipe_ids, findings=findings)
     return network
@@ -114,7 +122,7 @@ def _reversed_by_inverts(
     pipes: gpd.GeoDataFrame, joined: JoinedEnds, *, pipe_ids: np.ndarray, findings: FindingLog
 ) -> np.ndarray:
     """True where the last vertex lies higher than the first, so flow runs against digitising."""
-    levels, _ = digitised_end_levels(pipes, joined.end_node, node_invert_levels(joined.nodes))
+    levels, _ = digitised_end_levels(pipes, joined.end_node, node_invert_levels(joined.nodes), joined.nodes["rim"].to_numpy(dtype=float))
     flip = (levels[:, 1] > levels[:, 0]) & (joined.end_node[:, 0] >= 0)
     report.reversed_pipes(pipes, flip, levels, pipe_ids=pipe_ids, findings=findings)
     return flip

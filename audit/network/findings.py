@@ -57,12 +57,15 @@ def join_findings(joined: JoinedEnds, *, pipe_ids: np.ndarray, findings: Finding
     pipe, end = np.nonzero(joined.unknown)
     node = joined.end_node[pipe, end]
     names, kinds = _node_values(joined.nodes, "node_id", node), _node_values(joined.nodes, "kind", node)
-    fate = np.where(kinds == "manhole", "joined by snapping to manhole '", "left as junction '")
+    ends_at_node = np.bincount(joined.end_node[joined.end_node >= 0], minlength=len(joined.nodes))
+    alone = (node >= 0) & (ends_at_node[np.maximum(node, 0)] == 1)
+    fate = np.where(kinds == "manhole", "joined by snapping to manhole '", np.where(alone, "left as a head of run, node '", "left as junction '"))
     fate = pd.Series(fate, dtype=object) + _text(names) + "'"
     fate[node < 0] = "left unplaced"
+    named = np.where(joined.placeholder[pipe, end], "' is a placeholder id", "' names no manhole")
     messages = (
         "pipe " + _text(pipe_ids[pipe]) + ": " + _text(_END_NAMES[end]) + "_node '"
-        + _text(joined.end_ids(pipe, end)) + "' names no manhole; end " + fate
+        + _text(joined.end_ids(pipe, end)) + _text(named) + "; end " + fate
     )
     xy = joined.end_xy[pipe, end]
     findings.add_many("pipes", pipe_ids[pipe], "unknown_node", messages, x=xy[:, 0], y=xy[:, 1])

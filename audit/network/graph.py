@@ -33,6 +33,10 @@ class Network:
     component : int64 connected part per pipe (0 = the part with most pipes), -1 if not placed
     outfalls : int64 node indices that pipes flow into and that no pipe leaves
     direction : the direction rule that was applied (``"ids"``, ``"digitised"``, ``"inverts"``)
+    node_group : int64 per node: the lowest node index of the strongly connected set of nodes
+        (a loop) it lies in, else its own index; the flows stage carries loads through a loop
+        as through one node
+    left_out : bool per pipe kept out of the network on purpose (an abandoned pipe)
     """
 
     nodes: pd.DataFrame
@@ -44,6 +48,8 @@ class Network:
     component: np.ndarray
     outfalls: np.ndarray
     direction: str
+    node_group: np.ndarray
+    left_out: np.ndarray
 
 
 def _adjacency(upstream: np.ndarray, downstream: np.ndarray, node_count: int) -> coo_matrix:
@@ -114,8 +120,8 @@ def _kahn_levels(source: np.ndarray, target: np.ndarray, node_count: int) -> np.
 
 def order_pipes(
     upstream: np.ndarray, downstream: np.ndarray, *, node_count: int
-) -> tuple[np.ndarray, np.ndarray]:
-    """Topological order of the pipes, and which pipes lie on a directed cycle.
+) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Topological order of the pipes, which pipes lie on a directed cycle, and each node's loop.
 
     A pipe is on a cycle when both its ends fall in one strongly connected set of nodes (a
     pipe whose two ends are the same node is a cycle of one pipe). Every such set is merged into
@@ -133,13 +139,14 @@ def order_pipes(
     -------
     order : int64 permutation of the pipe positions
     in_cycle : bool per pipe
+    node_group : int64 per node, the lowest node index of its strongly connected set
 
     Examples
     --------
-    >>> order, in_cycle = order_pipes(np.array([1, 0, 2, 3, 4]), np.array([2, 1, 3, 4, 3]),
-    ...                               node_count=5)
-    >>> order.tolist(), in_cycle.tolist()
-    ([1, 0, 2, 3, 4], [False, False, False, True, True])
+    >>> order, in_cycle, group = order_pipes(np.array([1, 0, 2, 3, 4]), np.array([2, 1, 3, 4, 3]),
+    ...                                      node_count=5)
+    >>> order.tolist(), in_cycle.tolist(), group.tolist()
+    ([1, 0, 2, 3, 4], [False, False, False, True, True], [0, 1, 2, 3, 3])
     """
     strong = _strong_labels(upstream, downstream, node_count)
     placed = (upstream >= 0) & (downstream >= 0)
@@ -148,7 +155,9 @@ def order_pipes(
     acyclic = np.flatnonzero(placed & ~in_cycle)
     edges = _kahn_levels(strong[upstream[acyclic]], strong[downstream[acyclic]], node_count)
     rest = [np.flatnonzero(placed & in_cycle), np.flatnonzero(~placed)]
-    return np.concatenate([acyclic[edges], *rest]).astype(np.int64), in_cycle
+    lowest = np.full(node_count, node_count, dtype=np.int64)
+    np.minimum.at(lowest, strong, np.arange(node_count, dtype=np.int64))
+    return np.concatenate([acyclic[edges], *rest]).astype(np.int64), in_cycle, lowest[strong]
 
 
 def outfall_nodes(upstream: np.ndarray, downstream: np.ndarray, *, node_count: int) -> np.ndarray:

@@ -1,8 +1,9 @@
 """Levels per pipe: lengths, invert levels in flow direction, slope and cover.
 
-Levels come from the pipe's own invert fields where they are given, else from the manhole at
-that end (its invert, or its rim minus its depth). Everything is one numpy expression over all
-pipes.
+The invert level at each end of a pipe comes, in this order of preference, from the pipe's own
+invert field; from the pipe's depth at that end (cover to invert) below the rim of the manhole
+there; from the manhole's invert; or from the manhole's rim less its depth. Everything is one
+numpy expression over all pipes.
 
 Finding codes emitted: ``length_mismatch``, ``missing_invert``, ``zero_length``.
 """
@@ -42,32 +43,39 @@ def node_invert_levels(nodes: pd.DataFrame) -> np.ndarray:
 
 
 def digitised_end_levels(
-    pipes: pd.DataFrame, end_node: np.ndarray, node_level: np.ndarray
+    pipes: pd.DataFrame, end_node: np.ndarray, node_level: np.ndarray, node_rim: np.ndarray | None = None
 ) -> tuple[np.ndarray, np.ndarray]:
-    """Invert level at each end in digitising order, and whether it came from the pipe's fields.
+    r"""Invert level at each end in digitising order, and whether it came from the pipe's fields.
 
-    The pipe's ``upstream_invert`` / ``downstream_invert`` (as digitised) win; where one is
-    missing, the node at that end gives its level.
+    The pipe's ``upstream_invert`` / ``downstream_invert`` (as digitised) win; then the pipe's
+    ``upstream_depth`` / ``downstream_depth`` below the rim of the node at that end,
+    :math:`z = z_{rim} - d_{end}`; then the node's own invert level.
 
     Parameters
     ----------
     pipes : canonical pipe layer
     end_node : int64 (n, 2) node index of the first and last vertex, -1 where unknown
     node_level : invert level per node [m], NaN where unknown (see :func:`node_invert_levels`)
+    node_rim : rim (cover) level per node [m], NaN where unknown; None: end depths are not used
 
     Returns
     -------
     levels : float (n, 2) [m], NaN where unknown
-    from_pipe : bool (n, 2)
+    from_pipe : bool (n, 2): the level came from the pipe's invert or its depth at that end
+
+    Examples
+    --------
+    >>> pipes = pd.DataFrame({"upstream_invert": [10.0, np.nan], "downstream_depth": [2.0, 2.5]})
+    >>> levels, from_pipe = digitised_end_levels(pipes, np.array([[0, 1], [1, 2]]), np.array([9.0, 8.0, 7.0]),
+    ...                                          np.array([12.0, 11.0, 10.0]))
+    >>> levels.tolist(), from_pipe.tolist()
+    ([[10.0, 9.0], [8.0, 7.5]], [[True, True], [False, True]])
     """
-    count = len(pipes)
-    given = np.stack(
-        [pipes[name].to_numpy(dtype=float) if name in pipes else np.full(count, np.nan)
-         for name in ("upstream_invert", "downstream_invert")],
-        axis=1,
-    )
-    padded = np.r_[np.asarray(node_level, dtype=float), np.nan]
-    at_node = padded[np.where(end_node >= 0, end_node, len(padded) - 1)]
+    given = np.stack([_column(pipes, name) for name in ("upstream_invert", "downstream_invert")], axis=1)
+    if node_rim is not None:
+        depth = np.stack([_column(pipes, name) for name in ("upstream_depth", "downstream_depth")], axis=1)
+        given = np.where(np.isnan(given), _at(np.asarray(node_rim, dtype=float), end_node) - depth, given)
+    at_node = _at(np.asarray(node_level, dtype=float), end_node)
     from_pipe = ~np.isnan(given)
     return np.where(from_pipe, given, at_node), from_pipe
 
@@ -118,12 +126,11 @@ def derive_levels(
         when the network was built from a different number of pipes
     """
     _check(pipes, network, ratio=length_tolerance_ratio, tolerance_m=length_tolerance_m)
-    geometry = np.asarray(pipes.geometry.values, dtype=object)
-    drawn = np.where(shapely.is_missing(geometry) | shapely.is_empty(geometry), np.nan, shapely.length(geometry))
+    drawn = _drawn_length(pipes)
     attribute = _column(pipes, "length")
     length = np.where(np.isnan(attribute), drawn, attribute)
     rim, invert = _node_levels(network, manholes)
-    up, down, source = _flow_inverts(pipes, network, invert)
+    up, down, source = _flow_inverts(pipes, network, invert, rim)
     with np.errstate(divide="ignore", invalid="ignore"):
         slope = np.where(length > 0, (up - down) / length, np.nan)
     height = _height(pipes)
@@ -155,6 +162,14 @@ def _check(pipes: pd.DataFrame, network: Network, *, ratio: float, tolerance_m: 
         )
 
 
+def _drawn_length(pipes: gpd.GeoDataFrame) -> np.ndarray:
+    """Drawn length [m]: the total of every part (the layers stage's ``drawn_length``), else the line's length."""
+    if "drawn_length" in pipes:
+        return pipes["drawn_length"].to_numpy(dtype=float)
+    geometry = np.asarray(pipes.geometry.values, dtype=object)
+    return np.where(shapely.is_missing(geometry) | shapely.is_empty(geometry), np.nan, shapely.length(geometry))
+
+
 def _column(frame: pd.DataFrame, name: str) -> np.ndarray:
     return frame[name].to_numpy(dtype=float) if name in frame else np.full(len(frame), np.nan)
 
@@ -175,7 +190,7 @@ def _node_levels(network: Network, manholes: gpd.GeoDataFrame | None) -> tuple[n
 
 
 def _flow_inverts(
-    pipes: pd.DataFrame, network: Network, node_invert: np.ndarray
+    pipes: pd.DataFrame, network: Network, node_invert: np.ndarray, node_rim: np.ndarray
 ) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     """Upstream and downstream invert in flow direction and where they came from."""
     turned = network.reversed
@@ -183,7 +198,7 @@ def _flow_inverts(
         [np.where(turned, network.downstream, network.upstream), np.where(turned, network.upstream, network.downstream)],
         axis=1,
     )
-    levels, from_pipe = digitised_end_levels(pipes, end_node, node_invert)
+    levels, from_pipe = digitised_end_levels(pipes, end_node, node_invert, node_rim)
     up = np.where(turned, levels[:, 1], levels[:, 0])
     down = np.where(turned, levels[:, 0], levels[:, 1])
     known = ~(np.isnan(up) | np.isnan(down))

@@ -72,10 +72,10 @@ def midpoints(geometry: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     return x, y
 
 
-def snap_to_points(
-    ends_xy: np.ndarray, points_xy: np.ndarray, *, tolerance_m: float
+def nearest_points(
+    ends_xy: np.ndarray, points_xy: np.ndarray, *, tolerance_m: float, count: int = 1
 ) -> tuple[np.ndarray, np.ndarray]:
-    """Nearest point within the tolerance for every end, by one spatial-tree query.
+    """The ``count`` nearest points within the tolerance of every end, by one spatial-tree query.
 
     The tree is a k-d tree over the target points (``scipy.spatial.cKDTree``): for points it
     answers a bounded nearest-neighbour query for millions of ends several times faster than an
@@ -86,32 +86,34 @@ def snap_to_points(
     ends_xy : float array (m, 2) of end coordinates [m]; rows with NaN never snap
     points_xy : float array (k, 2) of target coordinates [m]; rows with NaN are never targets
     tolerance_m : largest distance at which an end still snaps (inclusive) [m]
+    count : how many of the nearest points to return per end, nearest first
 
     Returns
     -------
-    index into ``points_xy`` per end (-1 where no point lies within the tolerance), and the
-    distance to it [m] (NaN where none)
+    int64 (m, count) index into ``points_xy`` (-1 where no further point lies within the
+    tolerance), and float (m, count) distances to them [m] (NaN where none)
 
     Examples
     --------
-    >>> hit, dist = snap_to_points(np.array([[0.3, 0.0], [5.0, 5.0]]),
-    ...                            np.array([[0.0, 0.0], [9.0, 9.0]]), tolerance_m=0.5)
-    >>> hit.tolist(), round(float(dist[0]), 6)
-    ([0, -1], 0.3)
-    >>> snap_to_points(np.array([[0.5, 0.0]]), np.array([[0.0, 0.0]]), tolerance_m=0.5)[0].tolist()
-    [0]
+    >>> hit, dist = nearest_points(np.array([[0.3, 0.0], [5.0, 5.0]]),
+    ...                            np.array([[0.0, 0.0], [9.0, 9.0], [0.0, 0.4]]), tolerance_m=0.5, count=2)
+    >>> hit.tolist(), round(float(dist[0, 0]), 6)
+    ([[0, 2], [-1, -1]], 0.3)
+    >>> nearest_points(np.array([[0.5, 0.0]]), np.array([[0.0, 0.0]]), tolerance_m=0.5)[0].tolist()
+    [[0]]
     """
-    hit = np.full(len(ends_xy), -1, dtype=np.int64)
-    distance = np.full(len(ends_xy), np.nan)
+    hit = np.full((len(ends_xy), count), -1, dtype=np.int64)
+    distance = np.full((len(ends_xy), count), np.nan)
     end_ok = np.flatnonzero(~np.isnan(ends_xy).any(axis=1))
     target_ok = np.flatnonzero(~np.isnan(points_xy).any(axis=1))
     if end_ok.size == 0 or target_ok.size == 0:
         return hit, distance
     bound = np.nextafter(tolerance_m, np.inf)  # the tree's bound is strict; the tolerance is not
-    found, nearest = cKDTree(points_xy[target_ok]).query(ends_xy[end_ok], k=1, distance_upper_bound=bound)
+    found, nearest = cKDTree(points_xy[target_ok]).query(ends_xy[end_ok], k=[*range(1, count + 1)], distance_upper_bound=bound)
     within = nearest < target_ok.size  # a miss comes back as index == size, distance inf
-    hit[end_ok[within]] = target_ok[nearest[within]]
-    distance[end_ok[within]] = found[within]
+    rows, columns = np.nonzero(within)
+    hit[end_ok[rows], columns] = target_ok[nearest[rows, columns]]
+    distance[end_ok[rows], columns] = found[rows, columns]
     return hit, distance
 
 

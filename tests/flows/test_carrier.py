@@ -11,7 +11,7 @@ from audit.network.graph import order_pipes
 
 def flows_for(up: list[int], down: list[int], inflow: list[float], given: list[float] | None = None, length: list[float] | None = None):  # type: ignore[no-untyped-def]
     upstream, downstream = np.array(up), np.array(down)
-    order, in_cycle = order_pipes(upstream, downstream, node_count=len(inflow))
+    order, in_cycle, _ = order_pipes(upstream, downstream, node_count=len(inflow))
     log = FindingLog()
     result = design_flows(
         upstream=upstream,
@@ -91,12 +91,12 @@ def _network(up: list[int], down: list[int], inflow: list[float]):  # type: igno
     from audit.network.build import Network
 
     upstream, downstream = np.array(up), np.array(down)
-    order, in_cycle = order_pipes(upstream, downstream, node_count=len(inflow))
+    order, in_cycle, group = order_pipes(upstream, downstream, node_count=len(inflow))
     count = len(inflow)
     nodes = pd.DataFrame({"node_id": [f"N{i}" for i in range(count)], "kind": "manhole", "manhole_row": np.arange(count),
                           "x": np.arange(count) * 50.0, "y": 0.0, "inflow": inflow})  # fmt: skip
     return Network(nodes, upstream, downstream, np.zeros(len(up), bool), order, in_cycle, np.zeros(len(up), np.int64),
-                   np.array([count - 1]), "ids")  # fmt: skip
+                   np.array([count - 1]), "ids", node_group=group, left_out=np.zeros(len(up), bool))  # fmt: skip
 
 
 def _hydraulics(count: int):  # type: ignore[no-untyped-def]
