@@ -69,11 +69,12 @@ def water_kinematic_viscosity(temperature_c: ArrayLike) -> Array:
         \quad \nu = \mu / \rho
 
     with :math:`\mu_{20}` = 1.0020 mPa s and the density of :func:`water_density`; within
-    0.2 % of the IAPWS values from 0 to 40 C.
+    0.1 % of the IAPWS 2008 values from 0 to 40 C, more than 1 % low at 90 C (so ``[hydraulics]
+    water_temp_c`` stops at 40 C; tests/reference/test_water_properties.py).
 
     Parameters
     ----------
-    temperature_c : water temperature [C]
+    temperature_c : water temperature [C], valid 0 to 40
 
     Returns
     -------
@@ -124,11 +125,15 @@ def colebrook_white_velocity(
     .. math:: V = -2 \sqrt{2 g D S}\; \log_{10}\left(\frac{k_s}{3.7 D}
         + \frac{2.51\, \nu}{D \sqrt{2 g D S}}\right)
 
+    ``ks_mm`` = 0 is the hydraulically smooth wall. Where the log argument exceeds 1 (millimetre
+    pipes at tiny slopes, below the turbulent range) the velocity comes out negative; callers
+    take it as zero.
+
     Parameters
     ----------
     hydraulic_radius : R [m]
     slope : bed slope [-]
-    ks_mm : equivalent sand roughness [mm]
+    ks_mm : equivalent sand roughness [mm], 0 or more
     kinematic_viscosity : [m^2/s]
 
     Returns
@@ -180,7 +185,7 @@ class Friction:
     """One friction formula with a roughness per pipe.
 
     ``roughness`` is Manning's n [s/m^(1/3)], Colebrook-White ks [mm] or Chezy C [m^(1/2)/s],
-    according to ``formula``.
+    according to ``formula``; ``kinematic_viscosity`` [m^2/s] of the water (Colebrook-White).
     """
 
     formula: FormulaName
@@ -196,6 +201,14 @@ class Friction:
     def uniform(cls, formula: FormulaName, roughness: float, count: int, *, temperature_c: float = 15.0) -> Friction:
         """The same roughness for ``count`` pipes, with the viscosity at ``temperature_c``."""
         return cls(formula, np.full(count, float(roughness)), float(water_kinematic_viscosity(temperature_c)))
+
+    def roughness_known(self) -> NDArray[np.bool_]:
+        """Per pipe: the roughness is usable, finite and positive; for Colebrook-White also
+        ``ks = 0``, the hydraulically smooth wall (Manning's n and Chezy's C must be positive)."""
+        usable = np.isfinite(self.roughness) & (self.roughness > 0)
+        if self.formula == "colebrook-white":
+            usable |= self.roughness == 0
+        return usable
 
     def velocity(self, hydraulic_radius: Array, slope: Array, index: NDArray[np.intp] | None = None) -> Array:
         """Mean velocity [m/s] for the pipes ``index`` (all pipes when None)."""

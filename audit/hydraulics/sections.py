@@ -7,7 +7,7 @@ section, and the full-bore area and perimeter. At :math:`\eta = 1` the part-full
 the open-channel limit (free surface touching the soffit); the full-bore values include the lid
 where it is flat (rectangular) and coincide with that limit for curved soffits.
 
-Shapes:
+Closed shapes (``is_open`` False):
 
 * ``circular``: closed form by the central angle of the wetted segment (Chow 1959);
 * ``rectangular``: closed form; the lid joins the wetted perimeter only when full;
@@ -15,6 +15,13 @@ Shapes:
   R = B/2, invert radius R/2, side radius 3R), integrated in closed form arc by arc;
 * tabulated: any closed outline polygon (arch, horseshoe, a user's own), whose A, P and T are
   tabulated once for the shape and interpolated.
+
+Open channels (``is_open`` True: no lid, so no cover and no pressurised flow; ``H`` is the
+bank-full depth, the "full" values are bank-full and the capacity depth is bank-full):
+
+* ``open_rectangular``: closed form, bottom width ``B``;
+* ``trapezoidal``: closed form, bottom width ``B`` and side slope ``z`` (horizontal per vertical),
+  one instance per distinct side slope.
 
 References
 ----------
@@ -25,6 +32,7 @@ References
 
 from __future__ import annotations
 
+import itertools
 from dataclasses import dataclass, field
 from typing import Protocol
 
@@ -53,6 +61,10 @@ class Section(Protocol):
     @property
     def eta_capacity(self) -> float:
         """Relative depth of maximum Manning discharge, :math:`\\max A^{5/3} P^{-2/3}`."""
+
+    @property
+    def is_open(self) -> bool:
+        """True for a channel without a lid (no cover, no pressurised flow; full means bank-full)."""
 
 
 def _manning_argmax(section: Section, width_ratio: float) -> float:
@@ -101,6 +113,10 @@ class Circular:
     def eta_capacity(self) -> float:
         return _CIRCULAR_ETA_CAPACITY
 
+    @property
+    def is_open(self) -> bool:
+        return False
+
 
 @dataclass(frozen=True)
 class Rectangular:
@@ -125,6 +141,81 @@ class Rectangular:
     @property
     def eta_capacity(self) -> float:
         return 1.0
+
+    @property
+    def is_open(self) -> bool:
+        return False
+
+
+DEFAULT_SIDE_SLOPE = 1.5
+"""Side slope [horizontal per vertical] of a trapezoidal channel whose register gives none.
+
+1.5 H : 1 V, the side slope Chow (1959), table 7-1, suggests for firm clay or earth in small
+ditches (from memory); common for earth drainage channels (common practice, no source).
+"""
+
+
+@dataclass(frozen=True)
+class Trapezoidal:
+    r"""Open trapezoidal channel: bank-full depth ``H``, bottom width ``B``, side slope ``z``.
+
+    With the depth :math:`y = \eta H` and ``z`` horizontal per vertical on both banks,
+
+    .. math:: A = (B + z y)\, y, \quad P = B + 2 y \sqrt{1 + z^2}, \quad T = B + 2 z y;
+        \qquad A_f = (B + z H) H, \quad P_f = B + 2 H \sqrt{1 + z^2}
+
+    "Full" is bank-full, without a lid. Area grows faster than perimeter, so the discharge rises
+    up to the banks (``eta_capacity`` = 1). ``z`` = 0 is the open rectangle; ``B`` = 0 with
+    ``z`` > 0 a triangular (V) ditch. Source: Chow (1959), table 2-1.
+
+    Parameters
+    ----------
+    side_slope : z, horizontal per vertical [-]; :data:`DEFAULT_SIDE_SLOPE` when not given
+
+    >>> a, p, t = Trapezoidal(side_slope=2.0).elements(np.array(0.5), np.array(1.0), np.array(3.0))
+    >>> round(float(a), 12), round(float(p), 6), float(t)  # y = 0.5: (3 + 1) 0.5, 3 + sqrt(5), 3 + 2
+    (2.0, 5.236068, 5.0)
+    """
+
+    side_slope: float = DEFAULT_SIDE_SLOPE
+    name: str = "trapezoidal"
+
+    def elements(self, eta: Array, height: Array, width: Array) -> tuple[Array, Array, Array]:
+        depth = np.clip(eta, 0.0, 1.0) * height
+        z = self.side_slope
+        return (width + z * depth) * depth, width + 2.0 * depth * np.sqrt(1.0 + z**2), width + 2.0 * z * depth
+
+    def full(self, height: Array, width: Array) -> tuple[Array, Array]:
+        area, perimeter, _ = self.elements(np.ones_like(height), height, width)
+        return area, perimeter
+
+    @property
+    def eta_capacity(self) -> float:
+        return 1.0
+
+    @property
+    def is_open(self) -> bool:
+        return True
+
+
+@dataclass(frozen=True)
+class OpenRectangular(Trapezoidal):
+    r"""Open rectangular channel of bank-full depth ``H`` and width ``B``: no lid.
+
+    .. math:: A = B y, \quad P = B + 2 y, \quad T = B, \qquad y = \eta H;
+        \qquad A_f = B H, \quad P_f = B + 2 H
+
+    The trapezoid with vertical sides (``side_slope`` fixed at 0). "Full" is bank-full: the
+    wetted perimeter never includes a lid, the top width at bank-full is the surface width and
+    the discharge rises up to the banks (``eta_capacity`` = 1). Source: Chow (1959), table 2-1.
+
+    >>> a, p, t = OpenRectangular().elements(np.array(0.5), np.array(1.2), np.array(2.0))
+    >>> round(float(a), 12), round(float(p), 12), float(t)
+    (1.2, 3.2, 2.0)
+    """
+
+    side_slope: float = field(default=0.0, init=False)
+    name: str = "open_rectangular"
 
 
 # The standard egg in units of the top radius R (height 3R, width 2R): for each arc, its radius,
@@ -180,6 +271,10 @@ class Egg:
     @property
     def eta_capacity(self) -> float:
         return _EGG_ETA_CAPACITY
+
+    @property
+    def is_open(self) -> bool:
+        return False
 
 
 def _arc_integral(u: Array, radius: float, offset: float) -> Array:
@@ -244,11 +339,21 @@ class TabulatedSection:
     def eta_capacity(self) -> float:
         return self._capacity
 
+    @property
+    def is_open(self) -> bool:
+        return False
+
 
 _CIRCULAR_ETA_CAPACITY = _manning_argmax(Circular(), 1.0)
 _EGG_ETA_CAPACITY = _manning_argmax(Egg(), 2.0 / 3.0)
 
-_REGISTRY: dict[str, Section] = {"circular": Circular(), "rectangular": Rectangular(), "egg": Egg()}
+_REGISTRY: dict[str, Section] = {
+    "circular": Circular(),
+    "rectangular": Rectangular(),
+    "egg": Egg(),
+    "open_rectangular": OpenRectangular(),
+    "trapezoidal": Trapezoidal(),  # the default side slope; from_names makes one per side slope
+}
 
 
 def register_section(section: Section) -> None:
@@ -261,11 +366,15 @@ def section_names() -> tuple[str, ...]:
     return tuple(_REGISTRY)
 
 
+_FEW_SHAPES = 32  # below about 40 shapes one comparison per shape is cheaper than one stable sort (1e6 pipes)
+
+
 @dataclass(frozen=True)
 class PipeSections:
     """The sections of many pipes: a shape per pipe (index into ``shapes``), height and width.
 
-    Pipes whose shape name is not registered get ``kind == -1`` and NaN geometry.
+    Pipes whose shape name is not registered get ``kind == -1`` and NaN geometry. Trapezoidal
+    channels get one :class:`Trapezoidal` in ``shapes`` per distinct side slope.
     """
 
     kind: NDArray[np.int64]
@@ -274,27 +383,68 @@ class PipeSections:
     shapes: tuple[Section, ...]
 
     @classmethod
-    def from_names(cls, names: ArrayLike, height: ArrayLike, width: ArrayLike) -> PipeSections:
-        """Build from per-pipe shape names and sizes [m]."""
+    def from_names(
+        cls, names: ArrayLike, height: ArrayLike, width: ArrayLike, *, side_slope: ArrayLike | None = None
+    ) -> PipeSections:
+        """Build from per-pipe shape names and sizes [m].
+
+        ``side_slope`` [horizontal per vertical] is read for the ``trapezoidal`` pipes only, one
+        value per pipe (or one for all); NaN, or no array, means :data:`DEFAULT_SIDE_SLOPE`. A
+        negative or infinite side slope gives that pipe NaN geometry, and
+        :meth:`size_known` False.
+        """
         labels, codes = np.unique(np.asarray(names, dtype=object).astype(str), return_inverse=True)
-        shapes = tuple(_REGISTRY.get(label) for label in labels)
+        codes = codes.reshape(-1)
+        shapes = [_REGISTRY.get(label) for label in labels]
+        listed = np.flatnonzero(labels == "trapezoidal")
+        trapezoid = int(listed[0]) if listed.size and isinstance(shapes[listed[0]], Trapezoidal) else None
+        if trapezoid is not None:
+            shapes[trapezoid] = None  # replaced by one Trapezoidal per side slope, after the others
         known = np.array([shape is not None for shape in shapes] + [False])
         lookup = np.cumsum(known[:-1]) - 1
         kind = np.where(known[codes], lookup[codes], -1).astype(np.int64)
-        return cls(kind, np.asarray(height, dtype=float), np.asarray(width, dtype=float), tuple(s for s in shapes if s is not None))
+        found = [shape for shape in shapes if shape is not None]
+        if trapezoid is not None:
+            slopes, per_slope = _side_slopes(side_slope, codes == trapezoid)
+            kind[codes == trapezoid] = len(found) + per_slope
+            found += [Trapezoidal(side_slope=float(z), name=str(labels[trapezoid])) for z in slopes]
+        return cls(kind, np.asarray(height, dtype=float), np.asarray(width, dtype=float), tuple(found))
 
     def __len__(self) -> int:
         return len(self.kind)
 
+    @property
+    def is_open(self) -> NDArray[np.bool_]:
+        """Per pipe: True for an open channel (no lid), False for a closed or unknown shape."""
+        return np.array([shape.is_open for shape in self.shapes] + [False])[self.kind]
+
+    def size_known(self) -> NDArray[np.bool_]:
+        """Per pipe: the size describes a section.
+
+        Height and width finite and positive; a trapezoid's bottom width may be zero where its
+        sides slope (a V ditch), and its side slope must be finite and not negative.
+        """
+        sloping = [isinstance(shape, Trapezoidal) and shape.side_slope > 0 for shape in self.shapes]
+        valid = [not isinstance(shape, Trapezoidal) or shape.side_slope >= 0 for shape in self.shapes]  # NaN: invalid
+        zero_width_ok, shape_ok = np.array([*sloping, False])[self.kind], np.array([*valid, True])[self.kind]
+        height_ok = np.isfinite(self.height) & (self.height > 0)
+        width_ok = np.isfinite(self.width) & ((self.width > 0) | (zero_width_ok & (self.width == 0)))
+        return height_ok & width_ok & shape_ok
+
     def _per_shape(self, index: NDArray[np.intp] | None) -> list[tuple[Section, NDArray[np.intp], NDArray[np.intp]]]:
-        """For each shape present: (section, positions in the subset, pipe indices)."""
+        """For each shape present: (section, positions in the subset, pipe indices).
+
+        A few shapes are picked out by one comparison each; many (trapezoids of many side
+        slopes) by one sort, so the cost does not grow with pipes x shapes.
+        """
         kind = self.kind if index is None else self.kind[index]
-        groups = []
-        for code, shape in enumerate(self.shapes):
-            where = np.flatnonzero(kind == code)
-            if where.size:
-                groups.append((shape, where, where if index is None else index[where]))
-        return groups
+        if len(self.shapes) <= _FEW_SHAPES:
+            members = [np.flatnonzero(kind == code) for code in range(len(self.shapes))]
+        else:
+            order = np.argsort(kind, kind="stable")
+            bounds = np.searchsorted(kind[order], np.arange(len(self.shapes) + 1))
+            members = [order[start:stop] for start, stop in itertools.pairwise(bounds)]
+        return [(shape, where, where if index is None else index[where]) for shape, where in zip(self.shapes, members, strict=True) if where.size]
 
     def elements(self, eta: Array, index: NDArray[np.intp] | None = None) -> tuple[Array, Array, Array]:
         """Area, wetted perimeter and top width at ``eta`` (one value per pipe, or per ``index``)."""
@@ -317,3 +467,18 @@ class PipeSections:
         for shape, where, _ in self._per_shape(None):
             out[where] = shape.eta_capacity
         return out
+
+
+def _side_slopes(side_slope: ArrayLike | None, trapezoid: NDArray[np.bool_]) -> tuple[Array, NDArray[np.intp]]:
+    """The distinct side slopes of the ``trapezoid`` pipes and, for each of them, its position.
+
+    NaN (not given) becomes :data:`DEFAULT_SIDE_SLOPE`; a negative or infinite value becomes
+    NaN, whose section is NaN throughout.
+    """
+    given = np.full(trapezoid.shape, np.nan) if side_slope is None else np.asarray(side_slope, dtype=float)
+    z = np.broadcast_to(given, trapezoid.shape)[trapezoid]
+    z = np.where(np.isnan(z), DEFAULT_SIDE_SLOPE, z)
+    z = np.where(np.isfinite(z) & (z >= 0), z, np.nan)
+    slopes, per_slope = np.unique(z, return_inverse=True)
+    return slopes, per_slope.reshape(-1)
+
