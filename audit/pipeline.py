@@ -7,7 +7,7 @@ slopes, for users who want the graph itself.
 
 from __future__ import annotations
 
-from dataclasses import asdict, dataclass
+from dataclasses import asdict, dataclass, replace
 from functools import partial
 from pathlib import Path
 
@@ -26,6 +26,7 @@ from audit.hydraulics import (
     Friction,
     PipeHydraulics,
     PipeSections,
+    full_bore,
     normal_depth,
     water_kinematic_viscosity,
 )
@@ -39,7 +40,7 @@ from audit.result import (
     network_totals,
     with_columns,
 )
-from audit.rules import check_pipes
+from audit.rules import JUDGED_KINDS, check_pipes
 
 STAGES = ("reading layers", "building the network", "slopes", "design flows", "hydraulics", "rules", "assembling")
 
@@ -47,6 +48,8 @@ STAGES = ("reading layers", "building the network", "slopes", "design flows", "h
 # depth (the load-ratio rules judge it); zero flow and an unknown shape leave a check unrun.
 _RULE_STATUS = {FlowStatus.ABOVE_FULL_BORE: "ok", FlowStatus.ZERO_FLOW: "missing_flow", FlowStatus.UNKNOWN_SHAPE: "missing_size"}
 _STATUS_LABELS = np.array([status.label for status in FlowStatus], dtype=object)  # by status code
+# what the hydraulic status says for a pipe the gravity rules do not judge
+_KIND_STATUS = {"rising_main": "pressure_pipe", "siphon": "pressure_pipe", "overflow": "overflow", "abandoned": "left_out"}
 _RULE_LABELS = np.array([_RULE_STATUS.get(status, status.label) for status in FlowStatus], dtype=object)
 # the rules' columns taken from the computed ones as they are, and those under another name
 _METRIC_SAME = ("length_m", "slope", "q_full", "q_design", "load_ratio", "depth_ratio", "v_design", "shear")
@@ -99,6 +102,7 @@ def run(config: Config | str | Path, *, progress: bool = False) -> AuditResult:
         labels = pipe_labels(pipes)  # once, for the design flows' findings and the rules
         hydraulics = _pipe_hydraulics(ready, height=height, width=width)
         layers = ready.layers
+        kind = pipes["kind"].to_numpy(dtype=object)
         flows = built_flows(
             network,
             manholes=None if layers.manholes is None else layers.manholes.canonical,
@@ -108,9 +112,12 @@ def run(config: Config | str | Path, *, progress: bool = False) -> AuditResult:
             pipe_labels=labels,
             options=ready.config.flows,
             findings=ready.findings,
+            capacity=full_bore(hydraulics.sections, hydraulics.slope, hydraulics.friction)[0],
+            carries=kind != "overflow",
         )
         _step(bar, 4)
         state = normal_depth(flows.q_design, hydraulics.sections, hydraulics.slope, hydraulics.friction, temperature_c=hydraulics.temperature_c)
+        state = _gravity_only(state, judged=np.isin(kind, JUDGED_KINDS))
         _step(bar, 5)
         computed = _computed_columns(ready, flows, state, height=height)
         checks = check_pipes(
@@ -146,6 +153,26 @@ def pipe_sizes(pipes: pd.DataFrame) -> tuple[np.ndarray, np.ndarray]:
     out_height = np.select([circular, egg], [round_size, egg_height], height)
     out_width = np.select([circular, egg], [round_size, egg_height / 1.5], other_width)
     return out_height, out_width
+
+
+def _gravity_only(state: FlowState, *, judged: np.ndarray) -> FlowState:
+    """Uniform-flow results kept for the pipes the gravity rules judge; NaN for pressure, overflow
+    and abandoned pipes, whose flow no free-surface formula describes."""
+    if judged.all():
+        return state
+    blank = {name: np.where(judged, getattr(state, name), np.nan)
+             for name in ("q_full", "v_full", "q_max", "depth", "depth_ratio", "area", "velocity", "shear")}  # fmt: skip
+    return replace(state, **blank)
+
+
+def _status_labels(state: FlowState, kind: np.ndarray) -> pa.Array:
+    """The hydraulic status per pipe; a pipe not judged by the gravity rules says why instead."""
+    labels = pa.array(_STATUS_LABELS.tolist()).take(pa.array(state.status))
+    other = ~np.isin(kind, JUDGED_KINDS)
+    if not other.any():
+        return labels
+    named = pd.Series(kind, dtype=object).map(_KIND_STATUS).fillna("not_judged").to_numpy(dtype=object)
+    return pa.array(np.where(other, named, np.asarray(labels.to_pylist(), dtype=object)), type=pa.string())
 
 
 def _pipe_hydraulics(ready: Prepared, *, height: np.ndarray, width: np.ndarray) -> PipeHydraulics:
@@ -185,7 +212,8 @@ def _computed_columns(ready: Prepared, flows: DesignFlows, state: FlowState, *, 
         "depth_ratio": state.depth_ratio,
         "v_design": state.velocity,
         "shear": state.shear,
-        "hydraulic_status": _as_column(pa.array(_STATUS_LABELS.tolist()).take(pa.array(state.status))),
+        "hydraulic_status": _as_column(_status_labels(state, ready.layers.pipes.canonical["kind"].to_numpy(dtype=object))),
+        "pipe_kind": _as_column(pa.array(ready.layers.pipes.canonical["kind"].to_numpy(dtype=object), type=pa.string())),
         "from_node_id": _as_column(_node_text(node_ids, network.upstream)),
         "to_node_id": _as_column(_node_text(node_ids, network.downstream)),
         "upstream_length_m": flows.upstream_length,
@@ -234,6 +262,7 @@ def _metrics(
             **{name: computed[column].to_numpy() for name, column in _METRIC_RENAMED.items()},
             "hydraulic_status": text(_RULE_LABELS[state.status]),
             "flow_status": text(flows.source.astype(object)),
+            "kind": text(pipes["kind"].to_numpy(dtype=object)),
         },
         index=computed.index,
         copy=False,

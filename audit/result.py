@@ -43,12 +43,15 @@ PIPE_COLUMNS: dict[str, str] = {
     "q_full": "full-bore capacity [m3/s]",
     "v_full": "full-bore velocity [m/s]",
     "q_design": "design flow [m3/s]: given, else accumulated from manhole inflows or built from the catchment ([flows] kind)",
-    "flow_source": "where q_design comes from: given, accumulated, missing or cycle",
+    "flow_source": "where q_design comes from: given, accumulated, loop (the whole flow through a loop, an upper bound), "
+                   "self_loop or overflow (no flow), missing (not placed) or left_out (abandoned)",
     "load_ratio": "q_design / q_full [-]",
     "depth_ratio": "normal depth / internal height [-]; 1.0 when surcharged",
     "v_design": "mean velocity at the design flow [m/s]",
     "shear": "boundary shear stress at the design flow, rho g R S [Pa]",
-    "hydraulic_status": "ok, above_full_bore, surcharged, or why the hydraulics could not run",
+    "hydraulic_status": "ok, above_full_bore, surcharged, or why the hydraulics could not run; pressure_pipe, overflow or "
+                        "left_out for a pipe the gravity rules do not judge",
+    "pipe_kind": "gravity, private, rising_main, siphon, overflow or abandoned ([pipes.kinds]; gravity where unmapped)",
     "flags": "rule flag codes joined by ';' (empty when none)",
     "severity": "worst severity among the flags: high, medium, low (empty when none)",
     "reasons": "one reason per flag with the numbers, joined by '; '",

@@ -10,12 +10,13 @@ Modules: ``carrier`` (carrying values down the network by one sparse triangular 
 with the time of concentration iterated), ``building`` (the parts put together), ``settings``.
 """
 
-from audit.flows.building import built_flows, flow_assumptions, node_totals
-from audit.flows.carrier import Carrier, DesignFlows, FlowParts, design_flows
+from audit.flows.building import built_flows, flow_assumptions, flow_carrier, node_totals
+from audit.flows.carrier import SOURCES, Carrier, DesignFlows, FlowParts, design_flows, split_shares
 from audit.flows.settings import FLOW_KINDS, FlowOptions, Rainfall, parse_flows
 
 __all__ = [
     "FLOW_KINDS",
+    "SOURCES",
     "Carrier",
     "DesignFlows",
     "FlowOptions",
@@ -24,6 +25,8 @@ __all__ = [
     "built_flows",
     "design_flows",
     "flow_assumptions",
+    "flow_carrier",
     "node_totals",
     "parse_flows",
+    "split_shares",
 ]

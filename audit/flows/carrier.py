@@ -2,13 +2,20 @@ r"""Design flows: given per pipe, or manhole loads accumulated down the network.
 
 Each pipe's design flow is its given value where the register holds one (the pipe's total design
 flow). Elsewhere it is the flow leaving its upstream node: that node's own inflow plus the flows
-of every pipe entering it, so loads add up downstream. A node with several outgoing pipes (a
-bifurcation, rare in a gravity tree) splits its flow equally between them and is reported. A
-given flow replaces the accumulated flow in its pipe, and the pipes below carry the given value
-on.
+of every pipe entering it, so loads add up downstream. A given flow replaces the accumulated flow
+in its pipe, and the pipes below carry the given value on.
 
-Pipes on a loop, and every pipe downstream of one, get no design flow (NaN, source ``cycle``):
-a loop's flow cannot be summed without knowing how it divides, and a silent sum would be wrong.
+A node with several outgoing pipes (a bifurcation, rare in a gravity tree) splits its flow
+between them in proportion to their full-bore capacities, where every one of them has a known
+capacity, else equally; either way it is reported. Overflow pipes carry no design flow: they
+spill only above it.
+
+Loops (a real interconnection, or a register error) do not stop the flow. The nodes of one
+strongly connected set are carried as one node: the flow entering the loop, with the loads of
+its own nodes, leaves it by the pipes that leave it, split as at a bifurcation. A pipe on the
+loop is given the whole flow passing through the loop, an upper bound (how the flow divides
+around a loop is unknown), with source ``loop``. A pipe whose two ends are one node (a
+self-loop) carries nothing and is left out of the flow graph (source ``self_loop``).
 
 The accumulation is one sparse triangular solve over all nodes in topological order: with
 :math:`T` the flow leaving each node, :math:`b` the node inflows plus the given flows entering
@@ -16,8 +23,8 @@ each node, and :math:`W_{d,u}` the share of node u's flow that its pipe carries 
 
 .. math:: (I - W)\, T = b
 
-Finding codes emitted: ``flow_split`` (a node with more than one outgoing pipe),
-``flow_below_loop`` (pipes given no flow because a loop lies upstream).
+Finding codes emitted: ``flow_split`` (a node or loop with more than one outgoing pipe),
+``loop_flow`` (per loop: its pipes carry an upper bound).
 """
 
 from __future__ import annotations
@@ -34,7 +41,10 @@ from audit.findings import FindingLog
 Array = NDArray[np.float64]
 Index = NDArray[np.int64]
 
-SOURCES = ("given", "accumulated", "missing", "cycle")
+SOURCES = ("given", "accumulated", "loop", "self_loop", "overflow", "missing", "left_out")
+"""Where a design flow comes from: a given value, the loads carried down, the flow through a loop
+(an upper bound), none (a self-loop, an overflow pipe), no place in the network (``missing``:
+unplaced, ``left_out``: abandoned)."""
 
 
 @dataclass(frozen=True)
@@ -62,45 +72,113 @@ class FlowParts:
 
     @property
     def total(self) -> Array:
-        """Sum of the parts [m^3/s]; NaN in the pipes on or below a loop."""
+        """Sum of the parts [m^3/s]; NaN in the pipes that carry nothing."""
         return self.q_sanitary + self.q_infiltration + self.q_storm
 
 
 @dataclass(frozen=True)
 class Carrier:
-    """Carries node loads down a network once its split shares and loops are known.
+    """Carries node loads down a network once its loops, splits and carrying pipes are known.
 
-    ``usable`` marks the pipes whose carried value is defined: placed, on no loop and with no
-    loop upstream. Each call is one sparse triangular solve (:func:`accumulate`).
+    Nodes are carried by their loop group (``Network.node_group``): ``group_up`` and
+    ``group_down`` are the groups at a pipe's ends, -1 for a pipe that carries nothing between
+    groups. ``between`` pipes link two groups and carry ``share`` of their upstream group's
+    total; ``on_loop`` pipes lie inside a group of several nodes and are given its whole total.
+    ``usable`` = between or on a loop. Each call is one sparse triangular solve
+    (:func:`accumulate`).
     """
 
     upstream: Index
     downstream: Index
+    node_group: Index
+    group_up: Index
+    group_down: Index
     rank: Index
-    weight: Array  # share of the upstream node's total each pipe carries; 0 on loops
-    usable: NDArray[np.bool_]
+    share: Array
+    between: NDArray[np.bool_]
+    on_loop: NDArray[np.bool_]
+    self_loop: NDArray[np.bool_]
 
     @classmethod
-    def build(cls, *, upstream: Index, downstream: Index, order: Index, in_cycle: NDArray[np.bool_], node_count: int) -> Carrier:
-        """Equal split at bifurcations, loops cut out, pipes below a loop marked unusable."""
+    def build(cls, *, upstream: Index, downstream: Index, order: Index, node_group: Index, node_count: int,
+              capacity: Array | None = None, carries: NDArray[np.bool_] | None = None) -> Carrier:  # fmt: skip
+        """Shares at splits by full-bore capacity (equal where one is unknown), loops as one node.
+
+        Parameters
+        ----------
+        upstream, downstream : node per pipe in flow direction, -1 where not placed
+        order : the network's topological pipe order (``Network.order``)
+        node_group : loop group per node (``Network.node_group``)
+        node_count : number of nodes
+        capacity : full-bore capacity per pipe [m^3/s] for the shares at a split; None: equal shares
+        carries : pipes that may carry flow at all (False for overflow pipes); None: every pipe
+        """
         placed = (upstream >= 0) & (downstream >= 0)
-        rank = node_rank(upstream, downstream, order, node_count=node_count)
-        out_degree = np.bincount(upstream[placed], minlength=node_count)
-        carries = placed & ~in_cycle
-        weight = np.where(carries, 1.0 / np.maximum(out_degree[np.maximum(upstream, 0)], 1), 0.0)
-        cycle_nodes = np.zeros(node_count)
-        cycle_nodes[downstream[in_cycle & placed]] = 1.0
-        below, _ = accumulate(upstream, downstream, rank, node_load=cycle_nodes, pipe_weight=carries.astype(float), pipe_offset=np.zeros(upstream.size))
-        usable = carries & (below[np.maximum(upstream, 0)] == 0)
-        return cls(upstream, downstream, rank, weight, usable)
+        carrying = placed if carries is None else placed & np.asarray(carries, dtype=bool)
+        group = np.asarray(node_group, dtype=np.int64)
+        up_group = np.where(placed, group[np.maximum(upstream, 0)], -1)
+        down_group = np.where(placed, group[np.maximum(downstream, 0)], -1)
+        self_loop = placed & (upstream == downstream)
+        between = carrying & (up_group != down_group)
+        on_loop = carrying & (up_group == down_group) & ~self_loop
+        group_up, group_down = np.where(between, up_group, -1), np.where(between, down_group, -1)
+        rank = node_rank(group_up, group_down, order, node_count=node_count)
+        share = split_shares(group_up, node_count=node_count, capacity=capacity)
+        return cls(upstream, downstream, group, group_up, group_down, rank, share, between, on_loop, self_loop)
+
+    @property
+    def usable(self) -> NDArray[np.bool_]:
+        """Pipes whose carried value is defined: between loop groups, or on a loop."""
+        return self.between | self.on_loop
+
+    def through(self, node_load: Array, pipe_load: Array | None = None, *, split: bool = True) -> tuple[Array, Array]:
+        """The total leaving every node, and the value every pipe carries, for one set of loads.
+
+        ``node_load`` per node and ``pipe_load`` per pipe (its own value included in what it
+        carries; NaN counts as zero). ``split`` False carries every total whole down every pipe
+        (a sum over everything upstream, such as the length served). A pipe on a loop carries the
+        total passing through its loop; pipes that carry nothing get NaN.
+        """
+        load = np.bincount(self.node_group, weights=np.nan_to_num(node_load), minlength=self.node_group.size).astype(float)
+        own = np.zeros(self.upstream.size) if pipe_load is None else np.nan_to_num(pipe_load)
+        np.add.at(load, self.node_group[self.upstream[self.on_loop]], own[self.on_loop])  # a loop's own pipes load the loop
+        weight = np.where(self.between, self.share if split else 1.0, 0.0)
+        total, carried = accumulate(self.group_up, self.group_down, self.rank, node_load=load, pipe_weight=weight,
+                                    pipe_offset=np.where(self.between, own, 0.0))  # fmt: skip
+        carried[self.on_loop] = total[self.node_group[self.upstream[self.on_loop]]]
+        return total[self.node_group], np.where(self.usable, carried, np.nan)
 
     def carry(self, node_load: Array, pipe_load: Array | None = None) -> Array:
-        """Per pipe, the sum of ``node_load`` (per node) and ``pipe_load`` (per pipe, its own
-        included) upstream of it; NaN where not ``usable``. NaN loads count as zero."""
-        offset = np.zeros(self.upstream.size) if pipe_load is None else np.where(self.weight > 0, np.nan_to_num(pipe_load), 0.0)
-        _, carried = accumulate(self.upstream, self.downstream, self.rank, node_load=np.nan_to_num(node_load),
-                                pipe_weight=np.where(self.weight > 0, self.weight, 0.0), pipe_offset=offset)  # fmt: skip
-        return np.where(self.usable, carried, np.nan)
+        """Per pipe, the sum of ``node_load`` and ``pipe_load`` upstream of it, split at bifurcations."""
+        return self.through(node_load, pipe_load)[1]
+
+
+def split_shares(group_up: Index, *, node_count: int, capacity: Array | None) -> Array:
+    r"""Share of its upstream node's total each pipe carries: by full-bore capacity, else equal.
+
+    .. math:: w_p = \frac{Q_{f,p}}{\sum_{q \in out(u)} Q_{f,q}}
+
+    over the pipes ``q`` leaving the same node ``u``; equal shares :math:`1 / n_{out}` at a node
+    where any of its outgoing pipes has no positive finite capacity. ``group_up`` is -1 for
+    pipes that carry nothing.
+
+    Examples
+    --------
+    >>> split_shares(np.array([0, 0, 1, 2, 2]), node_count=3, capacity=np.array([1.0, 3.0, 2.0, 5.0, np.nan])).tolist()
+    [0.25, 0.75, 1.0, 0.5, 0.5]
+    """
+    leaving = group_up >= 0
+    node = np.maximum(group_up, 0)
+    count = np.bincount(group_up[leaving], minlength=node_count)
+    equal = np.where(leaving, 1.0 / np.maximum(count[node], 1), 0.0)
+    if capacity is None:
+        return equal
+    known = leaving & np.isfinite(capacity) & (capacity > 0)
+    all_known = np.bincount(group_up[leaving], weights=known[leaving].astype(float), minlength=node_count) == count
+    total = np.bincount(group_up[known], weights=capacity[known], minlength=node_count)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        by_capacity = np.where(known, capacity / total[node], 0.0)
+    return np.where(leaving & all_known[node], by_capacity, equal)
 
 
 def node_rank(upstream: Index, downstream: Index, order: Index, *, node_count: int) -> Index:
@@ -164,56 +242,67 @@ def accumulate(
 
 
 def design_flows(
+    carrier: Carrier,
     *,
-    upstream: Index,
-    downstream: Index,
-    order: Index,
-    in_cycle: NDArray[np.bool_],
     node_inflow: Array,
     given_flow: Array,
     length: Array,
+    left_out: NDArray[np.bool_] | None = None,
     pipe_labels: NDArray[np.object_],
     node_labels: NDArray[np.object_],
     findings: FindingLog,
-    carrier: Carrier | None = None,
 ) -> DesignFlows:
     """Design flow per pipe from given flows and manhole inflows [m^3/s].
 
-    ``node_inflow`` NaN counts as no load. ``carrier``, when the caller has built it for the
-    same network, saves building it again. Returns the flows, their source, the flow leaving
-    each node, and each pipe's upstream length served [m].
+    ``node_inflow`` NaN counts as no load; ``given_flow`` NaN where none. Returns the flows, their
+    source (``SOURCES``), the flow leaving each node, and each pipe's upstream length served [m].
     """
-    node_count = node_inflow.size
-    if carrier is None:
-        carrier = Carrier.build(upstream=upstream, downstream=downstream, order=order, in_cycle=in_cycle, node_count=node_count)
-    placed = (upstream >= 0) & (downstream >= 0)
-    carries = carrier.weight > 0  # placed and on no loop
-    out_degree = np.bincount(upstream[placed], minlength=node_count)
-    given = np.isfinite(given_flow) & (given_flow >= 0) & ~in_cycle
-    weight = np.where(given, 0.0, carrier.weight)
-    offset = np.where(carries & given, given_flow, 0.0)
-    load = np.nan_to_num(node_inflow, nan=0.0)
-    node_total, q_design = accumulate(upstream, downstream, carrier.rank, node_load=load, pipe_weight=weight, pipe_offset=offset)
-    tainted = carries & ~given & ~carrier.usable  # a loop lies upstream
-    _, upstream_length = accumulate(
-        upstream, downstream, carrier.rank, node_load=np.zeros(node_count), pipe_weight=carries.astype(float), pipe_offset=np.where(carries, np.nan_to_num(length), 0.0)
-    )
-
-    source = np.where(given, "given", "accumulated").astype("<U11")
-    source[~placed & ~given] = "missing"
-    source[in_cycle | tainted] = "cycle"
-    q_design = np.where(source == "given", given_flow, q_design)
-    q_design[(source == "cycle") | (source == "missing")] = np.nan
-    upstream_length[~carries] = np.nan
-    _report(findings, out_degree, node_labels, tainted, pipe_labels)
+    given = np.isfinite(given_flow) & (given_flow >= 0) & carrier.usable
+    # a given flow replaces the carried one in its pipe and goes on downstream in its place
+    replaced = Carrier(carrier.upstream, carrier.downstream, carrier.node_group, carrier.group_up, carrier.group_down,
+                       carrier.rank, np.where(given, 0.0, carrier.share), carrier.between, carrier.on_loop, carrier.self_loop)  # fmt: skip
+    node_total, q_design = replaced.through(node_inflow, np.where(given & carrier.between, given_flow, 0.0))
+    _, upstream_length = carrier.through(np.zeros(node_inflow.size), length, split=False)
+    source = flow_sources(carrier, left_out=left_out)
+    source[given] = "given"
+    q_design = np.where(given, given_flow, q_design)
+    q_design[source == "overflow"] = 0.0
+    report_flow_paths(carrier, pipe_labels=pipe_labels, node_labels=node_labels, findings=findings)
     return DesignFlows(q_design, source, node_total, upstream_length)
 
 
-def _report(findings: FindingLog, out_degree: Index, node_labels: NDArray[np.object_], tainted: NDArray[np.bool_], pipe_labels: NDArray[np.object_]) -> None:
-    """Findings for split nodes and for pipes left without a flow below a loop."""
-    split = np.flatnonzero(out_degree > 1)
+def flow_sources(carrier: Carrier, *, left_out: NDArray[np.bool_] | None = None) -> NDArray[np.str_]:
+    """Where each pipe's flow comes from, before given flows: accumulated, loop, self_loop, overflow, missing, left_out."""
+    placed = (carrier.upstream >= 0) & (carrier.downstream >= 0)
+    source = np.full(carrier.upstream.size, "accumulated", dtype="<U11")
+    source[carrier.on_loop] = "loop"
+    source[placed & ~carrier.usable] = "overflow"
+    source[carrier.self_loop] = "self_loop"
+    source[~placed] = "missing"
+    if left_out is not None:
+        source[left_out] = "left_out"
+    return source
+
+
+def report_flow_paths(carrier: Carrier, *, pipe_labels: NDArray[np.object_], node_labels: NDArray[np.object_], findings: FindingLog) -> None:
+    """``flow_split`` per node or loop that more than one pipe leaves; ``loop_flow`` per loop."""
+    leaving = carrier.group_up[carrier.between]
+    count = np.bincount(leaving, minlength=carrier.node_group.size)
+    split = np.flatnonzero(count > 1)
     if split.size:
-        messages = [f"{count} pipes leave this node; its flow is split equally between them" for count in out_degree[split]]
+        pipes = np.flatnonzero(carrier.between & np.isin(carrier.group_up, split))
+        pipes = pipes[np.argsort(carrier.group_up[pipes], kind="stable")]
+        shares: dict[int, list[str]] = {int(group): [] for group in split}
+        for pipe in pipes:  # one entry per pipe that leaves a split: a handful in a gravity network
+            shares[int(carrier.group_up[pipe])].append(f"{pipe_labels[pipe]} {100 * carrier.share[pipe]:.0f} %")
+        messages = [f"{count[group]} pipes leave this node; its flow is split between them: {', '.join(shares[int(group)])}"
+                    for group in split]  # fmt: skip
         findings.add_many("network", node_labels[split], "flow_split", messages)
-    if tainted.any():
-        findings.add_many("pipes", pipe_labels[tainted], "flow_below_loop", "no design flow: a loop upstream makes the accumulated flow unknown")
+    loop_pipes = np.flatnonzero(carrier.on_loop)
+    if loop_pipes.size:
+        groups, pipes_per_loop = np.unique(carrier.node_group[carrier.upstream[loop_pipes]], return_counts=True)
+        members = np.bincount(carrier.node_group, minlength=carrier.node_group.size)[groups]
+        messages = [f"a loop of {nodes} nodes and {pipes} pipes: the flow entering it, with its own loads, leaves by the pipes "
+                    "leaving it; each pipe on it is given the whole flow through the loop, an upper bound"
+                    for nodes, pipes in zip(members, pipes_per_loop, strict=True)]  # fmt: skip
+        findings.add_many("network", node_labels[groups], "loop_flow", messages)

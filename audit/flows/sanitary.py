@@ -41,6 +41,7 @@ from audit.flows.carrier import Carrier
 from audit.flows.settings import FlowOptions
 
 Array = NDArray[np.float64]
+Index = NDArray[np.int64]
 SECONDS_PER_DAY = 86_400.0
 LITRE = 1e-3  # [m^3]
 SQUARE_METRES_PER_HA = 10_000.0
@@ -170,8 +171,15 @@ def catchment_area_ha(catchments: pd.DataFrame) -> Array:
 
 
 def node_loads(nodes: pd.DataFrame, manholes: pd.DataFrame | None, catchments: pd.DataFrame | None, *,
-               options: FlowOptions, findings: FindingLog) -> NodeLoads:  # fmt: skip
-    """Population, point loads [m^3/s] and catchment area [ha] gathered at each node."""
+               options: FlowOptions, findings: FindingLog, pipe_upstream: Index | None = None,
+               pipe_length: Array | None = None) -> NodeLoads:  # fmt: skip
+    """Population, point loads [m^3/s] and catchment area [ha] gathered at each node.
+
+    Beside the mapped fields, the assumed loads of a rough screen are added where ``[flows]``
+    sets them: ``persons_per_manhole`` and ``load_per_manhole_l_s`` at every manhole and
+    chamber, and ``persons_per_km`` times the length of each pipe (``pipe_length`` [m]) at its
+    upstream node (``pipe_upstream``, -1 where the pipe carries nothing).
+    """
     count = len(nodes)
     population, point, area = np.zeros(count), np.nan_to_num(nodes["inflow"].to_numpy(dtype=float)), np.zeros(count)
     row = nodes["manhole_row"].to_numpy(dtype=np.int64)
@@ -179,6 +187,12 @@ def node_loads(nodes: pd.DataFrame, manholes: pd.DataFrame | None, catchments: p
         is_manhole = row >= 0
         population[is_manhole] += np.nan_to_num(manholes["population"].to_numpy(dtype=float)[row[is_manhole]])
         point[is_manhole] += np.nan_to_num(manholes["point_load"].to_numpy(dtype=float)[row[is_manhole]])
+    served = np.isin(nodes["role"].to_numpy(dtype=object), ("manhole", "chamber")) if "role" in nodes else row >= 0
+    population[served] += options.persons_per_manhole
+    point[served] += options.load_per_manhole_l_s * LITRE
+    if options.persons_per_km and pipe_upstream is not None and pipe_length is not None:
+        carrying = pipe_upstream >= 0
+        np.add.at(population, pipe_upstream[carrying], options.persons_per_km * np.nan_to_num(pipe_length[carrying]) / 1000.0)
     outlet = np.zeros(0, dtype=np.int64)
     if catchments is not None:
         outlet = catchment_outlets(catchments, nodes, findings=findings)
@@ -196,6 +210,8 @@ class SanitaryFlows:
     q_infiltration: Array
     population_served: Array
     area_served_ha: Array
+    q_sanitary_own: Array  # from each node's own loads alone [m^3/s] (what drains straight to it)
+    q_infiltration_own: Array
 
 
 def sanitary_flows(carrier: Carrier, loads: NodeLoads, *, length: Array, options: FlowOptions) -> SanitaryFlows:
@@ -210,15 +226,27 @@ def sanitary_flows(carrier: Carrier, loads: NodeLoads, *, length: Array, options
 
     Returns
     -------
-    :class:`SanitaryFlows`; NaN in pipes on or below a loop
+    :class:`SanitaryFlows`, per pipe (NaN in pipes that carry nothing) and per node
     """
     population = carrier.carry(loads.population)
     area = carrier.carry(loads.area_ha)
     point = carrier.carry(loads.point_load)
+    upstream_km = carrier.carry(np.zeros(loads.population.size), length) / 1000.0
+    q_sanitary, q_infiltration = _sanitary_parts(population, point, upstream_km, area, options=options)
+    own_sanitary, own_infiltration = _sanitary_parts(loads.population, loads.point_load, np.zeros(loads.population.size), loads.area_ha, options=options)
+    return SanitaryFlows(q_sanitary, q_infiltration, population, area, own_sanitary, own_infiltration)
+
+
+def _sanitary_parts(population: Array, point: Array, upstream_km: Array, area_ha: Array, *, options: FlowOptions) -> tuple[Array, Array]:
+    r"""Peaked domestic flow plus point loads, and infiltration [m^3/s], from the totals carried to a place.
+
+    .. math:: Q_s = PF(P)\, \frac{P\, q_{pc}}{86\,400} + Q_{point}, \qquad Q_i = r_{km} L_{km} + r_{ha} A
+
+    A storm sewer keeps only the point loads, with no infiltration.
+    """
     if not options.builds_sanitary:
-        return SanitaryFlows(point, np.where(carrier.usable, 0.0, np.nan), population, area)
+        return point, np.where(np.isnan(point), np.nan, 0.0)
     average = population * options.per_capita_l_day * LITRE / SECONDS_PER_DAY
     domestic = peaking_factor(population, options=options) * average
-    upstream_km = carrier.carry(np.zeros(loads.population.size), length) / 1000.0
-    infiltration = (options.infiltration_l_s_km * upstream_km + options.infiltration_l_s_ha * area) * LITRE
-    return SanitaryFlows(domestic + point, infiltration, population, area)
+    infiltration = (options.infiltration_l_s_km * upstream_km + options.infiltration_l_s_ha * area_ha) * LITRE
+    return domestic + point, infiltration

@@ -98,12 +98,12 @@ def runoff_coefficients(catchments: pd.DataFrame, *, options: FlowOptions, findi
 
 
 def pipe_levels(carrier: Carrier, *, node_count: int) -> list[Index]:
-    """The usable pipes in waves: every pipe after all pipes that flow into its upstream node.
+    """The pipes between loop groups in waves: every pipe after all pipes into its upstream group.
 
     One round per wave (the longest path, in pipes), each touching only that wave's pipes.
     """
-    pipes = np.flatnonzero(carrier.usable)
-    up, down = carrier.upstream[pipes], carrier.downstream[pipes]
+    pipes = np.flatnonzero(carrier.between)
+    up, down = carrier.group_up[pipes], carrier.group_down[pipes]
     waiting = np.bincount(down, minlength=node_count)
     by_node = np.argsort(up, kind="stable")
     starts = np.searchsorted(up[by_node], np.arange(node_count + 1))
@@ -121,11 +121,20 @@ def pipe_levels(carrier: Carrier, *, node_count: int) -> list[Index]:
     return levels
 
 
-def times_of_concentration(carrier: Carrier, levels: list[Index], *, travel_min: Array, inlet_min: float, node_count: int) -> Array:
-    """Time of concentration [min] at each pipe's upstream node, by a max-plus sweep; NaN where not usable."""
-    at_node = np.full(node_count, inlet_min)
+def node_times(carrier: Carrier, levels: list[Index], *, travel_min: Array, inlet_min: float, node_count: int) -> Array:
+    """Time of concentration [min] at every node, by a max-plus sweep over the waves of pipes.
+
+    A loop is one node: its nodes share one time, and the travel time around it is not counted.
+    """
+    at_group = np.full(node_count, inlet_min)
     for wave in levels:  # one step per level of the network, not per pipe
-        np.maximum.at(at_node, carrier.downstream[wave], at_node[carrier.upstream[wave]] + travel_min[wave])
+        np.maximum.at(at_group, carrier.group_down[wave], at_group[carrier.group_up[wave]] + travel_min[wave])
+    return at_group[carrier.node_group]
+
+
+def times_of_concentration(carrier: Carrier, levels: list[Index], *, travel_min: Array, inlet_min: float, node_count: int) -> Array:
+    """Time of concentration [min] at each pipe's upstream node (:func:`node_times`); NaN where not usable."""
+    at_node = node_times(carrier, levels, travel_min=travel_min, inlet_min=inlet_min, node_count=node_count)
     return np.where(carrier.usable, at_node[np.maximum(carrier.upstream, 0)], np.nan)
 
 
@@ -138,6 +147,7 @@ class StormFlows:
     runoff_area_ha: Array  # sum of C x A upstream [ha]
     iterations: int
     settled: bool
+    q_storm_own: Array  # runoff of the catchments draining straight to each node, at the inlet time [m^3/s]
 
 
 def _travel_min(pipes: PipeHydraulics, flow: Array | None, *, fallback: float) -> Array:
@@ -171,8 +181,8 @@ def storm_flows(carrier: Carrier, runoff_area_node: Array, pipes: PipeHydraulics
     rainfall, node_count = options.rainfall, runoff_area_node.size
     runoff_area = carrier.carry(runoff_area_node)
     levels = pipe_levels(carrier, node_count=node_count)
-    tc = times_of_concentration(carrier, levels, travel_min=_travel_min(pipes, None, fallback=options.fallback_velocity_m_s),
-                                inlet_min=rainfall.inlet_time_min, node_count=node_count)  # fmt: skip
+    travel = _travel_min(pipes, None, fallback=options.fallback_velocity_m_s)
+    tc = times_of_concentration(carrier, levels, travel_min=travel, inlet_min=rainfall.inlet_time_min, node_count=node_count)
     settled, iterations = False, 0
     while not settled and iterations < options.tc_max_iterations:
         iterations += 1
@@ -185,4 +195,5 @@ def storm_flows(carrier: Carrier, runoff_area_node: Array, pipes: PipeHydraulics
     if not settled:
         findings.add("network", "*", "tc_not_settled", f"the times of concentration still moved by more than {options.tc_tolerance_min:g} min after {iterations} passes")
     q_storm = rational_discharge(runoff_area, rainfall_intensity(tc, rainfall))
-    return StormFlows(q_storm, tc, runoff_area, iterations, settled)
+    q_own = rational_discharge(runoff_area_node, rainfall_intensity(np.full(node_count, rainfall.inlet_time_min), rainfall))
+    return StormFlows(q_storm, tc, runoff_area, iterations, settled, q_own)

@@ -12,6 +12,7 @@ strings).
 
 from audit.rules.checks import (
     HYDRAULIC_STATUSES,
+    JUDGED_KINDS,
     METRIC_COLUMNS,
     check_pipes,
     worst_severity_at_least,
@@ -31,6 +32,7 @@ __all__ = [
     "DEFAULT_SEVERITY",
     "FLAG_CODES",
     "HYDRAULIC_STATUSES",
+    "JUDGED_KINDS",
     "METRIC_COLUMNS",
     "RSWF_MAX_SPACING",
     "RSWF_MIN_SLOPE",

@@ -42,6 +42,9 @@ HYDRAULIC_STATUSES: tuple[str, ...] = (
     "missing_roughness", "missing_flow",
 )  # fmt: skip
 
+#: Pipe kinds the gravity rules judge (``audit.layers.settings.PIPE_KINDS``).
+JUDGED_KINDS: tuple[str, ...] = ("gravity", "private")
+
 # Sizes closer than this are equal: absorbs unit-conversion noise, not real steps [m].
 _SIZE_TOLERANCE = 1e-6
 
@@ -62,7 +65,10 @@ def check_pipes(
     ----------
     metrics : one row per pipe with the columns of ``METRIC_COLUMNS`` (SI, NaN where unknown);
         optional ``upstream_invert`` / ``downstream_invert`` [m] let a missing slope name the
-        missing invert
+        missing invert; optional ``kind`` (``audit.layers.settings.PIPE_KINDS``): only gravity
+        and private pipes are judged (a private drain is not held to the public minimum
+        diameter); rising mains, siphons, overflow and abandoned pipes get no flag and take no
+        part in the access runs or the size steps
     upstream, downstream : node index at the two ends of each pipe, in flow direction; -1 where
         unknown
     node_access : True for each node that is an access point (manhole with a cover)
@@ -77,6 +83,9 @@ def check_pipes(
     columns = _columns(metrics)
     size = _size(columns)
     upstream, downstream, node_access = _graph(upstream, downstream, node_access, count=len(metrics))
+    kind = metrics["kind"].to_numpy(dtype=object) if "kind" in metrics else np.full(len(metrics), "gravity", dtype=object)
+    judged = np.isin(kind, JUDGED_KINDS)
+    upstream, downstream = np.where(judged, upstream, -1), np.where(judged, downstream, -1)
     run = access_runs(upstream=upstream, downstream=downstream, node_access=node_access)
     run_length, run_pipes = run_totals(run, length=columns["length_m"])
     hits = {
@@ -89,7 +98,17 @@ def check_pipes(
         "shallow_cover": _cover_hit(columns, settings=settings),
         "missing_data": _missing_hit(columns, size=size),
     }
-    return _assemble(hits, settings=settings, index=metrics.index, run_length=run_length)
+    hits = {code: _restrict(hit, judged) for code, hit in hits.items()}
+    hits["below_min_diameter"] = _restrict(hits["below_min_diameter"], kind != "private")
+    return _assemble(hits, settings=settings, index=metrics.index, run_length=np.where(judged, run_length, np.nan))
+
+
+def _restrict(hit: Hit, keep: np.ndarray) -> Hit:
+    """A rule's hit kept only where ``keep``: its mask and the reasons of the rows that stay."""
+    mask, reason = hit
+    if isinstance(reason, str):
+        return mask & keep, reason
+    return mask & keep, reason.filter(pa.array(keep[mask]))
 
 
 def worst_severity_at_least(severity_column: pd.Series | np.ndarray, threshold: str) -> np.ndarray:
@@ -260,7 +279,7 @@ def _missing_hit(columns: dict[str, np.ndarray], *, size: np.ndarray) -> Hit:
     status, flow_status = columns["hydraulic_status"], columns["flow_status"]
     slope = columns["slope"]
     hydraulic = ~(slope <= 0)
-    loop = hydraulic & (flow_status == "cycle")
+    loop = hydraulic & (flow_status == "self_loop")
     no_flow = hydraulic & ~loop & (
         (status == "missing_flow") | (flow_status == "missing") | np.isnan(columns["q_design"])
     )  # fmt: skip
@@ -274,7 +293,7 @@ def _missing_hit(columns: dict[str, np.ndarray], *, size: np.ndarray) -> Hit:
         (np.isnan(columns["length_m"]), "no length"),
         (hydraulic & (status == "missing_roughness"), "no roughness"),
         (no_flow, "no design flow"),
-        (loop, "no design flow: pipe lies on a loop"),
+        (loop, "no design flow: both ends of the pipe join one node (a self-loop)"),
         (odd, concat("hydraulics not computed (status '", strings(status[odd]), "')")),
         (np.isnan(columns["up_cover"]) & np.isnan(columns["down_cover"]), "no cover at either end"),
     ]

@@ -1,23 +1,22 @@
 """Design flows: hand-checked accumulation, given flows, splits and loops."""
 
 import numpy as np
-import pandas as pd
 import pytest
 
 from audit.findings import FindingLog
-from audit.flows.carrier import design_flows
+from audit.flows.carrier import Carrier, design_flows
 from audit.network.graph import order_pipes
 
 
-def flows_for(up: list[int], down: list[int], inflow: list[float], given: list[float] | None = None, length: list[float] | None = None):  # type: ignore[no-untyped-def]
+def flows_for(up: list[int], down: list[int], inflow: list[float], given: list[float] | None = None,
+              length: list[float] | None = None, capacity: list[float] | None = None):  # type: ignore[no-untyped-def]
     upstream, downstream = np.array(up), np.array(down)
-    order, in_cycle, _ = order_pipes(upstream, downstream, node_count=len(inflow))
+    order, _, group = order_pipes(upstream, downstream, node_count=len(inflow))
+    carrier = Carrier.build(upstream=upstream, downstream=downstream, order=order, node_group=group, node_count=len(inflow),
+                            capacity=None if capacity is None else np.array(capacity, dtype=float))  # fmt: skip
     log = FindingLog()
     result = design_flows(
-        upstream=upstream,
-        downstream=downstream,
-        order=order,
-        in_cycle=in_cycle,
+        carrier,
         node_inflow=np.array(inflow, dtype=float),
         given_flow=np.full(len(up), np.nan) if given is None else np.array(given, dtype=float),
         length=np.ones(len(up)) if length is None else np.array(length, dtype=float),
@@ -48,22 +47,47 @@ def test_a_given_flow_replaces_the_accumulated_one_and_is_carried_on() -> None:
 
 
 def test_a_bifurcation_splits_equally_and_is_reported() -> None:
-    # node 0 (load 4) feeds two pipes to nodes 1 and 2, which both drain to 3
+    # node 0 (load 4) feeds two pipes to nodes 1 and 2, which both drain to 3; no capacities known
     result, findings = flows_for([0, 0, 1, 2], [1, 2, 3, 3], [4.0, 1.0, 0.0, 0.0])
     assert result.q_design.tolist() == [2.0, 2.0, 3.0, 2.0]
     assert result.node_total[3] == 5.0  # peak of the sum, nothing counted twice
     assert findings["code"].tolist() == ["flow_split"]
     assert findings["feature"].tolist() == ["N0"]
+    assert findings["message"].iloc[0] == "2 pipes leave this node; its flow is split between them: P0 50 %, P1 50 %"
 
 
-def test_pipes_on_and_below_a_loop_get_no_flow_but_pipes_above_do() -> None:
-    # 0 -> 1, loop 1 -> 2 -> 1, then 2 -> 3 -> 4
-    result, findings = flows_for([0, 1, 2, 2, 3], [1, 2, 1, 3, 4], [1.0, 1.0, 1.0, 1.0, 0.0])
-    assert result.q_design[0] == 1.0
-    assert result.source[0] == "accumulated"
-    assert np.isnan(result.q_design[1:]).all()
-    assert result.source[1:].tolist() == ["cycle"] * 4
-    assert set(findings.loc[findings["code"] == "flow_below_loop", "feature"]) == {"P3", "P4"}
+def test_a_bifurcation_splits_by_full_bore_capacity() -> None:
+    # the same node 0 with a 1 m3/s pipe and a 3 m3/s pipe: a quarter and three quarters of 4
+    result, findings = flows_for([0, 0, 1, 2], [1, 2, 3, 3], [4.0, 1.0, 0.0, 0.0], capacity=[1.0, 3.0, 5.0, 5.0])
+    assert result.q_design.tolist() == [1.0, 3.0, 2.0, 3.0]
+    assert result.node_total[3] == 5.0
+    assert findings["message"].iloc[0] == "2 pipes leave this node; its flow is split between them: P0 25 %, P1 75 %"
+
+
+def test_a_loop_passes_its_flow_on_and_its_pipes_carry_the_whole_of_it() -> None:
+    # 0 -> 1, loop 1 -> 2 -> 1, then 2 -> 3 -> 4; a load of 1 at nodes 0 to 3.
+    # By hand: 1 enters the loop, which adds 1 + 1: 3 leave it by P3; P4 carries 3 + 1 = 4.
+    result, findings = flows_for([0, 1, 2, 2, 3], [1, 2, 1, 3, 4], [1.0, 1.0, 1.0, 1.0, 0.0], length=[10, 20, 30, 40, 50])
+    assert result.q_design.tolist() == [1.0, 3.0, 3.0, 3.0, 4.0]
+    assert result.source.tolist() == ["accumulated", "loop", "loop", "accumulated", "accumulated"]
+    assert result.node_total.tolist() == [1.0, 3.0, 3.0, 4.0, 4.0]
+    # the length served counts each pipe once: P3 serves P0, both loop pipes and itself
+    assert result.upstream_length.tolist() == [10.0, 60.0, 60.0, 100.0, 150.0]
+    loops = findings[findings["code"] == "loop_flow"]
+    assert loops["feature"].tolist() == ["N1"]
+    assert loops["message"].iloc[0].startswith("a loop of 2 nodes and 2 pipes")
+
+
+def test_a_loop_with_two_exits_splits_by_capacity_and_a_self_loop_carries_nothing() -> None:
+    # loop 0 -> 1 -> 0 with loads 2 and 2; exits 0 -> 2 (capacity 1) and 1 -> 3 (capacity 3);
+    # node 3 has a self-loop P4 and drains on by P5 to 4.
+    result, findings = flows_for([0, 1, 0, 1, 3, 3], [1, 0, 2, 3, 3, 4], [2.0, 2.0, 0.0, 0.0, 0.0],
+                                 capacity=[9.0, 9.0, 1.0, 3.0, 9.0, 9.0])  # fmt: skip
+    np.testing.assert_allclose(result.q_design, [4.0, 4.0, 1.0, 3.0, np.nan, 3.0])
+    assert result.source.tolist() == ["loop", "loop", "accumulated", "accumulated", "self_loop", "accumulated"]
+    assert findings.loc[findings["code"] == "flow_split", "message"].tolist() == [
+        "2 pipes leave this node; its flow is split between them: P2 25 %, P3 75 %"
+    ]
 
 
 def test_unplaced_pipes_and_missing_loads() -> None:
@@ -85,58 +109,3 @@ def test_a_random_tree_conserves_its_load() -> None:
     children_sum = np.zeros(count)
     np.add.at(children_sum, parent, result.q_design)
     np.testing.assert_allclose(result.q_design, load[1:] + children_sum[1:], rtol=1e-12)
-
-
-def _network(up: list[int], down: list[int], inflow: list[float]):  # type: ignore[no-untyped-def]
-    from audit.network.build import Network
-
-    upstream, downstream = np.array(up), np.array(down)
-    order, in_cycle, group = order_pipes(upstream, downstream, node_count=len(inflow))
-    count = len(inflow)
-    nodes = pd.DataFrame({"node_id": [f"N{i}" for i in range(count)], "kind": "manhole", "manhole_row": np.arange(count),
-                          "x": np.arange(count) * 50.0, "y": 0.0, "inflow": inflow})  # fmt: skip
-    return Network(nodes, upstream, downstream, np.zeros(len(up), bool), order, in_cycle, np.zeros(len(up), np.int64),
-                   np.array([count - 1]), "ids", node_group=group, left_out=np.zeros(len(up), bool))  # fmt: skip
-
-
-def _hydraulics(count: int):  # type: ignore[no-untyped-def]
-    from audit.flows.storm import PipeHydraulics
-    from audit.hydraulics.friction import Friction
-    from audit.hydraulics.sections import PipeSections
-
-    sections = PipeSections.from_names(np.full(count, "circular"), np.full(count, 0.3), np.full(count, 0.3))
-    return PipeHydraulics(sections, np.full(count, 0.005), Friction.uniform("manning", 0.013, count), np.full(count, 100.0))
-
-
-def test_built_sanitary_flows_scale_by_growth_and_a_given_flow_wins_only_in_its_pipe() -> None:
-    from audit.flows.building import built_flows
-    from audit.flows.settings import FlowOptions
-
-    # chain N0 -> N1 -> N2 -> N3; 2000 persons at N0 and N1, 1 l/s inflow at N1; pipe 1 has a study flow of 9 l/s
-    network = _network([0, 1, 2], [1, 2, 3], [0.0, 0.001, 0.0, 0.0])
-    manholes = pd.DataFrame({"population": [2000.0, 2000.0, 0.0, 0.0], "point_load": [0.0, 0.0, 0.0, 0.0]})
-    options = FlowOptions(kind="sanitary", per_capita_l_day=216.0, peaking="constant", peaking_factor=2.0,
-                          infiltration_l_s_km=1.0, growth_factor=1.5)  # fmt: skip
-    log = FindingLog()
-    flows = built_flows(network, manholes=manholes, catchments=None, given_flow=np.array([np.nan, 0.009, np.nan]), pipes=_hydraulics(3),
-                        pipe_labels=np.array(["P0", "P1", "P2"], dtype=object), options=options, findings=log)  # fmt: skip
-    assert flows.parts is not None
-    # by hand: 2000 x 216 l/day = 5 l/s average, x 2 peaking = 10 l/s; 4000 persons give 20 l/s plus the 1 l/s inflow
-    np.testing.assert_allclose(flows.parts.q_sanitary, np.array([10.0, 21.0, 21.0]) * 1.5e-3)
-    np.testing.assert_allclose(flows.parts.q_infiltration, np.array([0.1, 0.2, 0.3]) * 1.5e-3)  # 1 l/s per km of 100 m pipes
-    np.testing.assert_allclose(flows.q_design, [15.15e-3, 0.009, 31.95e-3])
-    assert flows.source.tolist() == ["accumulated", "given", "accumulated"]
-    np.testing.assert_allclose(flows.node_total, [15.15e-3, 0.009, 31.95e-3, 31.95e-3])
-    assert np.isnan(flows.parts.tc_min).all()
-    assert flows.parts.population_served.tolist() == [2000.0, 4000.0, 4000.0]
-
-
-def test_given_kind_keeps_the_flows_as_before() -> None:
-    from audit.flows.building import built_flows
-    from audit.flows.settings import FlowOptions
-
-    network = _network([0, 1], [1, 2], [0.002, 0.003, 0.0])
-    flows = built_flows(network, manholes=None, catchments=None, given_flow=np.full(2, np.nan), pipes=_hydraulics(2),
-                        pipe_labels=np.array(["P0", "P1"], dtype=object), options=FlowOptions(), findings=FindingLog())  # fmt: skip
-    assert flows.parts is None
-    np.testing.assert_allclose(flows.q_design, [0.002, 0.005])

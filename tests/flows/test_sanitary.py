@@ -64,7 +64,7 @@ def _tree() -> Carrier:
     """Pipes a: node 0 -> 2, b: 1 -> 2, c: 2 -> 3 (the outfall)."""
     upstream, downstream = np.array([0, 1, 2]), np.array([2, 2, 3])
     return Carrier.build(upstream=upstream, downstream=downstream, order=np.array([0, 1, 2]),
-                         in_cycle=np.zeros(3, bool), node_count=4)  # fmt: skip
+                         node_group=np.arange(4), node_count=4)  # fmt: skip
 
 
 def _nodes(inflow: list[float]) -> pd.DataFrame:

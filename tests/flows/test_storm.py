@@ -62,7 +62,7 @@ N = 0.013
 
 
 def _carrier() -> Carrier:
-    return Carrier.build(upstream=UPSTREAM, downstream=DOWNSTREAM, order=np.arange(4), in_cycle=np.zeros(4, bool), node_count=5)
+    return Carrier.build(upstream=UPSTREAM, downstream=DOWNSTREAM, order=np.arange(4), node_group=np.arange(5), node_count=5)
 
 
 def _pipes() -> PipeHydraulics:
@@ -128,5 +128,5 @@ def test_unsettled_iteration_is_reported() -> None:
 def test_levels_put_every_pipe_after_those_above_it() -> None:
     # a branch joining late: 0 -> 1 -> 2 -> 3 and 4 -> 2; pipe 4 is a head pipe, pipe 2 waits for both
     carrier = Carrier.build(upstream=np.array([0, 1, 2, 4]), downstream=np.array([1, 2, 3, 2]), order=np.array([0, 3, 1, 2]),
-                            in_cycle=np.zeros(4, bool), node_count=5)  # fmt: skip
+                            node_group=np.arange(5), node_count=5)  # fmt: skip
     assert [sorted(level.tolist()) for level in pipe_levels(carrier, node_count=5)] == [[0, 3], [1], [2]]

@@ -212,7 +212,7 @@ def test_missing_data_names_what_is_missing() -> None:
         v_design=np.nan, q_full=[np.nan, np.nan, np.nan, 0.1, 0.1, 0.1],
         q_design=[0.05, 0.05, 0.05, np.nan, np.nan, 0.05], load_ratio=np.nan,
         hydraulic_status=["missing_slope", "missing_slope", "missing_roughness", "missing_flow", "ok", "queued"],
-        flow_status=["given", "given", "given", "missing", "cycle", "given"],
+        flow_status=["given", "given", "given", "missing", "self_loop", "given"],
     )  # fmt: skip
     frame["upstream_invert"] = [np.nan, 12.0, 12.0, 12.0, 12.0, 12.0]
     frame["downstream_invert"] = [11.0, np.nan, 11.0, 11.0, 11.0, 11.0]
@@ -223,7 +223,7 @@ def test_missing_data_names_what_is_missing() -> None:
         "no slope: downstream invert missing",
         "no roughness",
         "no design flow",
-        "no design flow: pipe lies on a loop",
+        "no design flow: both ends of the pipe join one node (a self-loop)",
         "hydraulics not computed (status 'queued')",
     ]
 
@@ -338,3 +338,15 @@ def test_settings_table_must_be_a_table() -> None:
 def test_metrics_frame_must_carry_the_contract_columns() -> None:
     with pytest.raises(ValueError, match="lacks column.*shear"):
         check(metrics().drop(columns="shear"))
+
+
+def test_only_gravity_and_private_pipes_are_judged() -> None:
+    # Six pipes in a chain 0 -> 1 -> ... -> 6, each with a reverse grade, a 150 mm size and shallow
+    # cover; only the gravity pipe is flagged for all three, the private drain for all but its size.
+    frame = metrics(6, slope=-0.01, diameter=0.15, height=0.15, up_cover=0.3, down_cover=0.3)
+    frame["kind"] = ["gravity", "private", "rising_main", "siphon", "overflow", "abandoned"]
+    result = check_pipes(frame, upstream=np.arange(6), downstream=np.arange(1, 7), node_access=np.ones(7, dtype=bool),
+                         settings=RuleSettings())  # fmt: skip
+    assert result["flags"].tolist() == ["reverse_grade;below_min_diameter;shallow_cover", "reverse_grade;shallow_cover", "", "", "", ""]
+    assert result["reasons"].iloc[1] == "slope -1.000 % falls against the flow; cover 0.30 m < 0.90 m"
+    assert np.isnan(result["access_run_m"].iloc[2:]).all()
