@@ -288,3 +288,11 @@ def test_flows_catchments_and_manhole_loads_are_read(tmp_path: Path) -> None:
 )
 def test_bad_flow_settings_name_file_and_key(tmp_path: Path, body: str, expected: str) -> None:
     assert expected in _problem(tmp_path, '[pipes]\npath = "p.gpkg"\n' + body)
+
+
+def test_the_complete_example_in_the_docs_loads(tmp_path: Path) -> None:
+    text = (Path(__file__).resolve().parents[2] / "docs" / "config.md").read_text(encoding="utf-8")
+    example = text.split("## A complete example", 1)[1].split("```toml\n", 1)[1].split("```", 1)[0]
+    config = load_config(_write(tmp_path, example))
+    assert config.pipes.fields["from_node"] == "US_MH"
+    assert config.rules.min_velocity == 0.75
