@@ -142,16 +142,18 @@ def pipe_sizes(pipes: pd.DataFrame) -> tuple[np.ndarray, np.ndarray]:
     """Height and width [m] per pipe from the canonical sizes, by shape.
 
     Circular: the diameter, else the height or width. Egg: the height, else 1.5 x the width.
-    Rectangular and tabulated: the height and width as given (width = height if missing).
+    Rectangular and tabulated: the height and width as given (width = height if missing). Open
+    channels: the bank-full depth and the bottom width as given (a trapezoid without a bottom
+    width is a V ditch, width 0).
     """
     shape = pipes["shape"].to_numpy(dtype=object)
     diameter, height, width = (pipes[name].to_numpy(dtype=float) for name in ("diameter", "height", "width"))
     round_size = np.where(np.isfinite(diameter), diameter, np.where(np.isfinite(height), height, width))
     egg_height = np.where(np.isfinite(height), height, 1.5 * width)
     other_width = np.where(np.isfinite(width), width, height)
-    circular, egg = shape == "circular", shape == "egg"
+    circular, egg, vee = shape == "circular", shape == "egg", (shape == "trapezoidal") & ~np.isfinite(width)
     out_height = np.select([circular, egg], [round_size, egg_height], height)
-    out_width = np.select([circular, egg], [round_size, egg_height / 1.5], other_width)
+    out_width = np.select([circular, egg, vee], [round_size, egg_height / 1.5, 0.0], other_width)
     return out_height, out_width
 
 
@@ -178,7 +180,7 @@ def _status_labels(state: FlowState, kind: np.ndarray) -> pa.Array:
 def _pipe_hydraulics(ready: Prepared, *, height: np.ndarray, width: np.ndarray) -> PipeHydraulics:
     """Sections, slopes, friction (the config's formula) and lengths of every pipe (sizes in [m])."""
     pipes, options = ready.layers.pipes.canonical, ready.config.hydraulics
-    sections = PipeSections.from_names(pipes["shape"].to_numpy(dtype=object), height, width)
+    sections = PipeSections.from_names(pipes["shape"].to_numpy(dtype=object), height, width, side_slope=pipes["side_slope"].to_numpy(dtype=float))
     default = options.manning_n if options.formula == "manning" else options.ks_mm
     roughness = pipes["roughness"].to_numpy(dtype=float)
     viscosity = float(water_kinematic_viscosity(options.water_temp_c))

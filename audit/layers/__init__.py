@@ -18,6 +18,9 @@ from audit.layers.reading import (
 )
 from audit.layers.settings import (
     MANHOLE_UNITS,
+    NODE_KINDS,
+    OPEN_SHAPES,
+    PIPE_KINDS,
     PIPE_UNITS,
     SHAPES,
     InputOptions,
@@ -28,6 +31,9 @@ from audit.layers.settings import (
 
 __all__ = [
     "MANHOLE_UNITS",
+    "NODE_KINDS",
+    "OPEN_SHAPES",
+    "PIPE_KINDS",
     "PIPE_UNITS",
     "SHAPES",
     "InputOptions",

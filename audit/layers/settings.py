@@ -56,6 +56,9 @@ MANHOLE_UNITS: Mapping[str, tuple[str, str]] = MappingProxyType(
 SHAPES = ("circular", "rectangular", "egg", "open_rectangular", "trapezoidal")
 """Canonical section shapes; ``[pipes.shapes]`` maps the user's codes to them."""
 
+OPEN_SHAPES = ("open_rectangular", "trapezoidal")
+"""Open channels: no lid, so no cover and no pressurised flow; their capacity is bank-full."""
+
 PIPE_KINDS = ("gravity", "private", "rising_main", "siphon", "overflow", "abandoned")
 """Canonical pipe kinds; ``[pipes.kinds]`` maps the user's codes to them (docs/config.md).
 

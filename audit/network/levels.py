@@ -17,6 +17,7 @@ import shapely
 
 from audit.errors import ConfigError, InputError
 from audit.findings import FindingLog
+from audit.layers import OPEN_SHAPES
 from audit.network.graph import Network
 from audit.network.ids import pipe_labels
 from audit.network.snapping import midpoints
@@ -116,7 +117,8 @@ def derive_levels(
     [m]; ``invert_source`` (``"pipe"`` when both levels come from the pipe's fields,
     ``"manhole"`` when at least one comes from a manhole, ``""`` when a level is unknown);
     ``slope`` [-] (positive downhill; NaN where unknown or the length is not positive);
-    ``up_cover``, ``down_cover`` [m] (NaN where the rim or the height is unknown)
+    ``up_cover``, ``down_cover`` [m] (NaN where the rim or the height is unknown, and for an
+    open channel, which has no crown to cover)
 
     Raises
     ------
@@ -134,6 +136,7 @@ def derive_levels(
     with np.errstate(divide="ignore", invalid="ignore"):
         slope = np.where(length > 0, (up - down) / length, np.nan)
     height = _height(pipes)
+    channel = np.isin(pipes["shape"].to_numpy(dtype=object), OPEN_SHAPES) if "shape" in pipes else np.zeros(len(pipes), dtype=bool)
     levels = pd.DataFrame(
         {
             "length_m": length,
@@ -142,8 +145,8 @@ def derive_levels(
             "down_invert": down,
             "invert_source": source,
             "slope": slope,
-            "up_cover": _at(rim, network.upstream) - (up + height),
-            "down_cover": _at(rim, network.downstream) - (down + height),
+            "up_cover": np.where(channel, np.nan, _at(rim, network.upstream) - (up + height)),
+            "down_cover": np.where(channel, np.nan, _at(rim, network.downstream) - (down + height)),
         },
         index=pipes.index,
     )

@@ -21,6 +21,7 @@ import pandas as pd
 import pyarrow as pa
 
 from audit.errors import ConfigError
+from audit.layers import OPEN_SHAPES
 from audit.rules.access import access_runs, run_totals
 from audit.rules.settings import (
     FLAG_CODES,
@@ -38,7 +39,7 @@ METRIC_COLUMNS: tuple[str, ...] = (
 
 #: hydraulic_status codes the hydraulics stage emits; any other value is reported as such.
 HYDRAULIC_STATUSES: tuple[str, ...] = (
-    "ok", "surcharged", "nonpositive_slope", "missing_slope", "missing_size",
+    "ok", "surcharged", "above_bank_full", "nonpositive_slope", "missing_slope", "missing_size",
     "missing_roughness", "missing_flow",
 )  # fmt: skip
 
@@ -184,8 +185,9 @@ def _capacity_hits(columns: dict[str, np.ndarray], *, settings: RuleSettings) ->
     ratio = _load_ratio(columns)
     over = flowing & (columns["q_design"] > settings.max_load_ratio * columns["q_full"])
     near = flowing & ~over & (ratio > settings.near_capacity_ratio)
+    channel = pick(("", " (above bank-full)"), np.isin(columns["shape"][over], OPEN_SHAPES))
     return {
-        "surcharge": (over, concat("load ratio ", fixed(ratio[over], 2), f" > {settings.max_load_ratio:.2f}")),
+        "surcharge": (over, concat("load ratio ", fixed(ratio[over], 2), f" > {settings.max_load_ratio:.2f}", channel)),
         "near_capacity": (near, concat("load ratio ", fixed(ratio[near], 2), f" > {settings.near_capacity_ratio:.2f}")),
     }
 
@@ -286,6 +288,7 @@ def _missing_hit(columns: dict[str, np.ndarray], *, size: np.ndarray) -> Hit:
     no_slope = np.isnan(slope) | (status == "missing_slope")
     odd = hydraulic & ~np.isin(status, HYDRAULIC_STATUSES)
     no_size = ~np.isfinite(size) | (status == "missing_size")
+    closed = ~np.isin(columns["shape"], OPEN_SHAPES)  # an open channel has no crown to cover
     circular = columns["shape"][no_size] == "circular"
     hits: list[Hit] = [
         (no_size, pick(("no size: height missing", "no size: diameter missing"), circular)),
@@ -295,7 +298,7 @@ def _missing_hit(columns: dict[str, np.ndarray], *, size: np.ndarray) -> Hit:
         (no_flow, "no design flow"),
         (loop, "no design flow: both ends of the pipe join one node (a self-loop)"),
         (odd, concat("hydraulics not computed (status '", strings(status[odd]), "')")),
-        (np.isnan(columns["up_cover"]) & np.isnan(columns["down_cover"]), "no cover at either end"),
+        (closed & np.isnan(columns["up_cover"]) & np.isnan(columns["down_cover"]), "no cover at either end"),
     ]
     missing = np.logical_or.reduce([mask for mask, _ in hits])
     return missing, rows(join(hits, sep=", ", count=len(slope)), missing)
