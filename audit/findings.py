@@ -15,6 +15,22 @@ import pandas as pd
 
 COLUMNS = ("layer", "feature", "code", "message", "x", "y")
 
+FINDING_CODES: frozenset[str] = frozenset({
+    # reading the layers
+    "no_geometry", "wrong_geometry_type", "multipart_line", "multipart_point", "not_a_number", "sentinel_value",
+    "nonpositive_size", "not_a_date", "unknown_kind", "missing_id", "duplicate_id", "unknown_shape", "unknown_access",
+    # the network, its lengths and levels
+    "unknown_node", "unplaced_pipe", "direction_fallback", "reversed_by_inverts", "self_loop", "cycle",
+    "separate_components", "outfall", "dangling_end", "orphan_manhole", "drawn_against_flow", "length_mismatch",
+    "zero_length", "missing_invert",
+    # design flows
+    "flow_split", "loop_flow", "unknown_outlet", "catchment_unplaced", "no_runoff_coefficient", "runoff_out_of_range",
+    "tc_not_settled", "catchment_at_outfall",
+    # writing the outputs
+    "field_renamed",
+})  # fmt: skip
+"""The fixed vocabulary of finding codes; docs/outputs.md ("Finding codes") explains each one."""
+
 
 class FindingLog:
     """An append-only collection of findings, stored as DataFrame chunks."""
@@ -46,6 +62,8 @@ class FindingLog:
         y: Iterable[float] | np.ndarray | None = None,
     ) -> None:
         """Record one finding per feature; ``messages`` is one string per feature or one for all."""
+        if code not in FINDING_CODES:
+            raise ValueError(f"finding code {code!r} is not in audit.findings.FINDING_CODES")
         features = np.asarray(features, dtype=object).astype(str)
         count = len(features)
         if count == 0:
