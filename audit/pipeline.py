@@ -121,7 +121,7 @@ def run(config: Config | str | Path, *, progress: bool = False) -> AuditResult:
         _step(bar, 5)
         computed = _computed_columns(ready, flows, state, height=height)
         checks = check_pipes(
-            _metrics(pipes, computed, state, flows, height=height, labels=labels),
+            _metrics(pipes, computed, state, flows, height=height, labels=labels, sections=hydraulics.sections),
             upstream=network.upstream,
             downstream=network.downstream,
             node_access=network.nodes["access"].to_numpy(dtype=bool),
@@ -245,7 +245,8 @@ def _flow_parts(flows: DesignFlows) -> dict[str, np.ndarray]:
 
 
 def _metrics(
-    pipes: pd.DataFrame, computed: pd.DataFrame, state: FlowState, flows: DesignFlows, *, height: np.ndarray, labels: np.ndarray
+    pipes: pd.DataFrame, computed: pd.DataFrame, state: FlowState, flows: DesignFlows, *, height: np.ndarray, labels: np.ndarray,
+    sections: PipeSections,
 ) -> pd.DataFrame:
     """The frame the rules read (``audit.rules.METRIC_COLUMNS``); ``height`` [m], ``labels`` pipe ids.
 
@@ -254,6 +255,7 @@ def _metrics(
     """
     shape = pipes["shape"].to_numpy(dtype=object)
     text = partial(_objects, index=computed.index)
+    full_area, _ = sections.full()
     return pd.DataFrame(
         {
             "pipe_id": text(labels),
@@ -264,6 +266,7 @@ def _metrics(
             **{name: computed[column].to_numpy() for name, column in _METRIC_RENAMED.items()},
             "hydraulic_status": text(_RULE_LABELS[state.status]),
             "flow_status": text(flows.source.astype(object)),
+            "full_area": full_area,
             "kind": text(pipes["kind"].to_numpy(dtype=object)),
         },
         index=computed.index,

@@ -17,7 +17,7 @@ FLAG_FOR = {
     "diameter_decrease": "diameter_decrease",
     "shallow_cover": "shallow_cover",
     "reverse_grade": "reverse_grade",
-    "flat_grade": "flat_grade",
+    "flat_grade": "zero_grade",  # planted as equal inverts: no fall at all
     "null_diameter": "missing_data",
 }
 FINDING_FOR = {

@@ -323,7 +323,7 @@ def test_ordinary_pipes_run_part_full(hydraulics: pd.DataFrame, errors: pd.DataF
 
 def test_config_parses_and_maps_existing_fields(pipes: gpd.GeoDataFrame, manholes: gpd.GeoDataFrame) -> None:
     config = tomllib.loads((SAMPLE / "town.toml").read_text(encoding="utf-8"))
-    assert set(config) == {"input", "pipes", "manholes", "catchments", "flows", "network", "hydraulics"}
+    assert set(config) == {"input", "pipes", "manholes", "catchments", "flows", "network", "hydraulics", "rules"}
     catchments = _read(SAMPLE, "catchments")
     for name, layer in (("pipes", pipes), ("manholes", manholes), ("catchments", catchments)):
         section = config[name]

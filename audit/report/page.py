@@ -198,7 +198,7 @@ _RULE_UNITS = {
 
 def _rule_value(name: str, value: object) -> str:
     if isinstance(value, DiameterTable):
-        return "; ".join(f"from {size:g} mm: {row:g}" for size, row in zip(value.from_diameter_mm, value.values, strict=True))
+        return "; ".join(f"from {size:g} mm: {row:g}" if np.isfinite(row) else f"from {size:g} mm: no limit" for size, row in zip(value.from_diameter_mm, value.values, strict=True))
     if value is None:
         return "only a zero or negative slope is flagged" if name == "min_slope" else "not checked"
     if isinstance(value, Mapping):

@@ -6,7 +6,7 @@ of ``FLAG_CODES``), the worst severity among them and one reason per flag with i
 rule is one boolean mask over all pipes; reasons are built with vectorised string operations.
 
 Flag codes: ``surcharge``, ``near_capacity``, ``silting``, ``high_velocity``, ``reverse_grade``,
-``flat_grade``, ``long_spacing``, ``below_min_diameter``, ``diameter_decrease``,
+``zero_grade``, ``flat_grade``, ``long_spacing``, ``below_min_diameter``, ``diameter_decrease``,
 ``shallow_cover``, ``missing_data``. docs/rules.md gives each one's threshold and source.
 
 Where a pipe's slope is zero or negative no uniform flow exists, so only the grade flag speaks
@@ -46,8 +46,8 @@ HYDRAULIC_STATUSES: tuple[str, ...] = (
 #: Pipe kinds the gravity rules judge (``audit.layers.settings.PIPE_KINDS``).
 JUDGED_KINDS: tuple[str, ...] = ("gravity", "private")
 
-# Sizes closer than this are equal: absorbs unit-conversion noise, not real steps [m].
-_SIZE_TOLERANCE = 1e-6
+# Areas closer than this share are equal: absorbs unit-conversion noise, not real steps [-].
+_AREA_TOLERANCE = 1e-6
 
 Hit = tuple[np.ndarray, pa.Array | str]
 
@@ -145,7 +145,7 @@ def _columns(metrics: pd.DataFrame) -> dict[str, np.ndarray]:
         raise ValueError(f"rules: metrics frame lacks column(s) {', '.join(missing)}")
     texts = ("pipe_id", "shape", "hydraulic_status", "flow_status")
     columns = {name: _text_column(metrics[name]) for name in texts}
-    for name in (*METRIC_COLUMNS, "upstream_invert", "downstream_invert"):
+    for name in (*METRIC_COLUMNS, "upstream_invert", "downstream_invert", "full_area"):
         if name not in texts and name in metrics.columns:
             columns[name] = metrics[name].to_numpy(dtype=float, na_value=np.nan)
     return columns
@@ -220,14 +220,11 @@ def _grade_hits(columns: dict[str, np.ndarray], *, size: np.ndarray, settings: R
     least = np.full(len(slope), np.nan) if settings.min_slope is None else settings.min_slope.lookup(size)
     zero = slope == 0
     shy = (slope > 0) & (slope < least)
-    reasons = join(
-        [(zero, "zero slope"), (shy, concat("slope ", fixed(100 * slope[shy], 3), " % < ", fixed(100 * least[shy], 3), " %"))],
-        sep=" ",
-        count=len(slope),
-    )
     return {
-        "reverse_grade": (reverse, concat("slope ", fixed(100 * slope[reverse], 3), " % falls against the flow")),
-        "flat_grade": (zero | shy, rows(reasons, zero | shy)),
+        # a fall against the flow, or none at all, is most often a survey or register error
+        "reverse_grade": (reverse, concat("slope ", fixed(100 * slope[reverse], 3), " % falls against the flow; verify levels")),
+        "zero_grade": (zero, "no fall between the inverts; verify levels"),
+        "flat_grade": (shy, concat("slope ", fixed(100 * slope[shy], 3), " % < ", fixed(100 * least[shy], 3), " %")),
     }
 
 
@@ -256,17 +253,26 @@ def _diameter_hit(columns: dict[str, np.ndarray], *, size: np.ndarray, settings:
 def _decrease_hit(
     columns: dict[str, np.ndarray], size: np.ndarray, upstream: np.ndarray, downstream: np.ndarray, *, nodes: int
 ) -> Hit:
-    """Smaller than the largest pipe that ends at this pipe's upstream node."""
+    """A full-bore area smaller than that of the largest pipe ending at this pipe's upstream node.
+
+    Areas, not heights, are compared: an egg-shaped pipe (height 1.5 x width) into a larger
+    circular one, or a box drain that grows wider as it gets lower, is no step down.
+    """
+    area = columns["full_area"] if "full_area" in columns else np.pi * size**2 / 4.0
     largest_in = np.full(nodes, -np.inf)
-    feeds = (downstream >= 0) & np.isfinite(size)
-    np.maximum.at(largest_in, downstream[feeds], size[feeds])
-    entering = np.full(len(size), -np.inf)
+    feeds = (downstream >= 0) & np.isfinite(area)
+    order = np.argsort(area[feeds], kind="stable")  # the largest area entering each node last, so it wins
+    largest_in[downstream[feeds][order]] = area[feeds][order]
+    entering_size = np.full(nodes, np.nan)
+    entering_size[downstream[feeds][order]] = size[feeds][order]
+    entering, entering_height = np.full(len(area), -np.inf), np.full(len(area), np.nan)
     known = upstream >= 0
-    entering[known] = largest_in[upstream[known]]
-    step = size < entering - _SIZE_TOLERANCE
+    entering[known], entering_height[known] = largest_in[upstream[known]], entering_size[upstream[known]]
+    step = area < entering * (1.0 - _AREA_TOLERANCE)
     reason = concat(
-        _size_word(columns, step), fixed(1000 * size[step], 0), " mm < ", fixed(1000 * entering[step], 0), " mm entering upstream"
-    )
+        _size_word(columns, step), fixed(1000 * size[step], 0), " mm, full area ", fixed(area[step], 3), " m2 < ",
+        fixed(entering[step], 3), " m2 of the ", fixed(1000 * entering_height[step], 0), " mm pipe entering upstream",
+    )  # fmt: skip
     return step, reason
 
 

@@ -32,6 +32,7 @@ DEFAULT_SEVERITY: Mapping[str, str] = MappingProxyType(
         "silting": "medium",
         "high_velocity": "medium",
         "reverse_grade": "high",
+        "zero_grade": "medium",
         "flat_grade": "medium",
         "long_spacing": "low",
         "below_min_diameter": "low",
@@ -80,21 +81,32 @@ class DiameterTable:
         return cls(from_diameter_mm=(0.0,), values=(float(value),))
 
 
+#: Nominal pipe sizes: inches and the metric size that stands for each (8 in is sold as 200 mm,
+#: 18 in as 450 mm, ...). Tables by size start their rows at these metric sizes, so a 450 mm
+#: pipe and a 457.2 mm (18 in) pipe fall in the same class. Common practice, no source.
+NOMINAL_SIZES_MM: Mapping[int, float] = MappingProxyType(
+    {8: 200.0, 10: 250.0, 12: 300.0, 15: 375.0, 18: 450.0, 21: 525.0, 24: 600.0, 27: 675.0, 30: 750.0, 33: 825.0, 36: 900.0}
+)
+
 # Source: Recommended Standards for Wastewater Facilities (Great Lakes - Upper Mississippi River
 # Board, 2014), sec. 33.41, minimum slopes for n = 0.013, in percent: 8 in 0.40, 10 in 0.28,
 # 12 in 0.22, 15 in 0.15, 18 in 0.12, 21 in 0.10, 24 in 0.08, 27 in 0.067, 30 in 0.058,
-# 36 in 0.046 (from memory). Rows start at the metric nominal size of each inch size (200 mm for
-# 8 in, ...), so both a 300 mm and a 304.8 mm (12 in) pipe take the 12 in slope; a size between
-# two rows takes the steeper slope of the smaller one. Slopes are m/m.
+# 36 in 0.046 (from memory). Rows start at the metric nominal size of each inch size, so both a
+# 300 mm and a 304.8 mm (12 in) pipe take the 12 in slope; a size between two rows takes the
+# steeper slope of the smaller one. Slopes are m/m.
 RSWF_MIN_SLOPE = DiameterTable(
-    from_diameter_mm=(200.0, 250.0, 300.0, 375.0, 450.0, 525.0, 600.0, 675.0, 750.0, 900.0),
+    from_diameter_mm=tuple(NOMINAL_SIZES_MM[inch] for inch in (8, 10, 12, 15, 18, 21, 24, 27, 30, 36)),
     values=(0.0040, 0.0028, 0.0022, 0.0015, 0.0012, 0.0010, 0.0008, 0.00067, 0.00058, 0.00046),
 )
 
 # Source: Recommended Standards for Wastewater Facilities (Great Lakes - Upper Mississippi River
-# Board, 2014), manhole spacing: 400 ft for 15 in and smaller, 500 ft for 18 to 30 in
-# (from memory). 400 ft = 121.92 m, 500 ft = 152.4 m; 18 in = 457.2 mm.
-RSWF_MAX_SPACING = DiameterTable(from_diameter_mm=(0.0, 457.0), values=(121.92, 152.4))
+# Board, 2014), manhole spacing: 400 ft for 15 in and smaller, 500 ft for 18 to 30 in; greater
+# spacing may be permitted in larger sewers (from memory). 400 ft = 121.92 m, 500 ft = 152.4 m.
+# The classes start at the nominal sizes (18 in at 450 mm); from 33 in (825 mm) the source sets
+# no limit, so the table gives none (an infinite spacing): set your own for large sewers.
+RSWF_MAX_SPACING = DiameterTable(
+    from_diameter_mm=(0.0, NOMINAL_SIZES_MM[18], NOMINAL_SIZES_MM[33]), values=(121.92, 152.4, float("inf"))
+)
 
 
 def _default_severity() -> Mapping[str, str]:

@@ -254,9 +254,10 @@ def test_summary_header_rules_settings_and_nan_as_null(tmp_path: Path) -> None:
     assert summary["settings"] == {"formula": "manning", "snap_tolerance_m": 0.5, "unset": None}
     assert summary["missing_fields"] == {"pipes": ["flow"], "manholes": []}
     rules = summary["rules"]
-    # Source: Recommended Standards for Wastewater Facilities, 400 ft up to 15 in, 500 ft from 18 in
-    # (from memory): 400 ft = 121.92 m, 500 ft = 152.4 m
-    assert rules["max_spacing_m"] == [[0.0, 121.92], [457.0, 152.4]]  # type: ignore[index]
+    # Source: Recommended Standards for Wastewater Facilities, 400 ft up to 15 in, 500 ft for 18 to
+    # 30 in, no limit given above (from memory): 400 ft = 121.92 m, 500 ft = 152.4 m; classes at
+    # the metric nominal sizes of 18 in (450 mm) and 33 in (825 mm); no limit is written as null
+    assert rules["max_spacing_m"] == [[0.0, 121.92], [450.0, 152.4], [825.0, None]]  # type: ignore[index]
     assert rules["min_slope"] is None
     assert rules["severity"]["surcharge"] == "high"
 
