@@ -40,7 +40,7 @@ from audit.result import (
     network_totals,
     with_columns,
 )
-from audit.rules import JUDGED_KINDS, check_pipes
+from audit.rules import JUDGED_KINDS, check_pipes, unusual_values
 
 STAGES = ("reading layers", "building the network", "slopes", "design flows", "hydraulics", "rules", "assembling")
 
@@ -72,6 +72,8 @@ def prepare(config: Config | str | Path, *, progress: tqdm | None = None) -> Pre
     """Read the layers, build the network and derive lengths, slopes and cover."""
     config = config if isinstance(config, Config) else load_config(config)
     findings = FindingLog()
+    for key, message in unusual_values(config.rules):
+        findings.add("config", key, "unusual_setting", message)
     _step(progress, 0)
     layers = read_layers(config.pipes, manholes=config.manholes, catchments=config.catchments, options=config.input, findings=findings)
     pipes = layers.pipes.canonical

@@ -26,6 +26,7 @@ from audit.rules.settings import (
     SEVERITY_ORDER,
     DiameterTable,
     RuleSettings,
+    unusual_values,
 )
 
 __all__ = [
@@ -41,5 +42,6 @@ __all__ = [
     "DiameterTable",
     "RuleSettings",
     "check_pipes",
+    "unusual_values",
     "worst_severity_at_least",
 ]

@@ -260,3 +260,40 @@ def _check_consistent(settings: RuleSettings, *, source: str) -> None:
             f"{source}: rules.min_velocity: expected less than rules.max_velocity "
             f"({settings.max_velocity:g}), got {settings.min_velocity:g}"
         )
+
+
+# The range in which each threshold usually lies, in the units the rules use, and what a value
+# far outside it probably means. A value outside is not refused (local codes differ) but said,
+# because a minimum slope of 0.4 (meant as 0.4 %) or a minimum cover of 3 (meant as feet) flags
+# almost every pipe. Ranges: common practice, no source.
+USUAL_RANGES: Mapping[str, tuple[float, float, str]] = MappingProxyType(
+    {
+        "max_load_ratio": (0.5, 1.5, "a ratio of design flow to full-bore capacity, 1.0 for just full"),
+        "near_capacity_ratio": (0.5, 1.0, "a ratio of design flow to full-bore capacity, such as 0.8"),
+        "min_velocity": (0.2, 1.5, "m/s (2 ft/s is 0.61 m/s)"),
+        "max_velocity": (1.5, 10.0, "m/s (10 ft/s is 3.05 m/s)"),
+        "min_shear": (0.2, 8.0, "Pa"),
+        "min_slope": (0.0001, 0.05, "m/m (0.4 % is 0.004)"),
+        "min_diameter_mm": (50.0, 600.0, "mm (8 in is 200 mm)"),
+        "min_cover_m": (0.2, 3.0, "m (3 ft is 0.91 m)"),
+        "max_spacing_m": (20.0, 400.0, "m (400 ft is 121.92 m)"),
+    }
+)
+
+
+def unusual_values(settings: RuleSettings) -> list[tuple[str, str]]:
+    """``(key, message)`` for every threshold far outside its usual range (``USUAL_RANGES``).
+
+    Examples
+    --------
+    >>> unusual_values(RuleSettings(min_slope=DiameterTable.constant(0.4), min_cover_m=3.5))
+    [('rules.min_slope', 'rules.min_slope = 0.4 lies outside the usual 0.0001 to 0.05; expected m/m (0.4 % is 0.004)'), ('rules.min_cover_m', 'rules.min_cover_m = 3.5 lies outside the usual 0.2 to 3; expected m (3 ft is 0.91 m)')]
+    """
+    found = []
+    for name, (low, high, unit) in USUAL_RANGES.items():
+        value = getattr(settings, name)
+        values = value.values if isinstance(value, DiameterTable) else () if value is None else (value,)
+        odd = [v for v in values if np.isfinite(v) and not low <= v <= high]
+        if odd:
+            found.append((f"rules.{name}", f"rules.{name} = {odd[0]:g} lies outside the usual {low:g} to {high:g}; expected {unit}"))
+    return found

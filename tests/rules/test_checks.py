@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+from pathlib import Path
+
 import numpy as np
 import pandas as pd
 import pytest
@@ -14,6 +16,7 @@ from audit.rules import (
     DiameterTable,
     RuleSettings,
     check_pipes,
+    unusual_values,
     worst_severity_at_least,
 )
 
@@ -368,3 +371,19 @@ def test_only_gravity_and_private_pipes_are_judged() -> None:
     assert result["flags"].tolist() == ["reverse_grade;below_min_diameter;shallow_cover", "reverse_grade;shallow_cover", "", "", "", ""]
     assert result["reasons"].iloc[1] == "slope -1.000 % falls against the flow; verify levels; cover 0.30 m < 0.90 m"
     assert np.isnan(result["access_run_m"].iloc[2:]).all()
+
+
+def test_thresholds_far_outside_their_usual_range_are_said(tmp_path: Path) -> None:
+    from _small_town import write_town
+
+    from audit.pipeline import run
+
+    config = write_town(tmp_path, "GPKG", ".gpkg")
+    # a minimum slope of 0.4 meant as 0.4 %, a cover of 3.5 meant as feet, a velocity in ft/s
+    config.write_text(config.read_text(encoding="utf-8") + "\n[rules]\nmin_slope = 0.4\nmin_cover_m = 3.5\nmin_velocity = 2.0\n",
+                      encoding="utf-8")  # fmt: skip
+    found = run(config).findings.query("code == 'unusual_setting'")
+    assert found["layer"].unique().tolist() == ["config"]
+    assert found["feature"].tolist() == ["rules.min_velocity", "rules.min_slope", "rules.min_cover_m"]
+    assert found["message"].iloc[0] == "rules.min_velocity = 2 lies outside the usual 0.2 to 1.5; expected m/s (2 ft/s is 0.61 m/s)"
+    assert unusual_values(RuleSettings()) == []  # the defaults are usual
