@@ -1,10 +1,11 @@
 """Design flows built from the catchment: sanitary, infiltration and storm parts, then given flows.
 
 ``[flows] kind = "given"`` keeps ``audit.flows.design_flows`` as it was. Any other kind builds
-every pipe's flow from its parts (audit.loads, audit.storm), scales them by the growth factor,
-and lets a given pipe flow replace the built one in that pipe only: a given total cannot be split
-into the parts that the peaking and the time of concentration need, so the pipes below keep
-their built flows.
+every pipe's flow from its parts (audit.flows.sanitary, audit.flows.storm) for the design horizon
+(the population grown by ``population_growth`` before peaking, every rainfall intensity raised by
+``rainfall_uplift``, the impervious area by ``urban_creep``), and lets a given pipe flow replace
+the built one in that pipe only: a given total cannot be split into the parts that the peaking
+and the time of concentration need, so the pipes below keep their built flows.
 """
 
 from __future__ import annotations
@@ -92,18 +93,17 @@ def built_flows(network: Network, *, manholes: pd.DataFrame | None, catchments: 
     loads = node_loads(nodes, manholes, catchments, options=options, findings=findings,
                        pipe_upstream=np.where(carrier.usable, network.upstream, -1), pipe_length=pipes.length)  # fmt: skip
     _report_outfall_catchments(network, loads.catchment_node, catchments, findings=findings)
+    loads = replace(loads, population=options.population_growth * loads.population)  # the design horizon's population
     sanitary = sanitary_flows(carrier, loads, length=pipes.length, options=options)
     given = np.isfinite(given_flow) & (given_flow >= 0) & carrier.usable
     q_storm, tc, passes, storm_own = _storm(carrier, catchments, loads.catchment_node, pipes, base=sanitary.q_sanitary + sanitary.q_infiltration,
                                              given=np.where(given, given_flow, np.nan), options=options, findings=findings)  # fmt: skip
-    growth = options.growth_factor
-    parts = FlowParts(growth * sanitary.q_sanitary, growth * sanitary.q_infiltration, growth * q_storm, tc,
-                      sanitary.population_served, sanitary.area_served_ha, passes)  # fmt: skip
+    parts = FlowParts(sanitary.q_sanitary, sanitary.q_infiltration, q_storm, tc, sanitary.population_served, sanitary.area_served_ha, passes)
     source = shape.source.copy()
     source[given] = "given"
     q_design = np.where(given, given_flow, parts.total)
     q_design[source == "overflow"] = 0.0
-    own = growth * (sanitary.q_sanitary_own + sanitary.q_infiltration_own + storm_own)
+    own = sanitary.q_sanitary_own + sanitary.q_infiltration_own + storm_own
     return replace(shape, q_design=q_design, source=source, node_total=node_totals(network, q_design, own=own), parts=parts)
 
 

@@ -215,7 +215,7 @@ class SanitaryFlows:
 
 
 def sanitary_flows(carrier: Carrier, loads: NodeLoads, *, length: Array, options: FlowOptions) -> SanitaryFlows:
-    """Sanitary flow and infiltration per pipe from the node loads, before the growth factor.
+    """Sanitary flow and infiltration per pipe from the node loads.
 
     Parameters
     ----------

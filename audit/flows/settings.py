@@ -32,6 +32,7 @@ class Rainfall:
     c: float = 1.0
     table: tuple[tuple[float, float], ...] = ()
     inlet_time_min: float = 10.0  # common practice, no source (5 to 15 min is usual)
+    return_period_years: float | None = None  # the design storm's, recorded in every output
 
 
 @dataclass(frozen=True)
@@ -47,7 +48,9 @@ class FlowOptions:
     occupancy: float = 2.4  # persons per dwelling where no occupancy field is mapped; common practice, no source
     infiltration_l_s_km: float = 0.0
     infiltration_l_s_ha: float = 0.0
-    growth_factor: float = 1.0
+    population_growth: float = 1.0  # future population over today's: the sanitary flows grow with it
+    rainfall_uplift: float = 1.0  # factor on every rainfall intensity (a climate-change allowance)
+    urban_creep: float = 0.0  # added share of impervious area (0.1: a tenth more paving and roofs)
     c_impervious: float = 0.9  # runoff coefficient of paved and roofed area; common practice, no source
     c_pervious: float = 0.2  # runoff coefficient of grass and gardens; common practice, no source
     fallback_velocity_m_s: float = 1.0  # travel velocity where a pipe's own cannot be computed; common practice, no source
@@ -71,10 +74,11 @@ class FlowOptions:
 
 
 _NUMBERS = ("per_capita_l_day", "peaking_factor", "min_peaking_population", "occupancy", "infiltration_l_s_km",
-            "infiltration_l_s_ha", "growth_factor", "c_impervious", "c_pervious", "fallback_velocity_m_s",
+            "infiltration_l_s_ha", "population_growth", "rainfall_uplift", "urban_creep", "c_impervious", "c_pervious", "fallback_velocity_m_s",
             "tc_tolerance_min", "persons_per_manhole", "persons_per_km", "load_per_manhole_l_s")  # fmt: skip
 _KEYS = ("kind", "peaking", "tc_max_iterations", "rainfall", *_NUMBERS)
-_POSITIVE = frozenset({"growth_factor", "fallback_velocity_m_s", "tc_tolerance_min", "occupancy"})
+_POSITIVE = frozenset({"population_growth", "rainfall_uplift", "fallback_velocity_m_s", "tc_tolerance_min", "occupancy"})
+_REPLACED = {"growth_factor": "population_growth (sanitary), rainfall_uplift (storm intensity) and urban_creep (impervious area)"}
 _FRACTIONS = frozenset({"c_impervious", "c_pervious"})
 
 
@@ -92,7 +96,7 @@ def _rows(check: ConfigProblems, value: object, key: str) -> tuple[tuple[float, 
 
 
 def _rainfall(check: ConfigProblems, data: object) -> Rainfall:
-    table = check.table(data, "flows.rainfall", ("a", "b", "c", "table", "inlet_time_min"))
+    table = check.table(data, "flows.rainfall", ("a", "b", "c", "table", "inlet_time_min", "return_period_years"))
     defaults = Rainfall()
     rows = _rows(check, table["table"], "flows.rainfall.table") if "table" in table else ()
     has_curve = "a" in table
@@ -105,6 +109,7 @@ def _rainfall(check: ConfigProblems, data: object) -> Rainfall:
         c=check.number(table, "c", "flows.rainfall", defaults.c, low=1e-9),
         table=rows,
         inlet_time_min=check.number(table, "inlet_time_min", "flows.rainfall", defaults.inlet_time_min, low=1e-9),
+        return_period_years=check.number(table, "return_period_years", "flows.rainfall", 1.0, low=1e-9) if "return_period_years" in table else None,
     )
 
 
@@ -130,7 +135,10 @@ def _number(check: ConfigProblems, table: dict[str, Any], name: str) -> float:
 
 def parse_flows(check: ConfigProblems, data: object) -> FlowOptions:
     """``[flows]`` as :class:`FlowOptions`; every problem goes to ``check`` under its dotted key."""
-    table = check.table(data, "flows", _KEYS)
+    table = check.table(data, "flows", _KEYS + tuple(_REPLACED))
+    for old, new in _REPLACED.items():
+        if old in table:
+            check.fail(f"flows.{old}", f"no longer a key: it is replaced by {new}")
     kind = check.choice(table, "kind", "flows", FLOW_KINDS)
     peaking, peaking_table = _peaking(check, table)
     iterations = table.get("tc_max_iterations", FlowOptions.tc_max_iterations)

@@ -84,9 +84,26 @@ def rational_discharge(runoff_area_ha: ArrayLike, intensity_mm_h: ArrayLike) -> 
 
 
 def runoff_coefficients(catchments: pd.DataFrame, *, options: FlowOptions, findings: FindingLog) -> Array:
-    """Runoff coefficient C [-] per catchment; 0 with a finding where it is unknown or not in [0, 1]."""
+    r"""Runoff coefficient C [-] per catchment; 0 with a finding where it is unknown or not in [0, 1].
+
+    Urban creep (``[flows] urban_creep`` = u, the added share of impervious area) raises the
+    impervious fraction to :math:`I' = \min(1, I (1 + u))` and C with it; where only C is given,
+    its impervious fraction is read back from the composite,
+    :math:`I = (C - C_{perv}) / (C_{imp} - C_{perv})` clipped to [0, 1], and C rises by the same
+    :math:`(I' - I)(C_{imp} - C_{perv})`.
+
+    >>> frame = pd.DataFrame({"catchment_id": ["a", "b"], "runoff_coefficient": [np.nan, 0.55], "impervious_fraction": [0.5, np.nan]})
+    >>> runoff_coefficients(frame, options=FlowOptions(urban_creep=0.1), findings=FindingLog()).round(4).tolist()
+    [0.585, 0.585]
+    """
     given = catchments["runoff_coefficient"].to_numpy(dtype=float)
     impervious = catchments["impervious_fraction"].to_numpy(dtype=float)
+    spread = options.c_impervious - options.c_pervious
+    with np.errstate(invalid="ignore", divide="ignore"):
+        implied = np.clip((given - options.c_pervious) / spread, 0.0, 1.0) if spread > 0 else np.zeros(given.size)
+    share = np.where(np.isfinite(given), implied, impervious)
+    crept = np.minimum(share * (1.0 + options.urban_creep), 1.0)
+    added = np.where(np.isfinite(share), (crept - share) * spread, 0.0)
     composite = impervious * options.c_impervious + (1.0 - impervious) * options.c_pervious
     coefficient = np.where(np.isfinite(given), given, composite)
     ids = catchments["catchment_id"].to_numpy(dtype=object)
@@ -94,7 +111,7 @@ def runoff_coefficients(catchments: pd.DataFrame, *, options: FlowOptions, findi
     unknown = ~np.isfinite(coefficient)
     findings.add_many("catchments", ids[wrong], "runoff_out_of_range", "the runoff coefficient or impervious fraction is not from 0 to 1; no runoff is taken")
     findings.add_many("catchments", ids[unknown], "no_runoff_coefficient", "neither a runoff coefficient nor an impervious fraction; no runoff is taken")
-    return np.where(wrong | unknown, 0.0, coefficient)
+    return np.where(wrong | unknown, 0.0, np.minimum(coefficient + added, 1.0))
 
 
 def pipe_levels(carrier: Carrier, *, node_count: int) -> list[Index]:
@@ -168,14 +185,14 @@ def storm_flows(carrier: Carrier, runoff_area_node: Array, pipes: PipeHydraulics
     carrier : the network's accumulator (:class:`audit.flows.Carrier`)
     runoff_area_node : C x A [ha] of the catchments draining to each node
     pipes : sections, slopes, friction and lengths of every pipe
-    base_flow : the other computed flow in each pipe (sanitary, infiltration) [m^3/s], before growth
+    base_flow : the other computed flow in each pipe (sanitary, infiltration) [m^3/s]
     given_flow : a given design flow per pipe [m^3/s], NaN where none; it sets that pipe's velocity
     options : ``[flows]``, with its rainfall
     findings : receives ``tc_not_settled`` when ``tc_max_iterations`` is reached
 
     Returns
     -------
-    :class:`StormFlows` (runoff before the growth factor)
+    :class:`StormFlows`; every intensity is raised by ``[flows] rainfall_uplift``
     """
     assert options.rainfall is not None
     rainfall, node_count = options.rainfall, runoff_area_node.size
@@ -186,14 +203,15 @@ def storm_flows(carrier: Carrier, runoff_area_node: Array, pipes: PipeHydraulics
     settled, iterations = False, 0
     while not settled and iterations < options.tc_max_iterations:
         iterations += 1
-        q_storm = rational_discharge(runoff_area, rainfall_intensity(tc, rainfall))
-        flow = np.where(np.isfinite(given_flow), given_flow, options.growth_factor * (np.nan_to_num(base_flow) + q_storm))
+        q_storm = rational_discharge(runoff_area, options.rainfall_uplift * rainfall_intensity(tc, rainfall))
+        flow = np.where(np.isfinite(given_flow), given_flow, np.nan_to_num(base_flow) + q_storm)
         travel = _travel_min(pipes, np.nan_to_num(flow), fallback=options.fallback_velocity_m_s)
         updated = times_of_concentration(carrier, levels, travel_min=travel, inlet_min=rainfall.inlet_time_min, node_count=node_count)
         settled = bool(np.all(np.abs(updated - tc)[carrier.usable] <= options.tc_tolerance_min))
         tc = updated
     if not settled:
         findings.add("network", "*", "tc_not_settled", f"the times of concentration still moved by more than {options.tc_tolerance_min:g} min after {iterations} passes")
-    q_storm = rational_discharge(runoff_area, rainfall_intensity(tc, rainfall))
-    q_own = rational_discharge(runoff_area_node, rainfall_intensity(np.full(node_count, rainfall.inlet_time_min), rainfall))
+    uplift = options.rainfall_uplift
+    q_storm = rational_discharge(runoff_area, uplift * rainfall_intensity(tc, rainfall))
+    q_own = rational_discharge(runoff_area_node, uplift * rainfall_intensity(np.full(node_count, rainfall.inlet_time_min), rainfall))
     return StormFlows(q_storm, tc, runoff_area, iterations, settled, q_own)

@@ -209,7 +209,9 @@ def test_flows_default_to_the_given_flows_as_before(tmp_path: Path) -> None:
     assert config.flows.kind == "given"
     assert config.flows.rainfall is None
     assert config.catchments is None
-    assert config.flows.growth_factor == 1.0
+    assert config.flows.population_growth == 1.0
+    assert config.flows.rainfall_uplift == 1.0
+    assert config.flows.urban_creep == 0.0
     assert config.flows.peaking == "harmon"
     assert config.manholes is None
 
@@ -236,10 +238,13 @@ kind = "combined"
 per_capita_l_day = 250
 peaking = [[1000, 3.5], [10000, 2.5]]
 infiltration_l_s_km = 0.2
-growth_factor = 1.25
+population_growth = 1.25
+rainfall_uplift = 1.4
+urban_creep = 0.1
 [flows.rainfall]
 table = [[5, 120.0], [60, 30.0]]
 inlet_time_min = 7
+return_period_years = 30
 """
 
 
@@ -253,11 +258,12 @@ def test_flows_catchments_and_manhole_loads_are_read(tmp_path: Path) -> None:
     assert flows.peaking == "table"
     assert flows.peaking_table == ((1000.0, 3.5), (10000.0, 2.5))
     assert flows.infiltration_l_s_km == 0.2
-    assert flows.growth_factor == 1.25
+    assert (flows.population_growth, flows.rainfall_uplift, flows.urban_creep) == (1.25, 1.4, 0.1)
     assert rain is not None
     assert rain.a is None
     assert rain.table == ((5.0, 120.0), (60.0, 30.0))
     assert rain.inlet_time_min == 7.0
+    assert rain.return_period_years == 30.0
     assert config.catchments is not None
     assert config.catchments.layer == "subareas"
     assert dict(config.catchments.fields) == {"id": "AREA_ID", "drains_to": "OUTLET_MH", "impervious_fraction": "IMP"}
@@ -272,7 +278,8 @@ def test_flows_catchments_and_manhole_loads_are_read(tmp_path: Path) -> None:
         ('[flows]\nkind = "foul"\n', "flows.kind: expected one of"),
         ('[flows]\npeaking = "harman"\n', "flows.peaking: expected one of"),
         ('[flows]\npeaking = [[1000, 3.0], [500, 2.0]]\n', "flows.peaking: expected an array of at least two"),
-        ('[flows]\ngrowth_factor = 0\n', "flows.growth_factor: expected a number"),
+        ('[flows]\npopulation_growth = 0\n', "flows.population_growth: expected a number"),
+        ('[flows]\ngrowth_factor = 1.2\n', "flows.growth_factor: expected no longer a key: it is replaced by population_growth"),
         ('[flows]\nc_pervious = 1.5\n', "flows.c_pervious: expected a runoff coefficient"),
         ('[flows]\ntc_max_iterations = 0\n', "flows.tc_max_iterations: expected a whole number"),
         ('[flows]\nper_capita = 200\n', "flows.per_capita: unknown key; did you mean 'per_capita_l_day'?"),

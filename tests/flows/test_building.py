@@ -27,24 +27,38 @@ def _hydraulics(count: int):  # type: ignore[no-untyped-def]
     return PipeHydraulics(sections, np.full(count, 0.005), Friction.uniform("manning", 0.013, count), np.full(count, 100.0))
 
 
-def test_built_sanitary_flows_scale_by_growth_and_a_given_flow_wins_only_in_its_pipe() -> None:
-    # chain N0 -> N1 -> N2 -> N3; 2000 persons at N0 and N1, 1 l/s inflow at N1; pipe 1 has a study flow of 9 l/s
+def test_built_sanitary_flows_grow_with_the_population_and_a_given_flow_wins_only_in_its_pipe() -> None:
+    # chain N0 -> N1 -> N2 -> N3; 2000 persons at N0 and N1, 1 l/s inflow at N1; pipe 1 has a study flow of 9 l/s;
+    # the population grows by half by the design horizon
     network = _network([0, 1, 2], [1, 2, 3], [0.0, 0.001, 0.0, 0.0])
     manholes = pd.DataFrame({"population": [2000.0, 2000.0, 0.0, 0.0], "point_load": [0.0, 0.0, 0.0, 0.0]})
     options = FlowOptions(kind="sanitary", per_capita_l_day=216.0, peaking="constant", peaking_factor=2.0,
-                          infiltration_l_s_km=1.0, growth_factor=1.5)  # fmt: skip
+                          infiltration_l_s_km=1.0, population_growth=1.5)  # fmt: skip
     log = FindingLog()
     flows = built_flows(network, manholes=manholes, catchments=None, given_flow=np.array([np.nan, 0.009, np.nan]), pipes=_hydraulics(3),
                         pipe_labels=np.array(["P0", "P1", "P2"], dtype=object), options=options, findings=log)  # fmt: skip
     assert flows.parts is not None
-    # by hand: 2000 x 216 l/day = 5 l/s average, x 2 peaking = 10 l/s; 4000 persons give 20 l/s plus the 1 l/s inflow
-    np.testing.assert_allclose(flows.parts.q_sanitary, np.array([10.0, 21.0, 21.0]) * 1.5e-3)
-    np.testing.assert_allclose(flows.parts.q_infiltration, np.array([0.1, 0.2, 0.3]) * 1.5e-3)  # 1 l/s per km of 100 m pipes
-    np.testing.assert_allclose(flows.q_design, [15.15e-3, 0.009, 31.95e-3])
+    # by hand: 3000 x 216 l/day = 7.5 l/s average, x 2 peaking = 15 l/s; 6000 persons give 30 l/s plus the
+    # 1 l/s inflow, which does not grow with the population; nor does the infiltration
+    np.testing.assert_allclose(flows.parts.q_sanitary, np.array([15.0, 31.0, 31.0]) * 1e-3)
+    np.testing.assert_allclose(flows.parts.q_infiltration, np.array([0.1, 0.2, 0.3]) * 1e-3)  # 1 l/s per km of 100 m pipes
+    np.testing.assert_allclose(flows.q_design, [15.1e-3, 0.009, 31.3e-3])
     assert flows.source.tolist() == ["accumulated", "given", "accumulated"]
-    np.testing.assert_allclose(flows.node_total, [15.15e-3, 0.009, 31.95e-3, 31.95e-3])
+    np.testing.assert_allclose(flows.node_total, [15.1e-3, 0.009, 31.3e-3, 31.3e-3])
     assert np.isnan(flows.parts.tc_min).all()
-    assert flows.parts.population_served.tolist() == [2000.0, 4000.0, 4000.0]
+    assert flows.parts.population_served.tolist() == [3000.0, 6000.0, 6000.0]
+
+
+def test_rainfall_uplift_and_urban_creep_raise_the_runoff() -> None:
+    network = _network([0], [1], [0.0, 0.0])
+    rainfall = Rainfall(table=((5.0, 72.0), (60.0, 72.0)), inlet_time_min=10.0, return_period_years=30.0)  # flat 72 mm/h, invented
+    catchment = _catchments(["N0"], [0.0], [2.0]).assign(runoff_coefficient=np.nan, impervious_fraction=0.5)
+    options = FlowOptions(kind="storm", rainfall=rainfall, rainfall_uplift=1.2, urban_creep=0.1)
+    flows = built_flows(network, manholes=None, catchments=catchment, given_flow=np.full(1, np.nan), pipes=_hydraulics(1),
+                        pipe_labels=np.array(["P0"], dtype=object), options=options, findings=FindingLog())  # fmt: skip
+    # by hand: impervious 0.5 -> 0.55; C = 0.55 x 0.9 + 0.45 x 0.2 = 0.585; i = 1.2 x 72 = 86.4 mm/h;
+    # Q = C i A / 360 = 0.585 x 86.4 x 2 / 360 (rational method; HEC-22, from memory)
+    np.testing.assert_allclose(flows.q_design, [0.585 * 86.4 * 2 / 360])
 
 
 def test_given_kind_keeps_the_flows_as_before() -> None:
