@@ -40,7 +40,7 @@ from audit.result import (
     network_totals,
     with_columns,
 )
-from audit.rules import JUDGED_KINDS, check_pipes, unusual_values
+from audit.rules import JUDGED_KINDS, check_pipes, cleansing_state, unusual_values
 
 STAGES = ("reading layers", "building the network", "slopes", "design flows", "hydraulics", "rules", "assembling")
 
@@ -74,6 +74,9 @@ def prepare(config: Config | str | Path, *, progress: tqdm | None = None) -> Pre
     findings = FindingLog()
     for key, message in unusual_values(config.rules):
         findings.add("config", key, "unusual_setting", message)
+    if config.rules.self_cleansing.startswith("dry_weather") and not config.flows.builds_sanitary:
+        findings.add("config", "rules.self_cleansing", "unusual_setting", f"rules.self_cleansing = {config.rules.self_cleansing!r} needs a "
+                     "dry-weather flow, which only flows built as sanitary or combined have ([flows] kind); silting is not judged")
     _step(progress, 0)
     layers = read_layers(config.pipes, manholes=config.manholes, catchments=config.catchments, options=config.input, findings=findings)
     pipes = layers.pipes.canonical
@@ -120,8 +123,9 @@ def run(config: Config | str | Path, *, progress: bool = False) -> AuditResult:
         _step(bar, 4)
         state = normal_depth(flows.q_design, hydraulics.sections, hydraulics.slope, hydraulics.friction, temperature_c=hydraulics.temperature_c)
         state = _gravity_only(state, judged=np.isin(kind, JUDGED_KINDS))
+        cleansing = cleansing_state(ready.config.rules, state=state, flows=flows, pipes=hydraulics)
         _step(bar, 5)
-        computed = _computed_columns(ready, flows, state, height=height)
+        computed = _computed_columns(ready, flows, state, height=height).assign(v_cleansing=cleansing.velocity, shear_cleansing=cleansing.shear)
         checks = check_pipes(
             _metrics(pipes, computed, state, flows, height=height, labels=labels, sections=hydraulics.sections),
             upstream=network.upstream,
@@ -269,6 +273,9 @@ def _metrics(
             "hydraulic_status": text(_RULE_LABELS[state.status]),
             "flow_status": text(flows.source.astype(object)),
             "full_area": full_area,
+            "v_cleansing": computed["v_cleansing"].to_numpy(),
+            "shear_cleansing": computed["shear_cleansing"].to_numpy(),
+            "population_served": computed["population_served"].to_numpy(),
             "kind": text(pipes["kind"].to_numpy(dtype=object)),
         },
         index=computed.index,

@@ -49,6 +49,8 @@ PIPE_COLUMNS: dict[str, str] = {
     "depth_ratio": "normal depth / internal height [-]; 1.0 when surcharged",
     "v_design": "mean velocity at the design flow [m/s]",
     "shear": "boundary shear stress at the design flow, rho g R S [Pa]",
+    "v_cleansing": "velocity at the flow the self-cleansing criterion judges ([rules] self_cleansing) [m/s]",
+    "shear_cleansing": "boundary shear at the flow the self-cleansing criterion judges [Pa]",
     "hydraulic_status": "ok, above_full_bore, surcharged, or why the hydraulics could not run; pressure_pipe, overflow or "
                         "left_out for a pipe the gravity rules do not judge",
     "pipe_kind": "gravity, private, rising_main, siphon, overflow or abandoned ([pipes.kinds]; gravity where unmapped)",

@@ -83,6 +83,8 @@ inflow = "LOAD_LS"
 [hydraulics]
 formula = "manning"
 manning_n = {N}
+[rules]
+self_cleansing = "design_velocity"  # the expected flags judge silting at the design flow
 """,
         encoding="utf-8",
     )

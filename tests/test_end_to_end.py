@@ -118,3 +118,20 @@ def test_every_configured_layer_file_counts_as_an_input(tmp_path: Path) -> None:
     config.write_text(text, encoding="utf-8")
     result = run(config)
     assert {path.name for path in result.inputs} == {"pipes.gpkg", "manholes.gpkg", "cells.geojson"}
+
+
+def test_the_default_self_cleansing_criterion_judges_the_full_bore_velocity(tmp_path: Path) -> None:
+    # the same town with the default criterion: velocity flowing full >= 0.6 m/s (the 2 ft/s rule)
+    config = write_town(tmp_path, "GPKG", ".gpkg")
+    config.write_text(config.read_text(encoding="utf-8").replace('self_cleansing = "design_velocity"', ""), encoding="utf-8")
+    result = run(config)
+    pipes = result.pipe_results.set_index(result.pipes["REF"])
+    # Manning flowing full, by hand: V = (1/n) (D/4)^(2/3) S^(1/2)
+    for ref, diameter, up, down in [(p[0], p[3] / 1000, p[4], p[5]) for p in PIPES if p[0] in ("P1", "P3", "P5")]:
+        slope = (up - down) / pipes.loc[ref, "length_m"]
+        v_full = (1 / N) * (diameter / 4) ** (2 / 3) * slope**0.5
+        assert pipes.loc[ref, "v_cleansing"] == pytest.approx(v_full, rel=1e-9)
+        assert ("silting" in pipes.loc[ref, "flags"]) == (v_full < 0.6), ref
+    # the 150 mm pipe at 0.1 % never cleanses itself (about 0.27 m/s full), whatever it carries
+    assert "velocity 0.27 m/s < 0.60 m/s flowing full" in pipes.loc["P3", "reasons"]
+    assert "silting" not in pipes.loc["P5", "flags"]  # 0.5 l/s is slow, but flowing full the pipe cleanses itself

@@ -98,7 +98,8 @@ def built_flows(network: Network, *, manholes: pd.DataFrame | None, catchments: 
     given = np.isfinite(given_flow) & (given_flow >= 0) & carrier.usable
     q_storm, tc, passes, storm_own = _storm(carrier, catchments, loads.catchment_node, pipes, base=sanitary.q_sanitary + sanitary.q_infiltration,
                                              given=np.where(given, given_flow, np.nan), options=options, findings=findings)  # fmt: skip
-    parts = FlowParts(sanitary.q_sanitary, sanitary.q_infiltration, q_storm, tc, sanitary.population_served, sanitary.area_served_ha, passes)
+    parts = FlowParts(sanitary.q_sanitary, sanitary.q_infiltration, q_storm, tc, sanitary.population_served, sanitary.area_served_ha, passes,
+                      q_sanitary_average=sanitary.q_sanitary_average)  # fmt: skip
     source = shape.source.copy()
     source[given] = "given"
     q_design = np.where(given, given_flow, parts.total)

@@ -69,6 +69,12 @@ class FlowParts:
     population_served: Array  # persons upstream [-]
     area_served_ha: Array  # catchment area upstream [ha]
     iterations: int = 0  # passes of the time-of-concentration iteration (0 without storm)
+    q_sanitary_average: Array | None = None  # q_sanitary unpeaked [m^3/s]
+
+    def dry_weather(self, which: str) -> Array:
+        """The dry-weather flow [m^3/s]: the sanitary part with infiltration, at its daily ``peak`` or its ``average``."""
+        sanitary = self.q_sanitary if which == "peak" or self.q_sanitary_average is None else self.q_sanitary_average
+        return sanitary + self.q_infiltration
 
     @property
     def total(self) -> Array:

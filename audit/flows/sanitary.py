@@ -208,6 +208,7 @@ class SanitaryFlows:
 
     q_sanitary: Array
     q_infiltration: Array
+    q_sanitary_average: Array  # the same flow unpeaked: average domestic flow plus point loads [m^3/s]
     population_served: Array
     area_served_ha: Array
     q_sanitary_own: Array  # from each node's own loads alone [m^3/s] (what drains straight to it)
@@ -232,21 +233,21 @@ def sanitary_flows(carrier: Carrier, loads: NodeLoads, *, length: Array, options
     area = carrier.carry(loads.area_ha)
     point = carrier.carry(loads.point_load)
     upstream_km = carrier.carry(np.zeros(loads.population.size), length) / 1000.0
-    q_sanitary, q_infiltration = _sanitary_parts(population, point, upstream_km, area, options=options)
-    own_sanitary, own_infiltration = _sanitary_parts(loads.population, loads.point_load, np.zeros(loads.population.size), loads.area_ha, options=options)
-    return SanitaryFlows(q_sanitary, q_infiltration, population, area, own_sanitary, own_infiltration)
+    q_sanitary, q_average, q_infiltration = _sanitary_parts(population, point, upstream_km, area, options=options)
+    own_sanitary, _, own_infiltration = _sanitary_parts(loads.population, loads.point_load, np.zeros(loads.population.size), loads.area_ha, options=options)
+    return SanitaryFlows(q_sanitary, q_infiltration, q_average, population, area, own_sanitary, own_infiltration)
 
 
-def _sanitary_parts(population: Array, point: Array, upstream_km: Array, area_ha: Array, *, options: FlowOptions) -> tuple[Array, Array]:
-    r"""Peaked domestic flow plus point loads, and infiltration [m^3/s], from the totals carried to a place.
+def _sanitary_parts(population: Array, point: Array, upstream_km: Array, area_ha: Array, *, options: FlowOptions) -> tuple[Array, Array, Array]:
+    r"""Peaked and average domestic flow plus point loads, and infiltration [m^3/s], from the totals carried to a place.
 
     .. math:: Q_s = PF(P)\, \frac{P\, q_{pc}}{86\,400} + Q_{point}, \qquad Q_i = r_{km} L_{km} + r_{ha} A
 
     A storm sewer keeps only the point loads, with no infiltration.
     """
     if not options.builds_sanitary:
-        return point, np.where(np.isnan(point), np.nan, 0.0)
+        return point, point, np.where(np.isnan(point), np.nan, 0.0)
     average = population * options.per_capita_l_day * LITRE / SECONDS_PER_DAY
     domestic = peaking_factor(population, options=options) * average
     infiltration = (options.infiltration_l_s_km * upstream_km + options.infiltration_l_s_ha * area_ha) * LITRE
-    return domestic + point, infiltration
+    return domestic + point, average + point, infiltration

@@ -32,7 +32,7 @@ from audit.report.tables import (
     renewal_candidates,
 )
 from audit.result import AuditResult
-from audit.rules import DiameterTable, RuleSettings
+from audit.rules import CLEANSING_WORDS, DiameterTable, RuleSettings
 from audit.version import __version__
 
 CAUTION_WORDS = (
@@ -157,10 +157,14 @@ def _part_full(pipes: pd.DataFrame, classes: np.ndarray) -> str:
 def _velocity(pipes: pd.DataFrame, rules: RuleSettings) -> str:
     velocity = numeric(pipes, "v_design")
     known = int(np.count_nonzero(np.isfinite(velocity)))
+    criterion = CLEANSING_WORDS[rules.self_cleansing].format(fraction=rules.cleansing_fraction, dry=rules.dry_weather)
+    threshold = f"boundary shear of {rules.min_shear:g} Pa" if rules.self_cleansing == "dry_weather_shear" else f"velocity of {rules.min_velocity:g} m/s"
     words = (
-        f"{known:,} pipes with a velocity, in bands of 0.1 m/s; the dashed lines are the minimum "
-        f"({rules.min_velocity:g} m/s, against silting) and maximum ({rules.max_velocity:g} m/s, against scour) "
-        "velocity of the rules. Bands outside them are orange; the last band holds every faster pipe."
+        f"{known:,} pipes with a velocity at the design flow, in bands of 0.1 m/s; the dashed lines are the minimum "
+        f"({rules.min_velocity:g} m/s) and maximum ({rules.max_velocity:g} m/s, against scour) velocity of the rules. "
+        "Bands outside them are orange; the last band holds every faster pipe. "
+        f"Self-cleansing (the silting flag) is judged {criterion} (rules.self_cleansing = {rules.self_cleansing}): "
+        f"a pipe silts below a {threshold} there."
     )
     return velocity_histogram(velocity, min_velocity=rules.min_velocity, max_velocity=rules.max_velocity) + paragraph(words, class_="note")
 

@@ -11,12 +11,14 @@ strings).
 """
 
 from audit.rules.checks import (
+    CLEANSING_WORDS,
     HYDRAULIC_STATUSES,
     JUDGED_KINDS,
     METRIC_COLUMNS,
     check_pipes,
     worst_severity_at_least,
 )
+from audit.rules.cleansing import Cleansing, cleansing_state
 from audit.rules.settings import (
     DEFAULT_SEVERITY,
     FLAG_CODES,
@@ -30,6 +32,7 @@ from audit.rules.settings import (
 )
 
 __all__ = [
+    "CLEANSING_WORDS",
     "DEFAULT_SEVERITY",
     "FLAG_CODES",
     "HYDRAULIC_STATUSES",
@@ -39,9 +42,11 @@ __all__ = [
     "RSWF_MIN_SLOPE",
     "SEVERITY_OFF",
     "SEVERITY_ORDER",
+    "Cleansing",
     "DiameterTable",
     "RuleSettings",
     "check_pipes",
+    "cleansing_state",
     "unusual_values",
     "worst_severity_at_least",
 ]

@@ -145,7 +145,7 @@ def _columns(metrics: pd.DataFrame) -> dict[str, np.ndarray]:
         raise ValueError(f"rules: metrics frame lacks column(s) {', '.join(missing)}")
     texts = ("pipe_id", "shape", "hydraulic_status", "flow_status")
     columns = {name: _text_column(metrics[name]) for name in texts}
-    for name in (*METRIC_COLUMNS, "upstream_invert", "downstream_invert", "full_area"):
+    for name in (*METRIC_COLUMNS, "upstream_invert", "downstream_invert", "full_area", "v_cleansing", "shear_cleansing", "population_served"):
         if name not in texts and name in metrics.columns:
             columns[name] = metrics[name].to_numpy(dtype=float, na_value=np.nan)
     return columns
@@ -192,26 +192,40 @@ def _capacity_hits(columns: dict[str, np.ndarray], *, settings: RuleSettings) ->
     }
 
 
+#: The words a silting reason ends with, per criterion (``RuleSettings.self_cleansing``).
+CLEANSING_WORDS = {"full_velocity": "flowing full", "design_velocity": "at the design flow",
+                   "fraction_velocity": "at {fraction:.2f} x the design flow", "dry_weather_velocity": "at the dry-weather {dry} flow",
+                   "dry_weather_shear": "at the dry-weather {dry} flow"}  # fmt: skip
+
+
 def _velocity_hits(columns: dict[str, np.ndarray], *, settings: RuleSettings) -> dict[str, Hit]:
     flowing = columns["slope"] > 0
     velocity = columns["v_design"]
-    slow = flowing & (velocity < settings.min_velocity)
-    weak = np.zeros_like(slow)
-    if settings.min_shear is not None:
-        weak = flowing & (columns["shear"] < settings.min_shear)
-    parts = join(
-        [
-            (slow, concat("velocity ", fixed(velocity[slow], 2), f" m/s < {settings.min_velocity:.2f} m/s")),
-            (weak, concat("shear ", fixed(columns["shear"][weak], 2), f" Pa < {settings.min_shear or 0:.2f} Pa")),
-        ],
-        sep=" and ",
-        count=len(slow),
-    )
     fast = flowing & (velocity > settings.max_velocity)
     return {
-        "silting": (slow | weak, rows(parts, slow | weak)),
+        "silting": _silting_hit(columns, settings=settings),
         "high_velocity": (fast, concat("velocity ", fixed(velocity[fast], 2), f" m/s > {settings.max_velocity:.2f} m/s")),
     }
+
+
+def _silting_hit(columns: dict[str, np.ndarray], *, settings: RuleSettings) -> Hit:
+    """Self-cleansing by the configured criterion: the velocity (or shear) at the criterion's flow.
+
+    The frame's ``v_cleansing`` and ``shear_cleansing`` hold them; a frame without them is judged
+    at the design flow. Pipes serving fewer than ``exempt_population`` persons are not judged.
+    """
+    flowing = columns["slope"] > 0
+    if "population_served" in columns:
+        flowing &= ~(columns["population_served"] < settings.exempt_population)
+    criterion = settings.self_cleansing if "v_cleansing" in columns else "design_velocity"
+    words = CLEANSING_WORDS[criterion].format(fraction=settings.cleansing_fraction, dry=settings.dry_weather)
+    if criterion == "dry_weather_shear":
+        shear = columns.get("shear_cleansing", columns["shear"])
+        weak = flowing & (shear < settings.min_shear)
+        return weak, concat("shear ", fixed(shear[weak], 2), f" Pa < {settings.min_shear:.2f} Pa {words}")
+    velocity = columns.get("v_cleansing", columns["v_design"])
+    slow = flowing & (velocity < settings.min_velocity)
+    return slow, concat("velocity ", fixed(velocity[slow], 2), f" m/s < {settings.min_velocity:.2f} m/s {words}")
 
 
 def _grade_hits(columns: dict[str, np.ndarray], *, size: np.ndarray, settings: RuleSettings) -> dict[str, Hit]:

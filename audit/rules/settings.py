@@ -109,6 +109,16 @@ RSWF_MAX_SPACING = DiameterTable(
 )
 
 
+#: How self-cleansing (the ``silting`` flag) is judged; docs/rules.md gives each one's source.
+#: ``full_velocity``: velocity flowing full >= ``min_velocity`` (the basis of the 2 ft/s rule);
+#: ``design_velocity``: at the design flow; ``fraction_velocity``: at ``cleansing_fraction`` of
+#: the design flow; ``dry_weather_velocity`` and ``dry_weather_shear``: velocity, or boundary
+#: shear >= ``min_shear``, at the dry-weather flow (the sanitary part with infiltration, its
+#: daily peak or its average as ``dry_weather`` says).
+SELF_CLEANSING: tuple[str, ...] = ("full_velocity", "design_velocity", "fraction_velocity", "dry_weather_velocity", "dry_weather_shear")
+DRY_WEATHER: tuple[str, ...] = ("peak", "average")
+
+
 def _default_severity() -> Mapping[str, str]:
     return MappingProxyType(dict(DEFAULT_SEVERITY))
 
@@ -121,8 +131,12 @@ class RuleSettings:
     ----------
     max_load_ratio : design flow over full-bore capacity above which a pipe surcharges [-]
     near_capacity_ratio : load ratio above which a pipe is near capacity [-]
-    min_velocity : least velocity at design flow against silting [m/s]
-    min_shear : least boundary shear at design flow [Pa]; None: not checked
+    self_cleansing : the criterion of the ``silting`` flag (``SELF_CLEANSING``)
+    min_velocity : least velocity against silting, at the criterion's flow [m/s]
+    min_shear : least boundary shear at the dry-weather flow, for ``dry_weather_shear`` [Pa]
+    cleansing_fraction : the share of the design flow ``fraction_velocity`` judges at [-]
+    dry_weather : ``peak`` (the daily peak) or ``average`` dry-weather flow
+    exempt_population : pipes serving fewer persons are not judged for silting [-]
     max_velocity : greatest velocity at design flow against scour [m/s]
     min_slope : least slope by diameter [m/m]; None: only a zero slope is flagged
     min_diameter_mm : least internal size of a public gravity sewer [mm]
@@ -133,8 +147,12 @@ class RuleSettings:
 
     max_load_ratio: float = 1.0  # common practice, no source
     near_capacity_ratio: float = 0.8  # common practice, no source
+    self_cleansing: str = "full_velocity"  # flow-independent and widely used; see docs/rules.md
     min_velocity: float = 0.6  # 2 ft/s, common North American figure, from memory
-    min_shear: float | None = None
+    min_shear: float = 1.0  # 1 to 2 Pa at the daily peak, ASCE/WEF MOP FD-5, from memory
+    cleansing_fraction: float = 1.0 / 3.0  # some UK guidance judges foul sewers at a third of the design flow, from memory
+    dry_weather: str = "peak"
+    exempt_population: float = 0.0
     max_velocity: float = 3.0  # common practice, no source
     min_slope: DiameterTable | None = None
     min_diameter_mm: float = 200.0  # 8 in in many codes, from memory
@@ -200,6 +218,12 @@ def _positive(raw: object, *, source: str, key: str) -> float:
     return value
 
 
+def _choice(raw: object, choices: tuple[str, ...], *, source: str, key: str) -> str:
+    if raw not in choices:
+        raise ConfigError(f"{source}: {key}: expected one of {', '.join(choices)}, got {_kind(raw)}")
+    return str(raw)
+
+
 def _by_diameter(raw: object, *, source: str, key: str) -> DiameterTable:
     if not isinstance(raw, bool) and isinstance(raw, int | float):
         return DiameterTable.constant(_positive(raw, source=source, key=key))
@@ -238,8 +262,12 @@ def _severity(raw: object, *, source: str, key: str) -> Mapping[str, str]:
 _PARSERS = {
     "max_load_ratio": _positive,
     "near_capacity_ratio": _positive,
+    "self_cleansing": lambda raw, *, source, key: _choice(raw, SELF_CLEANSING, source=source, key=key),
     "min_velocity": _non_negative,
     "min_shear": _non_negative,
+    "cleansing_fraction": _positive,
+    "dry_weather": lambda raw, *, source, key: _choice(raw, DRY_WEATHER, source=source, key=key),
+    "exempt_population": _non_negative,
     "max_velocity": _positive,
     "min_slope": _by_diameter,
     "min_diameter_mm": _non_negative,

@@ -252,7 +252,8 @@ def write_small_network(folder: Path) -> Path:
         '[pipes]\npath = "net.gpkg"\nlayer = "pipes"\n[pipes.fields]\nid = "ref"\nfrom_node = "up"\nto_node = "down"\n'
         'diameter = "dia"\nflow = "q"\n[pipes.units]\ndiameter = "mm"\nflow = "l/s"\n'
         '[manholes]\npath = "net.gpkg"\nlayer = "manholes"\n[manholes.fields]\nid = "ref"\nrim = "cover"\ninvert = "sump"\n'
-        'inflow = "load"\n[manholes.units]\ninflow = "l/s"\n',
+        'inflow = "load"\n[manholes.units]\ninflow = "l/s"\n'
+        '[rules]\nself_cleansing = "design_velocity"\n',  # the first pipe silts at its 5 l/s and so is a candidate
         encoding="utf-8",
     )
     return config

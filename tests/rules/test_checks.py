@@ -80,19 +80,38 @@ def test_load_ratio_falls_back_to_flows_when_not_given() -> None:
 
 
 def test_silting_by_velocity_with_boundary() -> None:
+    # a frame without the criterion's velocity is judged at the design flow
     result = check(metrics(2, v_design=[0.59, 0.6]))
     assert result["flags"].tolist() == ["silting", ""]
-    assert result.loc[0, "reasons"] == "velocity 0.59 m/s < 0.60 m/s"
+    assert result.loc[0, "reasons"] == "velocity 0.59 m/s < 0.60 m/s at the design flow"
     assert result.loc[0, "severity"] == "medium"
 
 
-def test_silting_by_shear_only_when_configured() -> None:
-    frame = metrics(3, v_design=[1.0, 0.5, 1.0], shear=[0.8, 0.8, 1.0])
-    assert check(frame)["flags"].tolist() == ["", "silting", ""]
-    result = check(frame, min_shear=1.0)
-    assert result["flags"].tolist() == ["silting", "silting", ""]
-    assert result.loc[0, "reasons"] == "shear 0.80 Pa < 1.00 Pa"
-    assert result.loc[1, "reasons"] == "velocity 0.50 m/s < 0.60 m/s and shear 0.80 Pa < 1.00 Pa"
+@pytest.mark.parametrize(
+    ("criterion", "words"),
+    [
+        ("full_velocity", "velocity 0.50 m/s < 0.60 m/s flowing full"),
+        ("design_velocity", "velocity 0.50 m/s < 0.60 m/s at the design flow"),
+        ("fraction_velocity", "velocity 0.50 m/s < 0.60 m/s at 0.33 x the design flow"),
+        ("dry_weather_velocity", "velocity 0.50 m/s < 0.60 m/s at the dry-weather peak flow"),
+    ],
+)
+def test_silting_by_each_velocity_criterion(criterion: str, words: str) -> None:
+    frame = metrics(2, v_design=1.0)
+    frame["v_cleansing"] = [0.5, 0.6]  # the velocity at the criterion's flow, from the pipeline
+    result = check(frame, self_cleansing=criterion)
+    assert result["flags"].tolist() == ["silting", ""]
+    assert result.loc[0, "reasons"] == words
+
+
+def test_silting_by_shear_at_the_dry_weather_flow_and_the_exemption() -> None:
+    frame = metrics(4, v_design=1.0)
+    frame["v_cleansing"] = 1.0
+    frame["shear_cleansing"] = [0.8, 0.99, 1.0, 0.2]
+    frame["population_served"] = [500.0, 500.0, 500.0, 20.0]  # the last pipe heads a run of a few houses
+    result = check(frame, self_cleansing="dry_weather_shear", dry_weather="average", exempt_population=50.0)
+    assert result["flags"].tolist() == ["silting", "silting", "", ""]
+    assert result.loc[0, "reasons"] == "shear 0.80 Pa < 1.00 Pa at the dry-weather average flow"
 
 
 def test_high_velocity_with_boundary() -> None:
@@ -311,7 +330,8 @@ def test_settings_defaults() -> None:
     assert settings == RuleSettings()
     assert settings.max_spacing_m.values == (121.92, 152.4, np.inf)
     assert settings.min_slope is None
-    assert settings.min_shear is None
+    assert settings.min_shear == 1.0
+    assert settings.self_cleansing == "full_velocity"
 
 
 def test_settings_from_table() -> None:
@@ -337,6 +357,9 @@ def test_settings_from_table() -> None:
         ({"min_slope": "steep"}, ["rules.min_slope", "list of [from_diameter_mm, value] rows"]),
         ({"min_slope": [[0, "x"]]}, ["rules.min_slope[0][1]", "finite number"]),
         ({"severity": {"siltng": "low"}}, ["rules.severity.siltng", "did you mean 'silting'"]),
+        ({"self_cleansing": "slow"}, ["rules.self_cleansing", "full_velocity, design_velocity, fraction_velocity"]),
+        ({"dry_weather": "mean"}, ["rules.dry_weather", "peak, average"]),
+        ({"cleansing_fraction": 0}, ["rules.cleansing_fraction", "> 0"]),
         ({"severity": {"silting": "urgent"}}, ["rules.severity.silting", "low, medium, high, off"]),
         ({"near_capacity_ratio": 1.2}, ["rules.near_capacity_ratio", "rules.max_load_ratio"]),
         ({"min_velocity": 4.0}, ["rules.min_velocity", "rules.max_velocity"]),
@@ -380,8 +403,8 @@ def test_thresholds_far_outside_their_usual_range_are_said(tmp_path: Path) -> No
 
     config = write_town(tmp_path, "GPKG", ".gpkg")
     # a minimum slope of 0.4 meant as 0.4 %, a cover of 3.5 meant as feet, a velocity in ft/s
-    config.write_text(config.read_text(encoding="utf-8") + "\n[rules]\nmin_slope = 0.4\nmin_cover_m = 3.5\nmin_velocity = 2.0\n",
-                      encoding="utf-8")  # fmt: skip
+    text = config.read_text(encoding="utf-8").replace("[rules]\n", "[rules]\nmin_slope = 0.4\nmin_cover_m = 3.5\nmin_velocity = 2.0\n")
+    config.write_text(text, encoding="utf-8")
     found = run(config).findings.query("code == 'unusual_setting'")
     assert found["layer"].unique().tolist() == ["config"]
     assert found["feature"].tolist() == ["rules.min_velocity", "rules.min_slope", "rules.min_cover_m"]
