@@ -5,12 +5,17 @@ Exit codes, for scripts and data pipelines:
 * 0: the command finished;
 * 1: the input could not be used (the message names the file, layer, key, field or feature);
 * 2: the command line itself was wrong (argparse's own convention);
-* 3: ``--fail-on SEVERITY`` was given and flags of that severity or worse were found.
+* 3: ``--fail-on SEVERITY`` was given and flags of that severity or worse were found;
+* 141: standard output was closed before the command finished writing (the output piped into
+  ``head``, say). The command stops quietly, with no traceback; 141 is 128 + SIGPIPE (13), the
+  status a shell reports for a program stopped by a closed pipe.
 """
 
 from __future__ import annotations
 
 import argparse
+import os
+import signal
 import sys
 from collections.abc import Sequence
 from pathlib import Path
@@ -24,6 +29,7 @@ EXIT_OK = 0
 EXIT_BAD_INPUT = 1
 EXIT_USAGE = 2
 EXIT_FLAGGED = 3
+EXIT_CLOSED_PIPE = 128 + int(getattr(signal, "SIGPIPE", 13))  # 141: a shell's status for a program stopped by a closed pipe (POSIX)
 
 
 OUTPUTS_HELP = """\
@@ -55,7 +61,8 @@ def _build_parser() -> argparse.ArgumentParser:
         prog="sewer-audit",
         description=DESCRIPTION,
         formatter_class=argparse.RawDescriptionHelpFormatter,
-        epilog="Exit codes: 0 finished, 1 unusable input, 2 usage error, 3 --fail-on threshold reached.",
+        epilog="Exit codes: 0 finished, 1 unusable input, 2 usage error, 3 --fail-on threshold reached, "
+        "141 output closed early (piped into head).",
     )
     parser.add_argument("--version", action="version", version=f"%(prog)s {__version__}")
     commands = parser.add_subparsers(dest="command", metavar="COMMAND", required=True)
@@ -94,12 +101,43 @@ def _build_parser() -> argparse.ArgumentParser:
 
 
 def main(argv: Sequence[str] | None = None) -> int:
-    """Run the command line; return the exit code (see the module docstring)."""
+    """Run the command line; return the exit code (see the module docstring).
+
+    A reader that closes standard output early (``sewer-audit inspect town.gpkg | head -1``)
+    ends the command quietly with ``EXIT_CLOSED_PIPE``: what was still to be written is sent to
+    the null device, so Python's last flush at exit finds no broken pipe either.
+    """
+    try:
+        try:
+            code = _main(argv)
+        except SystemExit:  # --help, --version and usage errors print, then exit: flush while we can still catch
+            sys.stdout.flush()
+            raise
+        sys.stdout.flush()
+    except BrokenPipeError:
+        _silence_stdout()
+        return EXIT_CLOSED_PIPE
+    return code
+
+
+def _silence_stdout() -> None:
+    """Point standard output at the null device, so nothing more is written to the closed pipe."""
+    try:
+        descriptor = sys.stdout.fileno()
+    except (AttributeError, OSError, ValueError):
+        return  # not a real file (a test's capture): nothing will be flushed to a pipe
+    null = os.open(os.devnull, os.O_WRONLY)
+    os.dup2(null, descriptor)
+    os.close(null)
+
+
+def _main(argv: Sequence[str] | None) -> int:
+    """Parse the command line and run the command."""
     parser = _build_parser()
     args = parser.parse_args(argv)
     try:
         if args.command == "inspect":
-            from audit.layers.inspection import inspect_command
+            from audit.inspect import inspect_command
 
             return inspect_command(args)
         return _audit_command(args)

@@ -1,11 +1,17 @@
 """The command line's help and exit codes."""
 
+import fcntl
+import io
 import json
+import os
+import subprocess
+import sys
 from pathlib import Path
 
 import geopandas as gpd
 import pytest
 from _small_town import write_town
+from shapely.geometry import LineString
 
 from audit import cli
 
@@ -88,3 +94,43 @@ def test_demo_runs_on_the_bundled_town_and_prints_a_table(tmp_path: Path, capsys
     assert "audit.gpkg" in text
     assert "licensed engineer" in text
     assert {path.name for path in (tmp_path / "demo").iterdir()} >= {"audit.gpkg", "summary.json", "candidates.csv", "report.html"}
+
+
+class _ClosedPipe(io.StringIO):
+    """A buffered standard output whose reader has gone: writes are kept, the flush fails as on a closed pipe."""
+
+    def flush(self) -> None:
+        raise BrokenPipeError(32, "Broken pipe")
+
+
+@pytest.mark.parametrize("argv", [["--help"], ["--version"], ["inspect", "WIDE"]])
+def test_a_closed_output_ends_every_command_quietly(tmp_path: Path, monkeypatch: pytest.MonkeyPatch, argv: list[str]) -> None:
+    wide = _wide_register(tmp_path)
+    monkeypatch.setattr(sys, "stdout", _ClosedPipe())
+    assert cli.main([str(wide) if arg == "WIDE" else arg for arg in argv]) == cli.EXIT_CLOSED_PIPE == 141  # 128 + SIGPIPE (13), POSIX
+
+
+def _wide_register(tmp_path: Path) -> Path:
+    """A pipe layer with 1,200 long field names: its listing alone is far longer than any pipe buffer."""
+    path = tmp_path / "wide.gpkg"
+    columns = {f"ATTRIBUTE_{i:04d}_OF_A_REGISTER_EXPORTED_WITH_EVERY_FIELD": [float(i)] for i in range(1200)}
+    gpd.GeoDataFrame(columns, geometry=[LineString([(0, 0), (10, 0)])], crs="EPSG:27700").to_file(path)
+    return path
+
+
+def test_output_piped_into_head_ends_quietly(tmp_path: Path) -> None:
+    wide = _wide_register(tmp_path)
+    read_end, write_end = os.pipe()
+    if hasattr(fcntl, "F_SETPIPE_SZ"):  # Linux: a one-page pipe, so the writer must wait for head
+        fcntl.fcntl(write_end, fcntl.F_SETPIPE_SZ, 4096)
+    command = Path(sys.executable).with_name("sewer-audit")
+    with subprocess.Popen([str(command), "inspect", str(wide), "--config-out", str(tmp_path / "wide.toml")],
+                          stdout=write_end, stderr=subprocess.PIPE) as audit:  # fmt: skip
+        os.close(write_end)
+        with subprocess.Popen(["head", "-1"], stdin=read_end, stdout=subprocess.PIPE) as head:
+            os.close(read_end)
+            first, _ = head.communicate(timeout=60)
+        _, errors = audit.communicate(timeout=60)
+    assert first.decode() == "wide.gpkg: layer 'wide': LineString, 1 features, CRS EPSG:27700  <- pipes\n"
+    assert audit.returncode == cli.EXIT_CLOSED_PIPE
+    assert errors == b""  # no traceback, no "Exception ignored" at exit

@@ -6,7 +6,7 @@ every field, input order, source CRS) and canonical (the columns of the data con
 DEVELOPERS.md, SI, geometry in a projected CRS in metres), plus findings for every bad value.
 
 Modules: ``settings`` (the config tables), ``reading`` (files to frames), ``fields`` (values,
-units, ids), ``geometry`` (clean-up to one 2D part), ``inspection`` (``sewer-audit inspect``).
+units, ids), ``geometry`` (clean-up to one 2D part).
 """
 
 from audit.layers.reading import (
@@ -17,9 +17,12 @@ from audit.layers.reading import (
     working_crs,
 )
 from audit.layers.settings import (
+    CATCHMENT_FIELDS,
+    MANHOLE_FIELDS,
     MANHOLE_UNITS,
     NODE_KINDS,
     OPEN_SHAPES,
+    PIPE_FIELDS,
     PIPE_KINDS,
     PIPE_UNITS,
     SHAPES,
@@ -30,9 +33,12 @@ from audit.layers.settings import (
 )
 
 __all__ = [
+    "CATCHMENT_FIELDS",
+    "MANHOLE_FIELDS",
     "MANHOLE_UNITS",
     "NODE_KINDS",
     "OPEN_SHAPES",
+    "PIPE_FIELDS",
     "PIPE_KINDS",
     "PIPE_UNITS",
     "SHAPES",
