@@ -5,16 +5,24 @@ config -> layers -> network -> flows -> hydraulics -> rules -> outputs and repor
 
 In Python: ``result = audit.run("sample_gis/town.toml")`` gives GeoDataFrames such as
 ``result.pipes[["flags", "load_ratio"]]``; ``audit.prepare(config)`` stops after the network.
+The stages load when first used, so ``import audit`` (and the command line) starts quickly.
 
 Results are a screening aid; local codes and a licensed engineer's judgement govern.
 """
 
+from __future__ import annotations
+
+from typing import TYPE_CHECKING, Any
+
+from audit.about import CAUTION, __version__
 from audit.errors import AuditError, ConfigError, InputError, OutputExistsError
-from audit.pipeline import Prepared, prepare, run
-from audit.result import AuditResult
-from audit.version import __version__
+
+if TYPE_CHECKING:
+    from audit.pipeline import Prepared, prepare, run
+    from audit.result import AuditResult
 
 __all__ = [
+    "CAUTION",
     "AuditError",
     "AuditResult",
     "ConfigError",
@@ -25,3 +33,14 @@ __all__ = [
     "prepare",
     "run",
 ]
+
+_LATER = {"Prepared": "audit.pipeline", "prepare": "audit.pipeline", "run": "audit.pipeline", "AuditResult": "audit.result"}
+
+
+def __getattr__(name: str) -> Any:
+    """The pipeline's names, loaded on first use."""
+    if name in _LATER:
+        import importlib
+
+        return getattr(importlib.import_module(_LATER[name]), name)
+    raise AttributeError(f"module 'audit' has no attribute {name!r}")

@@ -6,6 +6,8 @@ Exit codes, for scripts and data pipelines:
 * 1: the input could not be used (the message names the file, layer, key, field or feature);
 * 2: the command line itself was wrong (argparse's own convention);
 * 3: ``--fail-on SEVERITY`` was given and flags of that severity or worse were found;
+* 130: interrupted (Ctrl-C); one line is printed, no traceback, and no output is left half
+  written (128 + SIGINT, the status a shell reports);
 * 141: standard output was closed before the command finished writing (the output piped into
   ``head``, say). The command stops quietly, with no traceback; 141 is 128 + SIGPIPE (13), the
   status a shell reports for a program stopped by a closed pipe.
@@ -18,17 +20,19 @@ import os
 import signal
 import sys
 from collections.abc import Sequence
+from datetime import UTC, datetime
 from pathlib import Path
 
+# Only light modules here: the heavy ones (numpy, geopandas) load inside main, so that Ctrl-C
+# during their import is caught like any other interrupt.
+from audit.about import CAUTION, __version__
 from audit.errors import AuditError, InputError, OutputExistsError
-from audit.result import CAUTION
-from audit.rules import SEVERITY_ORDER, worst_severity_at_least
-from audit.version import __version__
 
 EXIT_OK = 0
 EXIT_BAD_INPUT = 1
 EXIT_USAGE = 2
 EXIT_FLAGGED = 3
+EXIT_INTERRUPTED = 128 + int(signal.SIGINT)  # 130: a shell's status for a program stopped by Ctrl-C
 EXIT_CLOSED_PIPE = 128 + int(getattr(signal, "SIGPIPE", 13))  # 141: a shell's status for a program stopped by a closed pipe (POSIX)
 
 
@@ -57,12 +61,14 @@ Typical session:
 
 
 def _build_parser() -> argparse.ArgumentParser:
+    from audit.rules import SEVERITY_ORDER
+
     parser = argparse.ArgumentParser(
         prog="sewer-audit",
         description=DESCRIPTION,
         formatter_class=argparse.RawDescriptionHelpFormatter,
         epilog="Exit codes: 0 finished, 1 unusable input, 2 usage error, 3 --fail-on threshold reached, "
-        "141 output closed early (piped into head).",
+        "130 interrupted (Ctrl-C), 141 output closed early (piped into head).",
     )
     parser.add_argument("--version", action="version", version=f"%(prog)s {__version__}")
     commands = parser.add_subparsers(dest="command", metavar="COMMAND", required=True)
@@ -117,6 +123,9 @@ def main(argv: Sequence[str] | None = None) -> int:
     except BrokenPipeError:
         _silence_stdout()
         return EXIT_CLOSED_PIPE
+    except KeyboardInterrupt:
+        print("sewer-audit: interrupted; no output was written", file=sys.stderr)
+        return EXIT_INTERRUPTED
     return code
 
 
@@ -156,14 +165,16 @@ def _audit_command(args: argparse.Namespace) -> int:
     from audit.outputs import print_summary_table, write_outputs
     from audit.pipeline import run
     from audit.report import write_report
+    from audit.rules import worst_severity_at_least
 
     config = Path(args.config) if args.command == "run" else DEMO_CONFIG
     if args.command == "demo" and not config.exists():
         raise InputError(f"{config}: the bundled sample is missing; run `python scripts/make_sample_gis.py` from a source checkout")
     show = not args.quiet and sys.stderr.isatty()
     result = run(config, progress=show)
-    paths = write_outputs(result, Path(args.output), overwrite=args.overwrite, progress=show)
-    paths["report"] = write_report(result, Path(args.output))
+    created = datetime.now(UTC)  # one time stamp for every output of the run
+    paths = write_outputs(result, Path(args.output), overwrite=args.overwrite, progress=show, created=created,
+                          extra={"report": lambda folder: write_report(result, folder, created=created)})  # fmt: skip
     if not args.quiet:
         print_summary_table(result, paths, file=sys.stdout)
     if args.fail_on and worst_severity_at_least(result.pipe_results["severity"].to_numpy(dtype=object), args.fail_on).any():

@@ -26,11 +26,6 @@ from audit.rules import RuleSettings
 
 COMPUTED_PREFIX = "audit_"
 
-CAUTION = (
-    "Screening aid only: these are uniform-flow checks against configurable design rules, not a "
-    "calibrated model; local codes and a licensed engineer's judgement govern."
-)
-"""Said by every output, the README and the command line: what the results are and are not."""
 
 PIPE_COLUMNS: dict[str, str] = {
     "height_m": "internal height used [m]: the diameter of a circular pipe",

@@ -19,15 +19,15 @@ from typing import Any, TextIO
 import numpy as np
 import pandas as pd
 
-from audit.result import CAUTION, AuditResult
+from audit.about import CAUTION, __version__
+from audit.result import AuditResult
 from audit.rules import FLAG_CODES, SEVERITY_ORDER, DiameterTable, RuleSettings
-from audit.version import __version__
 
 #: Feature ids listed per finding code in summary.json.
 EXAMPLES_PER_CODE = 5
 
 
-def build_summary(result: AuditResult, *, pipes: pd.DataFrame, findings: pd.DataFrame) -> dict[str, Any]:
+def build_summary(result: AuditResult, *, pipes: pd.DataFrame, findings: pd.DataFrame, created: datetime | None = None) -> dict[str, Any]:
     """The content of summary.json (JSON-safe; keys documented in docs/outputs.md).
 
     Parameters
@@ -35,11 +35,12 @@ def build_summary(result: AuditResult, *, pipes: pd.DataFrame, findings: pd.Data
     result : the audit
     pipes : the pipes with ``flags``, ``severity`` and ``length_m`` [m]
     findings : the findings as written (with ``layer``, ``feature`` and ``code``)
+    created : the run's time stamp (UTC), the same in every output of one run; None: now
     """
     summary = {
         "tool": "sewer-audit",
         "version": __version__,
-        "created_utc": datetime.now(UTC).strftime("%Y-%m-%dT%H:%M:%SZ"),
+        "created_utc": (created or datetime.now(UTC)).astimezone(UTC).strftime("%Y-%m-%dT%H:%M:%SZ"),
         "config": None if result.config_path is None else str(result.config_path),
         "caution": CAUTION,
         "totals": result.totals,

@@ -8,11 +8,11 @@
   used, and the caution (see ``audit._summary``);
 * ``candidates.csv``: flagged pipes ranked for a closer look (see ``audit._candidates``).
 
-Every file is first written to a temporary file in the folder (``.audit.gpkg.tmp-XXXX.gpkg``: GDAL wants the extension); only
-when all three are complete are they renamed into place with ``os.replace``. A failed run removes
-its temporary files and leaves every existing file as it was. A folder that already holds files
-is refused unless ``overwrite`` is given, and then only these three files are replaced. A target
-that is an input file is always refused.
+Every file is written into a fresh folder beside the target, which takes the target's place only
+when all of them are complete (``audit.outputs.folder``): a failed, interrupted or killed run
+leaves the earlier output as it was, or nothing. A folder that already holds files is refused
+unless ``overwrite`` is given; other files in it are carried over untouched. A target that is an
+input file is always refused.
 
 GeoPackage holds almost any field name unchanged: mixed case, spaces, 10-character Shapefile
 names. It cannot hold two names equal but for case (SQLite column names ignore case), nor a
@@ -27,9 +27,8 @@ from __future__ import annotations
 
 import os
 import sys
-import tempfile
-from collections.abc import Callable, Hashable, Iterable, Iterator, Mapping
-from contextlib import contextmanager
+from collections.abc import Callable, Hashable, Iterable, Mapping
+from datetime import datetime
 from pathlib import Path
 
 import geopandas as gpd
@@ -43,6 +42,7 @@ from tqdm import tqdm
 
 from audit.errors import AuditError, OutputExistsError
 from audit.outputs.candidates import rank_candidates, write_candidates
+from audit.outputs.folder import staged_folder
 from audit.outputs.summary import (
     CAUTION,
     build_summary,
@@ -62,26 +62,33 @@ _GEOMETRY_NAMES = ("geom", "geometry", "feature_geom")
 _ARROW_ERRORS = (pa.ArrowException, TypeError)
 _WRITE_ERRORS = (OSError, pyogrio.errors.DataSourceError, pyogrio.errors.DataLayerError,
                  pyogrio.errors.FieldError, pyogrio.errors.GeometryError)  # fmt: skip
-_GDAL_SIDECARS = ("-journal", "-wal", "-shm")
 
 
 def write_outputs(
     result: AuditResult, outdir: Path, *, overwrite: bool = False, progress: bool = False,
-    include_low: bool = False,
+    include_low: bool = False, extra: Mapping[str, Callable[[Path], Path]] | None = None, created: datetime | None = None,
 ) -> dict[str, Path]:  # fmt: skip
-    """Write the GeoPackage, the summary and the candidate list of an audit into ``outdir``.
+    """Write the GeoPackage, the summary, the candidate list and any ``extra`` files into ``outdir``, all at once.
+
+    Every file is written into a fresh folder beside ``outdir``, which takes ``outdir``'s place
+    only when all of them are complete (:mod:`audit.outputs.folder`): a failed, interrupted or
+    killed run leaves the earlier output as it was, or nothing.
 
     Parameters
     ----------
     result : the audit to write
     outdir : the output folder; created if absent
-    overwrite : replace our three files in a folder that already holds files (others stay)
+    overwrite : replace the outputs in a folder that already holds files (other files stay)
     progress : show a progress bar over the layers and files written, on stderr
     include_low : list pipes whose worst flag is of low severity in candidates.csv too
+    extra : more files, by role: a function that writes the file into the folder it is given and
+        returns its path (the report, written by ``audit.report``)
+    created : the run's time stamp, recorded in summary.json (give the report the same); None: now
 
     Returns
     -------
-    the path of each file written, by role (``geopackage``, ``summary``, ``candidates``)
+    the path of each file written, by role (``geopackage``, ``summary``, ``candidates`` and the
+    roles of ``extra``)
 
     Raises
     ------
@@ -89,22 +96,30 @@ def write_outputs(
         when ``outdir`` holds files and ``overwrite`` is not given, is not a folder, or when a
         target file is one of the inputs.
     AuditError
-        when a file cannot be written (the message names it); no partial file is left.
+        when a file cannot be written (the message names it); nothing is left half written.
     """
     outdir = Path(outdir)
     targets = {role: outdir / name for role, name in OUTPUT_FILES.items()}
-    _refuse_inputs(targets.values(), inputs=(*result.inputs, *_optional(result.config_path)))
-    _prepare_folder(outdir, overwrite=overwrite)
+    _refuse_inputs([*targets.values(), outdir], inputs=(*result.inputs, *_optional(result.config_path)))
     pipes, manholes, findings = _layers_to_write(result)
-    steps = 4 + (manholes is not None)  # two or three layers, then the two files
-    with tqdm(total=steps, desc="writing outputs", unit="part", file=sys.stderr, disable=not progress) as bar, _staged(outdir, targets) as temp:
-        _write_geopackage(temp["geopackage"], pipes=pipes, manholes=manholes, findings=findings, step=bar.update)
-        summary = build_summary(result, pipes=result.pipe_results, findings=findings)
-        write_summary(summary, temp["summary"])
-        bar.update()
-        write_candidates(rank_candidates(_with_canonical(result), include_low=include_low), temp["candidates"])
-        bar.update()
-    return targets
+    later = dict(extra or {})
+    steps = 4 + (manholes is not None) + len(later)  # two or three layers, then the files
+    written: dict[str, Path] = {}
+    with tqdm(total=steps, desc="writing outputs", unit="part", file=sys.stderr, disable=not progress) as bar, \
+            staged_folder(outdir, overwrite=overwrite) as stage:  # fmt: skip
+        try:
+            _write_geopackage(stage / OUTPUT_FILES["geopackage"], pipes=pipes, manholes=manholes, findings=findings, step=bar.update)
+            summary = build_summary(result, pipes=result.pipe_results, findings=findings, created=created)
+            write_summary(summary, stage / OUTPUT_FILES["summary"])
+            bar.update()
+            write_candidates(rank_candidates(_with_canonical(result), include_low=include_low), stage / OUTPUT_FILES["candidates"])
+            bar.update()
+            for role, write in later.items():
+                written[role] = write(stage)
+                bar.update()
+        except _WRITE_ERRORS as error:
+            raise AuditError(f"{outdir}: cannot write the outputs: {error}") from error
+    return {**targets, **{role: outdir / path.name for role, path in written.items()}}
 
 
 def safe_field_names(columns: list[Hashable]) -> dict[str, str]:
@@ -168,52 +183,6 @@ def _refuse_inputs(targets: Iterable[Path], *, inputs: tuple[Path, ...]) -> None
                 )
 
 
-def _prepare_folder(outdir: Path, *, overwrite: bool) -> None:
-    if outdir.exists() and not outdir.is_dir():
-        raise OutputExistsError(f"{outdir}: the output folder is a file; give a folder")
-    if outdir.is_dir() and any(outdir.iterdir()) and not overwrite:
-        raise OutputExistsError(
-            f"{outdir}: the output folder already holds files; pass --overwrite to replace "
-            f"{', '.join(OUTPUT_FILES.values())} (other files are left alone) or choose an empty folder"
-        )
-    try:
-        outdir.mkdir(parents=True, exist_ok=True)
-    except OSError as error:
-        raise AuditError(f"{outdir}: cannot create the output folder: {error.strerror}") from error
-
-
-@contextmanager
-def _staged(outdir: Path, targets: Mapping[str, Path]) -> Iterator[dict[str, Path]]:
-    """Temporary paths beside each target; renamed into place only if the block succeeds."""
-    temp: dict[str, Path] = {}
-    try:
-        for role, target in targets.items():
-            handle, name = tempfile.mkstemp(prefix=f".{target.name}.tmp-", suffix=target.suffix, dir=outdir)
-            os.close(handle)
-            temp[role] = Path(name)
-        yield temp
-        mode = 0o666 & ~_umask()  # mkstemp makes owner-only files; outputs are ordinary files
-        for role, target in targets.items():
-            os.chmod(temp[role], mode)
-            os.replace(temp[role], target)
-    except _WRITE_ERRORS as error:
-        raise AuditError(f"{outdir}: cannot write the outputs: {error}") from error
-    finally:
-        _remove(temp.values())
-
-
-def _umask() -> int:
-    current = os.umask(0)
-    os.umask(current)
-    return current
-
-
-def _remove(paths: Iterable[Path]) -> None:
-    for path in paths:
-        for leftover in (path, *(Path(f"{path}{end}") for end in _GDAL_SIDECARS)):
-            leftover.unlink(missing_ok=True)
-
-
 def _layers_to_write(result: AuditResult) -> tuple[gpd.GeoDataFrame, gpd.GeoDataFrame | None, gpd.GeoDataFrame]:
     """The three layers with safe field names, and the renames added to the findings."""
     extra: list[gpd.GeoDataFrame] = []
@@ -261,7 +230,7 @@ def _point_geometry(findings: gpd.GeoDataFrame) -> gpd.GeoDataFrame:
 
 def _write_geopackage(path: Path, *, pipes: gpd.GeoDataFrame, manholes: gpd.GeoDataFrame | None,
                       findings: gpd.GeoDataFrame, step: Callable[[], object]) -> None:  # fmt: skip
-    path.unlink()  # GDAL creates the file itself
+    path.unlink(missing_ok=True)  # GDAL creates the file itself
     layers = {"pipes": (pipes, None), "manholes": (manholes, None), "findings": (findings, "Point")}
     for layer, (frame, geometry_type) in layers.items():
         if frame is not None:

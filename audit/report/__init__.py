@@ -9,11 +9,11 @@ outside address. See docs/report.md for its sections.
 from __future__ import annotations
 
 import os
-import tempfile
+import secrets
 from datetime import UTC, datetime
 from pathlib import Path
 
-from audit.errors import InputError, OutputExistsError
+from audit.errors import AuditError, OutputExistsError
 from audit.report.curves import part_full_curve, report_curves
 from audit.report.page import CAUTION_WORDS, render_page
 from audit.report.tables import (
@@ -81,16 +81,15 @@ def write_report(result: AuditResult, path: Path | str, *, id_field: str | None 
     if any(_same_file(target, source) for source in (*result.inputs, result.config_path) if source is not None):
         raise OutputExistsError(f"{target}: is an input of this audit; the report is never written over an input")
     page = render_report(result, id_field=id_field, created=created)
+    temporary = target.parent / f".{target.name}.{secrets.token_hex(4)}.tmp"
     try:
         target.parent.mkdir(parents=True, exist_ok=True)
-        handle, temporary = tempfile.mkstemp(prefix=f".{target.name}.", suffix=".tmp", dir=target.parent)
-        with os.fdopen(handle, "w", encoding="utf-8") as stream:
-            stream.write(page)
+        temporary.write_text(page, encoding="utf-8")  # an ordinary file, readable as the other outputs are
         os.replace(temporary, target)
     except OSError as error:
-        if "temporary" in locals() and os.path.exists(temporary):
-            os.remove(temporary)
-        raise InputError(f"{target}: cannot write the report: {error.strerror or error}") from None
+        raise AuditError(f"{target}: cannot write the report: {error.strerror or error}") from None
+    finally:
+        temporary.unlink(missing_ok=True)
     return target
 
 

@@ -16,6 +16,7 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
+from audit.about import __version__
 from audit.report.charts import flag_bars, part_full_chart, velocity_histogram
 from audit.report.curves import report_curves
 from audit.report.flows import flows_section
@@ -33,7 +34,6 @@ from audit.report.tables import (
 )
 from audit.result import AuditResult
 from audit.rules import CLEANSING_WORDS, DiameterTable, RuleSettings
-from audit.version import __version__
 
 CAUTION_WORDS = (
     "This report is a screening aid. It applies uniform-flow checks to every pipe against design "

@@ -12,10 +12,11 @@ import pandas as pd
 import pytest
 import shapely
 
+from audit.about import CAUTION
 from audit.errors import AuditError, OutputExistsError
 from audit.outputs import print_summary_table, rank_candidates, write_outputs
 from audit.outputs import writing as outputs
-from audit.result import CAUTION, FINDING_COLUMNS, MANHOLE_COLUMNS, PIPE_COLUMNS, AuditResult
+from audit.result import FINDING_COLUMNS, MANHOLE_COLUMNS, PIPE_COLUMNS, AuditResult
 from audit.rules import RuleSettings
 
 CRS = "EPSG:27700"
@@ -206,7 +207,8 @@ def test_a_failure_in_the_last_file_replaces_nothing(tmp_path: Path, monkeypatch
     monkeypatch.setattr(outputs, "write_candidates", fail)
     with pytest.raises(AuditError, match="Input/output error"):
         _written(tmp_path)
-    assert _listing(tmp_path / "out") == []
+    assert not (tmp_path / "out").exists()  # nothing at all: not even an empty folder
+    assert [path.name for path in tmp_path.iterdir() if path.name.startswith(".out.")] == []  # no staging left
 
 
 def _summary(tmp_path: Path, **changes: object) -> dict[str, object]:
