@@ -83,8 +83,9 @@ def prepare(config: Config | str | Path, *, progress: tqdm | None = None) -> Pre
     manholes = layers.manholes.canonical if layers.manholes is not None else None
     _step(progress, 1)
     network = build_network(
-        pipes, manholes, snap_tolerance_m=config.network.snap_tolerance_m, direction=config.network.direction, findings=findings
-    )
+        pipes, manholes, snap_tolerance_m=config.network.snap_tolerance_m, direction=config.network.direction,
+        placeholder_ids=config.network.placeholder_ids, findings=findings,
+    )  # fmt: skip
     _step(progress, 2)
     levels = derive_levels(
         pipes,
@@ -132,6 +133,7 @@ def run(config: Config | str | Path, *, progress: bool = False) -> AuditResult:
             downstream=network.downstream,
             node_access=network.nodes["access"].to_numpy(dtype=bool),
             settings=ready.config.rules,
+            units=ready.config.output_units,
         )
         _step(bar, 6)
         return _result(ready, flows, computed.join(checks[["flags", "severity", "reasons", "access_run_m"]]))
@@ -312,4 +314,5 @@ def _result(ready: Prepared, flows: DesignFlows, computed: pd.DataFrame) -> Audi
         config_path=config.source,
         canonical_pipes=pd.DataFrame(layers.pipes.canonical.drop(columns="geometry")),
         computed=computed,
+        units=config.output_units,
     )

@@ -11,6 +11,7 @@ from __future__ import annotations
 from collections.abc import Mapping
 from dataclasses import dataclass
 from pathlib import Path
+from types import MappingProxyType
 from typing import Any
 
 import geopandas as gpd
@@ -23,6 +24,7 @@ from audit.findings import FindingLog
 from audit.layers import Layers
 from audit.network import Network
 from audit.rules import RuleSettings
+from audit.units import SI, UnitSystem
 
 COMPUTED_PREFIX = "audit_"
 
@@ -68,7 +70,7 @@ PIPE_COLUMNS: dict[str, str] = {
 MANHOLE_COLUMNS: dict[str, str] = {
     "pipes_in": "number of pipes flowing into the manhole",
     "pipes_out": "number of pipes flowing out of the manhole",
-    "total_inflow": "flow leaving the manhole [m3/s]: its own inflow plus everything upstream",
+    "flow_out": "flow leaving the manhole [m3/s]: its own inflow plus everything upstream",
     "findings": "data finding codes about this manhole, joined by ';'",
 }
 """Computed manhole columns, in output order."""
@@ -80,6 +82,36 @@ FINDING_COLUMNS: dict[str, str] = {
     "message": "what is wrong, with the numbers",
 }
 """Columns of the findings point layer (geometry: where the problem is)."""
+
+
+COLUMN_UNITS: Mapping[str, tuple[str, str]] = MappingProxyType(
+    {
+        "height_m": ("height", "size"), "length_m": ("length", "length"), "up_invert_m": ("up_invert", "level"),
+        "down_invert_m": ("down_invert", "level"), "up_cover_m": ("up_cover", "length"), "down_cover_m": ("down_cover", "length"),
+        "q_full": ("q_full", "flow"), "v_full": ("v_full", "velocity"), "q_design": ("q_design", "flow"),
+        "v_design": ("v_design", "velocity"), "shear": ("shear", "stress"), "v_cleansing": ("v_cleansing", "velocity"),
+        "shear_cleansing": ("shear_cleansing", "stress"), "upstream_length_m": ("upstream_length", "length"),
+        "access_run_m": ("access_run", "length"), "q_sanitary": ("q_sanitary", "flow"), "q_infiltration": ("q_infiltration", "flow"),
+        "q_storm": ("q_storm", "flow"), "tc_min": ("tc", "time"), "area_served_ha": ("area_served", "area"),
+        "flow_out": ("flow_out", "flow"),
+    }
+)  # fmt: skip
+"""The computed columns that carry a unit: their name without it, and their quantity
+(``audit.units.SI_BASE``). Outputs name them with the unit of the system they are written in:
+``q_design`` is ``q_design_l_s`` in SI outputs and ``q_design_cfs`` in US ones."""
+
+
+def output_name(name: str, units: UnitSystem) -> str:
+    """The name a computed column has in outputs written in ``units``; columns without a unit keep theirs.
+
+    >>> from audit.units import US
+    >>> output_name("q_design", SI), output_name("height_m", US), output_name("load_ratio", US)
+    ('q_design_l_s', 'height_in', 'load_ratio')
+    """
+    if name not in COLUMN_UNITS:
+        return name
+    base, quantity = COLUMN_UNITS[name]
+    return f"{base}_{units.suffix(quantity)}"
 
 
 @dataclass(frozen=True)
@@ -97,6 +129,7 @@ class AuditResult:
     config_path: Path | None  # the config file the audit ran from
     canonical_pipes: pd.DataFrame | None = None  # the canonical SI pipe columns (DEVELOPERS.md), same order
     computed: pd.DataFrame | None = None  # PIPE_COLUMNS under their documented names, same order
+    units: UnitSystem = SI  # the system the outputs are written in ([output] units); values here are SI
 
     @property
     def pipe_results(self) -> pd.DataFrame:
@@ -141,7 +174,7 @@ def manhole_output(layers: Layers, network: Network, node_total: np.ndarray, fin
     about = frame[frame["layer"] == "manholes"].groupby("feature")["code"].agg(lambda codes: ";".join(dict.fromkeys(codes)))
     ids = canonical["manhole_id"].astype(str)
     codes = ids.map(about).fillna("").to_numpy(dtype=object)
-    computed = pd.DataFrame({"pipes_in": pipes_in, "pipes_out": pipes_out, "total_inflow": total, "findings": codes}, index=canonical.index)
+    computed = pd.DataFrame({"pipes_in": pipes_in, "pipes_out": pipes_out, "flow_out": total, "findings": codes}, index=canonical.index)
     joined = with_columns(original, computed, findings, layer="manholes")
     return gpd.GeoDataFrame(joined, geometry=original.geometry.name, crs=original.crs)
 

@@ -24,12 +24,13 @@ Unit names are matched without regard to case and surrounding spaces (``"MGD"`` 
 from __future__ import annotations
 
 from collections.abc import Mapping
+from dataclasses import dataclass
 from types import MappingProxyType
 
 import numpy as np
 import numpy.typing as npt
 
-from audit.errors import ConfigError
+from audit.errors import ConfigError, ConfigProblems
 
 FOOT_M = 0.3048  # exact, NIST SP 811 appendix B
 INCH_M = 0.0254  # exact, NIST SP 811 appendix B
@@ -57,11 +58,14 @@ FLOW_FACTORS: Mapping[str, float] = MappingProxyType(
 )
 """Cubic metres per second per unit of flow [(m^3/s)/unit]; ``gpm`` and ``mgd`` are US gallons."""
 
-FACTORS: Mapping[str, Mapping[str, float]] = MappingProxyType({"length": LENGTH_FACTORS, "flow": FLOW_FACTORS})
+AREA_FACTORS: Mapping[str, float] = MappingProxyType({"ha": 1.0, "ac": 0.40468564224, "m2": 1.0e-4})
+"""Hectares per unit of area [ha/unit]: areas are held in hectares, as the rational method takes them."""
+
+FACTORS: Mapping[str, Mapping[str, float]] = MappingProxyType({"length": LENGTH_FACTORS, "flow": FLOW_FACTORS, "area": AREA_FACTORS})
 """Factor table per quantity."""
 
 SPELLING: Mapping[str, str] = MappingProxyType(
-    {name: name for name in (*LENGTH_FACTORS, *FLOW_FACTORS)} | {"mgd": "MGD"}
+    {name: name for name in (*LENGTH_FACTORS, *FLOW_FACTORS, *AREA_FACTORS)} | {"mgd": "MGD"}
 )
 """How each unit is written in messages and docs."""
 
@@ -130,3 +134,75 @@ def to_si(
     [0.0254, 0.3048]
     """
     return np.asarray(values, dtype=float) * factor(unit, quantity=quantity)
+
+
+POUND_FORCE_N = 4.4482216152605  # exact: 0.45359237 kg x 9.80665 m/s^2, NIST SP 811 appendix B
+ACRE_M2 = 4046.8564224  # exact for the international acre: 43,560 ft^2, NIST SP 811 appendix B
+SQUARE_METRES_PER_HA = 10_000.0
+
+
+@dataclass(frozen=True)
+class UnitSystem:
+    """The units every output is written in: ``si`` (metres, l/s, ...) or ``us`` (feet, cfs, ...).
+
+    Values inside the audit are SI (``SI_BASE``); ``convert`` turns them into this system's unit
+    of a quantity, ``unit`` names that unit as a reader writes it, and ``suffix`` as an output
+    field name carries it (``q_design_l_s``, ``q_design_cfs``).
+
+    >>> US.convert([1.0, 0.3048], "length").round(6).tolist(), US.unit("flow"), US.suffix("velocity")
+    ([3.28084, 1.0], 'cfs', 'ft_s')
+    >>> SI.convert([0.3], "size").tolist(), SI.unit("size")
+    ([300.0], 'mm')
+    """
+
+    name: str
+    units: Mapping[str, str]
+
+    def unit(self, quantity: str) -> str:
+        """The unit of ``quantity`` in this system, as written for a reader (``m/s``, ``ft``)."""
+        return self.units[quantity]
+
+    def suffix(self, quantity: str) -> str:
+        """The unit as the end of a field name: ``m/s`` -> ``m_s``, ``m2`` stays, ``Pa`` -> ``pa``."""
+        return self.units[quantity].lower().replace("/", "_")
+
+    def convert(self, values: npt.ArrayLike, quantity: str) -> npt.NDArray[np.float64]:
+        """Values given in the SI base unit of ``quantity`` (``SI_BASE``), in this system's unit."""
+        return np.asarray(values, dtype=float) / UNIT_SIZES[quantity][self.units[quantity]]
+
+
+#: The SI base of each quantity inside the audit, in which ``UnitSystem.convert`` takes values.
+SI_BASE: Mapping[str, str] = MappingProxyType(
+    {"length": "m", "level": "m", "size": "m", "flow": "m3/s", "velocity": "m/s", "stress": "Pa", "area": "ha", "section": "m2", "time": "min"}
+)
+
+#: Size of each unit in the SI base of its quantity [base unit per unit].
+UNIT_SIZES: Mapping[str, Mapping[str, float]] = MappingProxyType(
+    {
+        "length": {"m": 1.0, "ft": FOOT_M, "km": 1000.0, "mi": 5280 * FOOT_M},
+        "level": {"m": 1.0, "ft": FOOT_M},
+        "size": {"m": 1.0, "mm": 1e-3, "in": INCH_M},
+        "flow": {"m3/s": 1.0, "l/s": 1e-3, "cfs": FOOT_M**3, "gpm": US_GALLON_M3 / 60.0, "mgd": US_GALLON_M3 * 1e6 / SECONDS_PER_DAY},
+        "velocity": {"m/s": 1.0, "ft/s": FOOT_M},
+        "stress": {"Pa": 1.0, "psf": POUND_FORCE_N / FOOT_M**2},
+        "area": {"ha": 1.0, "ac": ACRE_M2 / SQUARE_METRES_PER_HA},
+        "section": {"m2": 1.0, "ft2": FOOT_M**2},
+        "time": {"min": 1.0},
+    }
+)
+
+SI = UnitSystem("si", MappingProxyType(
+    {"length": "m", "level": "m", "size": "mm", "flow": "l/s", "velocity": "m/s", "stress": "Pa", "area": "ha", "section": "m2",
+     "time": "min"}))  # fmt: skip
+US = UnitSystem("us", MappingProxyType(
+    {"length": "ft", "level": "ft", "size": "in", "flow": "cfs", "velocity": "ft/s", "stress": "psf", "area": "ac", "section": "ft2",
+     "time": "min"}))  # fmt: skip
+SYSTEMS: Mapping[str, UnitSystem] = MappingProxyType({"si": SI, "us": US})
+"""The unit systems outputs can be written in, by the name ``[output] units`` takes."""
+
+
+def parse_output(check: ConfigProblems, data: object) -> UnitSystem:
+    """``[output]``: ``units = "si"`` (default: metres, millimetres, l/s, m/s, Pa, ha) or ``"us"``
+    (feet, inches, cfs, ft/s, lb/ft^2, acres); every problem goes to ``check``."""
+    table = check.table(data, "output", ("units",))
+    return SYSTEMS[check.choice(table, "units", "output", tuple(SYSTEMS))]

@@ -6,7 +6,8 @@ from pathlib import Path
 import pytest
 
 from audit.findings import FINDING_CODES, FindingLog
-from audit.result import FINDING_COLUMNS, MANHOLE_COLUMNS, PIPE_COLUMNS
+from audit.result import FINDING_COLUMNS, MANHOLE_COLUMNS, PIPE_COLUMNS, output_name
+from audit.units import SI, US
 
 ROOT = Path(__file__).resolve().parents[1]
 
@@ -16,11 +17,14 @@ def _documented(page: str) -> set[str]:
     return set(re.findall(r"^\| `([a-z_0-9]+)`", text, flags=re.MULTILINE))
 
 
-def test_every_computed_column_is_in_docs_outputs() -> None:
-    documented = _documented("outputs.md")
-    assert set(PIPE_COLUMNS) - documented == set()
-    assert set(MANHOLE_COLUMNS) - documented == set()
-    assert set(FINDING_COLUMNS) - documented == set()
+def test_every_computed_column_is_in_docs_outputs_under_its_si_and_us_names() -> None:
+    text = (ROOT / "docs" / "outputs.md").read_text(encoding="utf-8")
+    # a row of the field tables: | `q_design_l_s` / `q_design_cfs` | ... or | `load_ratio` | ...
+    documented = set(re.findall(r"^\| `([a-z_0-9]+)`(?: / `([a-z_0-9]+)`)?", text, flags=re.MULTILINE))
+    names = {name for pair in documented for name in pair if name}
+    for system in (SI, US):
+        assert {output_name(name, system) for name in [*PIPE_COLUMNS, *MANHOLE_COLUMNS]} - names == set(), system.name
+    assert set(FINDING_COLUMNS) - names == set()
 
 
 def test_the_finding_codes_are_exactly_those_documented() -> None:

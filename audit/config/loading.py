@@ -36,8 +36,9 @@ from audit.layers.settings import (
 )
 from audit.network.settings import NetworkOptions, parse_network
 from audit.rules.settings import RuleSettings
+from audit.units import SI, UnitSystem, parse_output
 
-TOP_LEVEL = ("input", "pipes", "manholes", "catchments", "network", "hydraulics", "flows", "rules")
+TOP_LEVEL = ("input", "pipes", "manholes", "catchments", "network", "hydraulics", "flows", "rules", "output")
 
 
 @dataclass(frozen=True)
@@ -55,6 +56,7 @@ class Config:
     hydraulics: HydraulicsOptions = HydraulicsOptions()
     rules_table: Mapping[str, Any] = field(default_factory=lambda: MappingProxyType({}))
     rules: RuleSettings = RuleSettings()
+    output_units: UnitSystem = SI  # [output] units: the system every output is written in
 
 
 def _frozen(value: object) -> object:
@@ -113,6 +115,7 @@ def load_config(path: str | Path) -> Config:
         network=parse_network(check, data.get("network", {})),
         hydraulics=parse_hydraulics(check, data.get("hydraulics", {})),
         rules_table=_frozen(check.table(data.get("rules", {}), "rules", None)),  # type: ignore[arg-type]
+        output_units=parse_output(check, data.get("output", {})),
     )
     if config.flows.needs_rainfall and config.catchments is None:
         check.fail("catchments", f"a catchment layer for flows.kind = {config.flows.kind!r} (storm runoff needs areas)")

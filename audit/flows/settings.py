@@ -78,6 +78,21 @@ _NUMBERS = ("per_capita_l_day", "peaking_factor", "min_peaking_population", "occ
             "tc_tolerance_min", "persons_per_manhole", "persons_per_km", "load_per_manhole_l_s")  # fmt: skip
 _KEYS = ("kind", "peaking", "tc_max_iterations", "rainfall", *_NUMBERS)
 _POSITIVE = frozenset({"population_growth", "rainfall_uplift", "fallback_velocity_m_s", "tc_tolerance_min", "occupancy"})
+# US customary spellings of the keys with a unit: (SI key, SI units per US unit). Exact factors:
+# 1 US gallon = 3.785411784 l, 1 mile = 1.609344 km, 1 acre = 0.40468564224 ha, 1 ft = 0.3048 m
+# (NIST SP 811, 2008, appendix B); a day is 86,400 s.
+_GALLON_L, _MILE_KM, _ACRE_HA, _DAY_S = 3.785411784, 1.609344, 0.40468564224, 86_400.0
+US_KEYS: dict[str, tuple[str, float]] = {
+    "per_capita_gal_day": ("per_capita_l_day", _GALLON_L),
+    "infiltration_gal_day_mile": ("infiltration_l_s_km", _GALLON_L / _DAY_S / _MILE_KM),
+    "infiltration_gal_day_acre": ("infiltration_l_s_ha", _GALLON_L / _DAY_S / _ACRE_HA),
+    "load_per_manhole_gpm": ("load_per_manhole_l_s", _GALLON_L / 60.0),
+    "persons_per_mile": ("persons_per_km", 1.0 / _MILE_KM),
+    "fallback_velocity_ft_s": ("fallback_velocity_m_s", 0.3048),
+}
+"""``[flows]`` keys in US customary units: each stands for its SI key, converted at load."""
+INTENSITY_UNITS = {"mm/h": 1.0, "in/h": 25.4}
+"""``[flows.rainfall] intensity_unit``: millimetres per unit of the curve's intensities."""
 _REPLACED = {"growth_factor": "population_growth (sanitary), rainfall_uplift (storm intensity) and urban_creep (impervious area)"}
 _FRACTIONS = frozenset({"c_impervious", "c_pervious"})
 
@@ -96,13 +111,15 @@ def _rows(check: ConfigProblems, value: object, key: str) -> tuple[tuple[float, 
 
 
 def _rainfall(check: ConfigProblems, data: object) -> Rainfall:
-    table = check.table(data, "flows.rainfall", ("a", "b", "c", "table", "inlet_time_min", "return_period_years"))
+    table = check.table(data, "flows.rainfall", ("a", "b", "c", "table", "inlet_time_min", "return_period_years", "intensity_unit"))
+    scale = INTENSITY_UNITS[check.choice(table, "intensity_unit", "flows.rainfall", tuple(INTENSITY_UNITS))]
     defaults = Rainfall()
     rows = _rows(check, table["table"], "flows.rainfall.table") if "table" in table else ()
+    rows = tuple((duration, intensity * scale) for duration, intensity in rows)
     has_curve = "a" in table
     if has_curve == ("table" in table):
         check.fail("flows.rainfall", "either a (with b and c) for i = a / (t + b)^c, or table, not both")
-    a = check.number(table, "a", "flows.rainfall", 1.0, low=1e-9) if has_curve else None
+    a = check.number(table, "a", "flows.rainfall", 1.0, low=1e-9) * scale if has_curve else None
     return Rainfall(
         a=a,
         b=check.number(table, "b", "flows.rainfall", defaults.b),
@@ -133,9 +150,26 @@ def _number(check: ConfigProblems, table: dict[str, Any], name: str) -> float:
     return value
 
 
+def _in_si(check: ConfigProblems, table: dict[str, Any]) -> dict[str, Any]:
+    """The table with every US key replaced by its SI key and value (a key given both ways is a problem)."""
+    out = dict(table)
+    for us_key, (si_key, factor) in US_KEYS.items():
+        if us_key not in out:
+            continue
+        value = out.pop(us_key)
+        if si_key in table:
+            check.fail(f"flows.{us_key}", f"one of flows.{si_key} and flows.{us_key}, not both")
+        elif isinstance(value, bool) or not isinstance(value, int | float):
+            check.fail(f"flows.{us_key}", "a number", value)
+        else:
+            out[si_key] = value * factor
+    return out
+
+
 def parse_flows(check: ConfigProblems, data: object) -> FlowOptions:
     """``[flows]`` as :class:`FlowOptions`; every problem goes to ``check`` under its dotted key."""
-    table = check.table(data, "flows", _KEYS + tuple(_REPLACED))
+    table = check.table(data, "flows", _KEYS + tuple(_REPLACED) + tuple(US_KEYS))
+    table = _in_si(check, table)
     for old, new in _REPLACED.items():
         if old in table:
             check.fail(f"flows.{old}", f"no longer a key: it is replaced by {new}")

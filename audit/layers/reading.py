@@ -62,6 +62,7 @@ from audit.layers.geometry import (
     representative_points,
 )
 from audit.layers.settings import (
+    CATCHMENT_UNITS,
     MANHOLE_UNITS,
     NODE_KINDS,
     PIPE_KINDS,
@@ -372,7 +373,7 @@ def _manhole_columns(context: _Context) -> dict[str, np.ndarray]:
 
 
 def _catchment_columns(context: _Context) -> dict[str, np.ndarray | pd.api.extensions.ExtensionArray]:
-    return {**_texts(context, ("drains_to",)), **_numbers(context, CATCHMENT_NUMBERS, {})}
+    return {**_texts(context, ("drains_to",)), **_numbers(context, CATCHMENT_NUMBERS, CATCHMENT_UNITS)}
 
 
 _COLUMNS = {"pipes": _pipe_columns, "manholes": _manhole_columns, "catchments": _catchment_columns}

@@ -53,6 +53,9 @@ MANHOLE_UNITS: Mapping[str, tuple[str, str]] = MappingProxyType(
 )
 """Keys of ``[manholes.units]``: (quantity, default unit)."""
 
+CATCHMENT_UNITS: Mapping[str, tuple[str, str]] = MappingProxyType({"area_ha": ("area", "ha")})
+"""Keys of ``[catchments.units]``: the area field may be in ha, ac or m2 (held in hectares)."""
+
 SHAPES = ("circular", "rectangular", "egg", "open_rectangular", "trapezoidal")
 """Canonical section shapes; ``[pipes.shapes]`` maps the user's codes to them."""
 
@@ -137,7 +140,7 @@ def _unit_map(check: ConfigProblems, data: object, key: str, spec: Mapping[str, 
         value = table.get(name, default)
         accepted = FACTORS[quantity]
         if not isinstance(value, str) or normalise_unit(value) not in accepted:
-            check.fail(f"{key}.{name}", f"a {quantity} unit, one of {', '.join(SPELLING[u] for u in accepted)}", value)
+            check.fail(f"{key}.{name}", f"{'an' if quantity[0] in 'aeiou' else 'a'} {quantity} unit, one of {', '.join(SPELLING[u] for u in accepted)}", value)
             value = default
         units[name] = normalise_unit(value)
     return MappingProxyType(units)
@@ -175,7 +178,7 @@ def _sentinel_map(check: ConfigProblems, data: object, key: str, names: tuple[st
 
 
 _LAYER_KEYS: Mapping[str, tuple[tuple[str, ...], Mapping[str, tuple[str, str]]]] = MappingProxyType(
-    {"pipes": (PIPE_FIELDS, PIPE_UNITS), "manholes": (MANHOLE_FIELDS, MANHOLE_UNITS), "catchments": (CATCHMENT_FIELDS, {})}
+    {"pipes": (PIPE_FIELDS, PIPE_UNITS), "manholes": (MANHOLE_FIELDS, MANHOLE_UNITS), "catchments": (CATCHMENT_FIELDS, CATCHMENT_UNITS)}
 )
 
 

@@ -21,6 +21,7 @@ import pyarrow.compute as pc
 import pyarrow.csv as pacsv
 
 from audit.rules import SEVERITY_ORDER
+from audit.units import SI, UnitSystem
 
 #: Columns of candidates.csv, in order.
 CANDIDATE_COLUMNS: tuple[str, ...] = (
@@ -67,14 +68,33 @@ def rank_candidates(pipes: pd.DataFrame, *, include_low: bool = False) -> pd.Dat
     return table.round(dict(DECIMALS))
 
 
-def write_candidates(table: pd.DataFrame, path: Path) -> None:
+#: The candidate columns that carry a unit: their name without it, their quantity, and the
+#: factor from the table's value to the quantity's SI base (``diameter_mm`` holds millimetres).
+_UNITS = {"v_design": ("v_design", "velocity", 1.0), "diameter_mm": ("diameter", "size", 1e-3), "length_m": ("length", "length", 1.0),
+          "upstream_length_m": ("upstream_length", "length", 1.0)}  # fmt: skip
+
+
+def write_candidates(table: pd.DataFrame, path: Path, *, units: UnitSystem = SI) -> None:
     """Write the ranked candidates as UTF-8 CSV through Arrow; unknown numbers are empty cells.
 
     Text is quoted, numbers are not. Columns kept to 0 decimals (sizes, years) are written with
-    one, ``225.0``, as before; other numbers in their shortest form (``1`` for 1.0).
+    one, ``225.0``, as before; other numbers in their shortest form (``1`` for 1.0). Columns with
+    a unit are written in ``units`` and named with it (``v_design_m_s``, ``diameter_in``).
     """
-    columns = {name: _csv_column(table[name], whole=DECIMALS.get(name) == 0) for name in table.columns}
+    columns = {}
+    for name in table.columns:
+        values = table[name]
+        if name in _UNITS and units is not SI:
+            base, quantity, to_base = _UNITS[name]
+            values = pd.Series(units.convert(values.to_numpy(dtype=float) * to_base, quantity)).round(_US_DECIMALS[quantity])
+            columns[f"{base}_{units.suffix(quantity)}"] = _csv_column(values, whole=False)
+            continue
+        label = f"{_UNITS[name][0]}_{units.suffix(_UNITS[name][1])}" if name in _UNITS else name
+        columns[label] = _csv_column(values, whole=DECIMALS.get(name) == 0)
     pacsv.write_csv(pa.table(columns), path, pacsv.WriteOptions(quoting_style="needed"))
+
+
+_US_DECIMALS = {"velocity": 2, "size": 1, "length": 1}
 
 
 def _csv_column(values: pd.Series, *, whole: bool) -> pa.Array:

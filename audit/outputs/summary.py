@@ -21,7 +21,8 @@ import pandas as pd
 
 from audit.about import CAUTION, __version__
 from audit.result import AuditResult
-from audit.rules import FLAG_CODES, SEVERITY_ORDER, DiameterTable, RuleSettings
+from audit.rules import FLAG_CODES, SEVERITY_ORDER, DiameterTable, RuleSettings, as_table
+from audit.units import SI, UNIT_SIZES, UnitSystem
 
 #: Feature ids listed per finding code in summary.json.
 EXAMPLES_PER_CODE = 5
@@ -37,17 +38,26 @@ def build_summary(result: AuditResult, *, pipes: pd.DataFrame, findings: pd.Data
     findings : the findings as written (with ``layer``, ``feature`` and ``code``)
     created : the run's time stamp (UTC), the same in every output of one run; None: now
     """
+    units = result.units
+    length = f"length_{units.suffix('length')}"
+    flags = flag_totals(pipes, rules=result.rules).rename(columns={"length_m": length})
+    flags[length] = units.convert(flags[length].to_numpy(dtype=float), "length")
+    totals = dict(result.totals)
+    if "length_m" in totals:
+        totals = {(length if key == "length_m" else key): value for key, value in totals.items()}
+        totals[length] = None if totals[length] is None else round(float(units.convert(totals[length], "length")), 1)
     summary = {
         "tool": "sewer-audit",
         "version": __version__,
         "created_utc": (created or datetime.now(UTC)).astimezone(UTC).strftime("%Y-%m-%dT%H:%M:%SZ"),
         "config": None if result.config_path is None else str(result.config_path),
         "caution": CAUTION,
-        "totals": result.totals,
-        "flags": flag_totals(pipes, rules=result.rules).to_dict(orient="index"),
+        "units": {"system": units.name, **units.units},
+        "totals": totals,
+        "flags": flags.to_dict(orient="index"),
         "severity": severity_counts(pipes),
         "findings": finding_counts(findings),
-        "rules": rule_values(result.rules),
+        "rules": rule_values(result.rules, units),
         "flows": result.settings.get("flows"),
         "settings": result.settings,
         "missing_fields": result.missing_fields,
@@ -120,9 +130,9 @@ def finding_counts(findings: pd.DataFrame) -> dict[str, Any]:
     return {"count": len(findings), "codes": codes}
 
 
-def rule_values(rules: RuleSettings) -> dict[str, Any]:
-    """The rule settings as plain values; a table by diameter is a list of rows."""
-    return {item.name: json_safe(getattr(rules, item.name)) for item in dataclasses.fields(rules)}
+def rule_values(rules: RuleSettings, units: UnitSystem = SI) -> dict[str, Any]:
+    """The rule settings as the ``[rules]`` keys and values of ``units``; a table by size is a list of rows."""
+    return {key: json_safe(value) for key, value in as_table(rules, units).items()}
 
 
 def json_safe(value: Any) -> Any:
@@ -156,9 +166,11 @@ def print_summary_table(result: AuditResult, paths: Mapping[str, Path], *, file:
     """Print the flags (code, severity, pipes, length [km]), the findings count, the outputs and the caution."""
     table = flag_totals(result.pipe_results, rules=result.rules)
     width = max([len("flag"), *map(len, table.index)])
-    lines = [f"{'flag':<{width}}  {'severity':<8}  {'pipes':>8}  {'length km':>10}"]
+    long_unit = "mi" if result.units.name == "us" else "km"
+    per_long = float(UNIT_SIZES["length"][long_unit])
+    lines = [f"{'flag':<{width}}  {'severity':<8}  {'pipes':>8}  {'length ' + long_unit:>10}"]
     for code, row in table.iterrows():
-        lines.append(f"{code:<{width}}  {row['severity'] or '':<8}  {row['pipes']:>8d}  {row['length_m'] / 1000:>10.3f}")
+        lines.append(f"{code:<{width}}  {row['severity'] or '':<8}  {row['pipes']:>8d}  {row['length_m'] / per_long:>10.3f}")
     lines.append(f"data findings: {len(result.findings)}")
     lines.extend(f"{role}: {path}" for role, path in paths.items())
     lines.append(CAUTION)

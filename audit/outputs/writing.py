@@ -49,7 +49,8 @@ from audit.outputs.summary import (
     print_summary_table,
     write_summary,
 )
-from audit.result import AuditResult
+from audit.result import COLUMN_UNITS, COMPUTED_PREFIX, MANHOLE_COLUMNS, PIPE_COLUMNS, AuditResult, output_name
+from audit.units import UnitSystem
 
 __all__ = ["CAUTION", "OUTPUT_FILES", "print_summary_table", "rank_candidates", "safe_field_names", "write_outputs"]
 
@@ -112,7 +113,8 @@ def write_outputs(
             summary = build_summary(result, pipes=result.pipe_results, findings=findings, created=created)
             write_summary(summary, stage / OUTPUT_FILES["summary"])
             bar.update()
-            write_candidates(rank_candidates(_with_canonical(result), include_low=include_low), stage / OUTPUT_FILES["candidates"])
+            write_candidates(rank_candidates(_with_canonical(result), include_low=include_low), stage / OUTPUT_FILES["candidates"],
+                             units=result.units)  # fmt: skip
             bar.update()
             for role, write in later.items():
                 written[role] = write(stage)
@@ -186,14 +188,36 @@ def _refuse_inputs(targets: Iterable[Path], *, inputs: tuple[Path, ...]) -> None
 def _layers_to_write(result: AuditResult) -> tuple[gpd.GeoDataFrame, gpd.GeoDataFrame | None, gpd.GeoDataFrame]:
     """The three layers with safe field names, and the renames added to the findings."""
     extra: list[gpd.GeoDataFrame] = []
-    pipes = _renamed(result.pipes, layer="pipes", notes=extra, crs=result.findings.crs)
+    pipes = _renamed(in_output_units(result.pipes, PIPE_COLUMNS, result.units), layer="pipes", notes=extra, crs=result.findings.crs)
     manholes = None
     if result.manholes is not None:
-        manholes = _renamed(result.manholes, layer="manholes", notes=extra, crs=result.findings.crs)
+        manholes = in_output_units(result.manholes, MANHOLE_COLUMNS, result.units)
+        manholes = _renamed(manholes, layer="manholes", notes=extra, crs=result.findings.crs)
     findings = result.findings
     if extra:
         findings = pd.concat([findings, *extra], ignore_index=True)
     return pipes, manholes, _point_geometry(gpd.GeoDataFrame(findings, geometry=findings.geometry.name))
+
+
+def in_output_units(frame: gpd.GeoDataFrame, computed: Iterable[str], units: UnitSystem) -> gpd.GeoDataFrame:
+    """The layer with its computed columns (its last ones, ``computed`` in order) under their output
+    names and in ``units`` (``audit.result.output_name``); the original fields untouched.
+
+    A computed column written as ``audit_<name>`` (its name was taken) keeps the prefix.
+    """
+    names = list(computed)
+    out = frame.copy(deep=False)
+    fields = [column for column in out.columns if column != out.geometry.name]
+    columns = fields[len(fields) - len(names):]
+    renames: dict[str, str] = {}
+    for column, name in zip(columns, names, strict=True):
+        if str(column).removeprefix(COMPUTED_PREFIX) != name:
+            continue  # not the computed block this result should end with: leave it as it is
+        prefix = COMPUTED_PREFIX if str(column).startswith(COMPUTED_PREFIX) else ""
+        renames[column] = prefix + output_name(name, units)
+        if name in COLUMN_UNITS:
+            out[column] = units.convert(pd.to_numeric(out[column], errors="coerce").to_numpy(dtype=float), COLUMN_UNITS[name][1])
+    return out.rename(columns=renames)
 
 
 def _renamed(frame: gpd.GeoDataFrame, *, layer: str, notes: list[gpd.GeoDataFrame], crs: object) -> gpd.GeoDataFrame:

@@ -110,8 +110,8 @@ def _curve_key(curves: Mapping[str, tuple[Array, Array]], *, x: float, y: float)
     return element("g", "".join(rows), font_size=12, fill="#333")
 
 
-def velocity_histogram(velocity: Array, *, min_velocity: float, max_velocity: float, bin_width: float = 0.1) -> str:
-    """Pipes per velocity band [m/s], with the minimum and maximum limits drawn as lines.
+def velocity_histogram(velocity: Array, *, min_velocity: float, max_velocity: float, bin_width: float = 0.1, unit: str = "m/s") -> str:
+    """Pipes per velocity band (velocities and limits in ``unit``), with the minimum and maximum limits drawn as lines.
 
     Bars below the minimum or above the maximum take the colour of the medium severity; the
     last band also holds every velocity beyond the drawn range.
@@ -121,7 +121,7 @@ def velocity_histogram(velocity: Array, *, min_velocity: float, max_velocity: fl
     edges = np.arange(0.0, top + bin_width / 2, bin_width)
     counts, _ = np.histogram(np.clip(values, 0.0, edges[-1] - bin_width / 2), bins=edges)
     plot = Plot(left=56, top=24, width=620, height=240, x_range=(0.0, float(edges[-1])), y_range=(0.0, float(max(counts.max(initial=0), 1)) * 1.1))
-    parts = [plot.axes(x_ticks=np.arange(0.0, edges[-1] + 1e-9, 0.5), y_ticks=_count_ticks(plot.y_range[1]), x_title="velocity at design flow [m/s]", y_title="pipes")]
+    parts = [plot.axes(x_ticks=np.arange(0.0, edges[-1] + 1e-9, 5 * bin_width), y_ticks=_count_ticks(plot.y_range[1]), x_title=f"velocity at design flow [{unit}]", y_title="pipes")]
     x0, y0 = plot.px(edges[:-1], counts.astype(float))
     x1, _ = plot.px(edges[1:], counts.astype(float))
     outside = (edges[1:] <= min_velocity + 1e-9) | (edges[:-1] >= max_velocity - 1e-9)
@@ -132,7 +132,7 @@ def velocity_histogram(velocity: Array, *, min_velocity: float, max_velocity: fl
     for limit, words in ((min_velocity, "min"), (max_velocity, "max")):
         lx, _ = plot.px(np.array([limit]), np.zeros(1))
         parts.append(segment(lx[0], plot.top - 8, lx[0], base, stroke="#222", stroke_width=2, stroke_dasharray="5 3", data_limit=words))
-        parts.append(label(lx[0] + 4, plot.top - 10, f"{words} {limit:g} m/s", font_size=12, fill="#222"))
+        parts.append(label(lx[0] + 4, plot.top - 10, f"{words} {limit:g} {unit}", font_size=12, fill="#222"))
     return svg("".join(parts), width=plot.left + plot.width + 40, height=plot.top + plot.height + 48, title="Velocity at design flow")
 
 

@@ -11,18 +11,19 @@ import pyarrow as pa
 import pyarrow.compute as pc
 
 from audit.report.html import cell, paragraph, table
+from audit.units import SI, UnitSystem
 
 MAX_OUTFALLS = 20
 
-# per-pipe flow parts: column, heading, factor from SI to the shown unit, decimals
+# per-pipe flow parts: column, heading, quantity (None: no unit), decimals
 PARTS = (
-    ("q_design", "Design flow [l/s]", 1000.0, 1),
-    ("q_sanitary", "Sanitary [l/s]", 1000.0, 1),
-    ("q_infiltration", "Infiltration [l/s]", 1000.0, 1),
-    ("q_storm", "Storm [l/s]", 1000.0, 1),
-    ("tc_min", "Time of concentration [min]", 1.0, 1),
-    ("population_served", "Population served", 1.0, 0),
-    ("area_served_ha", "Area served [ha]", 1.0, 2),
+    ("q_design", "Design flow", "flow", 1),
+    ("q_sanitary", "Sanitary", "flow", 1),
+    ("q_infiltration", "Infiltration", "flow", 1),
+    ("q_storm", "Storm", "flow", 1),
+    ("tc_min", "Time of concentration", "time", 1),
+    ("population_served", "Population served", None, 0),
+    ("area_served_ha", "Area served", "area", 2),
 )
 
 
@@ -41,8 +42,8 @@ def _labels(column: pd.Series) -> pa.Array:
     return pa.array(column, from_pandas=True).cast(pa.string())
 
 
-def flows_section(pipes: pd.DataFrame, assumptions: Mapping[str, Any] | None) -> str:
-    """Tables of the flow parts arriving at each outfall and of the flow assumptions used."""
+def flows_section(pipes: pd.DataFrame, assumptions: Mapping[str, Any] | None, *, units: UnitSystem = SI) -> str:
+    """Tables of the flow parts arriving at each outfall (in ``units``) and of the flow assumptions used."""
     parts = [part for part in PARTS if part[0] in pipes.columns]
     positions = outfall_pipes(pipes)
     flow = pd.to_numeric(pipes["q_design"], errors="coerce").to_numpy(dtype=float)[positions] if "q_design" in pipes else np.zeros(positions.size)
@@ -50,14 +51,22 @@ def flows_section(pipes: pd.DataFrame, assumptions: Mapping[str, Any] | None) ->
     rows = []
     for position in shown:
         row = pipes.iloc[position]
-        values = [cell(_number(row[name]) * factor if np.isfinite(_number(row[name])) else None, digits=digits) for name, _, factor, digits in parts]
+        values = [cell(_shown(_number(row[name]), quantity, units), digits=digits + (2 if units.name == "us" and quantity == "flow" else 0))
+                  for name, _, quantity, digits in parts]  # fmt: skip
         rows.append([cell(row["to_node_id"]), *values])
-    headers = ("Outfall", *(heading for _, heading, _, _ in parts))
+    headers = ("Outfall", *(heading if quantity is None else f"{heading} [{units.unit(quantity)}]" for _, heading, quantity, _ in parts))
     outfalls = table(headers, rows, numeric=(False, *([True] * len(parts))), id="outfall-table")
     settings = [(cell(key), cell(value)) for key, value in _flat(assumptions or {})]
     more = f" The {MAX_OUTFALLS} largest of {positions.size} outfall pipes are shown." if positions.size > MAX_OUTFALLS else ""
     note = paragraph(f"Flow arriving at each outfall, by part; the assumptions below built them (docs/methods.md).{more}", class_="note")
     return outfalls + note + table(("Assumption", "Value"), settings, id="flow-assumptions")
+
+
+def _shown(value: float, quantity: str | None, units: UnitSystem) -> float | None:
+    """An SI value in ``units`` (None where unknown)."""
+    if not np.isfinite(value):
+        return None
+    return value if quantity is None else float(units.convert(value, quantity))
 
 
 def _flat(settings: Mapping[str, Any], prefix: str = "") -> list[tuple[str, Any]]:

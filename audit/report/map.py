@@ -18,6 +18,7 @@ import pyproj
 import shapely
 
 from audit.report.svg import Array, element, label, line_path_data, rect, svg
+from audit.units import SI, UnitSystem
 
 #: Colour of each map class (see ``_tables.MAP_CLASSES``).
 CLASS_COLOURS: Mapping[str, str] = {
@@ -71,7 +72,7 @@ def _in_metres(crs: pyproj.CRS) -> bool:
     return bool(crs.is_projected and crs.axis_info and crs.axis_info[0].unit_name in ("metre", "meter"))
 
 
-def network_map(geometry: np.ndarray, classes: np.ndarray, *, metres: bool) -> str:
+def network_map(geometry: np.ndarray, classes: np.ndarray, *, metres: bool, units: UnitSystem = SI) -> str:
     """The map as inline SVG.
 
     Parameters
@@ -79,6 +80,7 @@ def network_map(geometry: np.ndarray, classes: np.ndarray, *, metres: bool) -> s
     geometry : one line geometry per pipe (None where missing) in metres
     classes : map class of each pipe
     metres : whether the coordinates are known to be metres (else no scale bar)
+    units : the scale bar is in m and km (SI) or ft and mi (US)
     """
     parts, pipe_of_part = _single_parts(geometry)
     coords, part_of_vertex = shapely.get_coordinates(parts, return_index=True)
@@ -96,7 +98,7 @@ def network_map(geometry: np.ndarray, classes: np.ndarray, *, metres: bool) -> s
     content = element("g", "".join(layers), fill="none", stroke_linecap="round", stroke_linejoin="round")
     content += north_arrow(frame.width - 40.0, 24.0)
     if metres:
-        content += scale_bar(frame, x=_MARGIN_PX, y=frame.height - 14.0)
+        content += scale_bar(frame, x=_MARGIN_PX, y=frame.height - 14.0, units=units)
     return svg(content, width=frame.width, height=frame.height, title="Network map coloured by each pipe's worst flag")
 
 
@@ -130,24 +132,30 @@ def round_length(target: float) -> float:
     return max(step * power for step in (1.0, 2.0, 5.0) if step * power <= target * (1 + 1e-12))
 
 
-def length_words(metres: float) -> str:
-    """A round length in m below 1 km, else in km.
+def length_words(length: float, unit: str = "m") -> str:
+    """A round length in m below 1 km, else in km; in ft below a mile, else in mi.
 
     Examples
     --------
-    >>> length_words(500.0), length_words(2000.0), length_words(0.5)
-    ('500 m', '2 km', '0.5 m')
+    >>> length_words(500.0), length_words(2000.0), length_words(0.5), length_words(10560.0, "ft")
+    ('500 m', '2 km', '0.5 m', '2 mi')
     """
-    return f"{metres / 1000.0:g} km" if metres >= 1000.0 else f"{metres:g} m"
+    if unit == "ft":
+        return f"{length / 5280.0:g} mi" if length >= 5280.0 else f"{length:g} ft"
+    return f"{length / 1000.0:g} km" if length >= 1000.0 else f"{length:g} m"
 
 
-def scale_bar(frame: Frame, *, x: float, y: float) -> str:
-    """A bar of a round length close to a fifth of the map's width, labelled in m or km."""
-    metres = round_length((frame.width - 2 * _MARGIN_PX) / 5.0 / frame.scale)
+def scale_bar(frame: Frame, *, x: float, y: float, units: UnitSystem = SI) -> str:
+    """A bar of a round length close to a fifth of the map's width, labelled in m or km (ft or mi)."""
+    per_unit = 1.0 / float(units.convert(1.0, "length"))  # metres per unit of length
+    rounded = round_length((frame.width - 2 * _MARGIN_PX) / 5.0 / frame.scale / per_unit)
+    if units.unit("length") == "ft" and rounded >= 5280.0:
+        rounded = round_length(rounded / 5280.0) * 5280.0  # whole miles, not 5,000 ft
+    metres = rounded * per_unit
     length = metres * frame.scale
     half = length / 2.0
     bar = rect(x, y - 6, half, 6, fill="#333") + rect(x + half, y - 6, half, 6, fill="#fff", stroke="#333")
-    words = label(x + length + 6, y, length_words(metres), font_size=12)
+    words = label(x + length + 6, y, length_words(rounded, units.unit("length")), font_size=12)
     return element("g", bar + words, data_role="scale-bar", data_metres=f"{metres:g}")
 
 

@@ -7,7 +7,6 @@ is escaped; the page has inline CSS and inline SVG only: no script, no font, no 
 
 from __future__ import annotations
 
-import dataclasses
 import html
 from collections.abc import Mapping
 from datetime import datetime
@@ -33,7 +32,8 @@ from audit.report.tables import (
     renewal_candidates,
 )
 from audit.result import AuditResult
-from audit.rules import CLEANSING_WORDS, DiameterTable, RuleSettings
+from audit.rules import CLEANSING_WORDS, DiameterTable, RuleSettings, as_table
+from audit.units import UNIT_SIZES, UnitSystem
 
 CAUTION_WORDS = (
     "This report is a screening aid. It applies uniform-flow checks to every pipe against design "
@@ -71,14 +71,14 @@ def render_page(result: AuditResult, *, id_field: str | None, created: datetime)
     body = "".join(
         (
             element("section", element("h2", "Caution") + paragraph(CAUTION_WORDS), id="caution", class_="caution"),
-            section("totals", "Network totals", _totals(result.totals)),
+            section("totals", "Network totals", _totals(result.totals, result.units)),
             section("map", "Map of the network by worst flag", _map(result, classes, totals)),
-            section("flags", "Flags: pipes and length", _flags(totals, len(pipes))),
+            section("flags", "Flags: pipes and length", _flags(totals, len(pipes), result.units)),
             section("part-full", "Load ratio against depth ratio", _part_full(pipes, classes)),
-            section("velocity", "Velocity at design flow", _velocity(pipes, result.rules)),
-            section("candidates", f"Top {CANDIDATE_ROWS} renewal candidates", _candidates(pipes, id_field=id_field)),
+            section("velocity", "Velocity at design flow", _velocity(pipes, result.rules, result.units)),
+            section("candidates", f"Top {CANDIDATE_ROWS} renewal candidates", _candidates(pipes, id_field=id_field, units=result.units)),
             section("findings", "Data findings", _findings(result.findings)),
-            section("flows", "Design flows at the outfalls", flows_section(pipes, result.settings.get("flows"))),
+            section("flows", "Design flows at the outfalls", flows_section(pipes, result.settings.get("flows"), units=result.units)),
             section("rules", "Rules and run", _rules(result, created=created)),
         )
     )
@@ -101,11 +101,17 @@ def analysis_frame(result: AuditResult) -> pd.DataFrame:
     return pipes
 
 
-def _totals(totals: Mapping[str, Any]) -> str:
-    length = totals.get("length_m")
+def _long(metres: float | None, units: UnitSystem) -> tuple[float | None, str]:
+    """A network length [m] in km (SI) or mi (US), and the unit's name."""
+    unit = "mi" if units.name == "us" else "km"
+    return (None if metres is None else float(metres) / UNIT_SIZES["length"][unit]), unit
+
+
+def _totals(totals: Mapping[str, Any], units: UnitSystem) -> str:
+    length, unit = _long(totals.get("length_m"), units)
     rows = [
         ("Pipes", cell(totals.get("pipes"))),
-        ("Length of pipe [km]", cell(None if length is None else float(length) / 1000.0, digits=2)),
+        (f"Length of pipe [{unit}]", cell(length, digits=2)),
         ("Manholes", cell(totals.get("manholes"))),
         ("Outfalls", cell(totals.get("outfalls"))),
         ("Separate networks (components)", cell(totals.get("components"))),
@@ -119,7 +125,7 @@ def _totals(totals: Mapping[str, Any]) -> str:
 
 def _map(result: AuditResult, classes: np.ndarray, totals: pd.DataFrame) -> str:
     geometry, metres = metric_geometry(result.pipes, working_crs=result.settings.get("working_crs"))
-    drawing = network_map(geometry, classes, metres=metres)
+    drawing = network_map(geometry, classes, metres=metres, units=result.units)
     counts = class_counts(classes)
     items = []
     for name, words in MAP_CLASSES.items():
@@ -131,14 +137,14 @@ def _map(result: AuditResult, classes: np.ndarray, totals: pd.DataFrame) -> str:
     return drawing + element("ul", "".join(items), class_="legend") + paragraph(note, class_="note")
 
 
-def _flags(totals: pd.DataFrame, pipe_count: int) -> str:
+def _flags(totals: pd.DataFrame, pipe_count: int, units: UnitSystem) -> str:
     if totals.empty:
         return paragraph("No pipe raised a flag.")
     rows = [
-        (element("code", cell(flag)), cell(severity), cell(int(count)), cell(float(length) / 1000.0, digits=2), html.escape(percent(count / max(pipe_count, 1))))
+        (element("code", cell(flag)), cell(severity), cell(int(count)), cell(_long(length, units)[0], digits=2), html.escape(percent(count / max(pipe_count, 1))))
         for flag, severity, count, length in totals[["flag", "severity", "pipes", "length_m"]].itertuples(index=False)
     ]
-    headers = ("Flag", "Severity", "Pipes", "Length [km]", "Share of pipes")
+    headers = ("Flag", "Severity", "Pipes", f"Length [{_long(None, units)[1]}]", "Share of pipes")
     note = paragraph("A pipe with several flags counts once under each.", class_="note")
     return table(headers, rows, numeric=(False, False, True, True, True), id="flag-table") + note + flag_bars(totals)
 
@@ -154,31 +160,40 @@ def _part_full(pipes: pd.DataFrame, classes: np.ndarray) -> str:
     return part_full_chart(load, depth, classes, report_curves()) + paragraph(words, class_="note")
 
 
-def _velocity(pipes: pd.DataFrame, rules: RuleSettings) -> str:
-    velocity = numeric(pipes, "v_design")
+def _velocity(pipes: pd.DataFrame, rules: RuleSettings, units: UnitSystem) -> str:
+    velocity = units.convert(numeric(pipes, "v_design"), "velocity")
+    unit = units.unit("velocity")
+    low, high = (round(float(units.convert(value, "velocity")), 2) for value in (rules.min_velocity, rules.max_velocity))
+    band = 0.1 if unit == "m/s" else 0.25
     known = int(np.count_nonzero(np.isfinite(velocity)))
     criterion = CLEANSING_WORDS[rules.self_cleansing].format(fraction=rules.cleansing_fraction, dry=rules.dry_weather)
-    threshold = f"boundary shear of {rules.min_shear:g} Pa" if rules.self_cleansing == "dry_weather_shear" else f"velocity of {rules.min_velocity:g} m/s"
+    shear = f"{float(units.convert(rules.min_shear, 'stress')):.3g} {units.unit('stress')}"
+    threshold = f"boundary shear of {shear}" if rules.self_cleansing == "dry_weather_shear" else f"velocity of {low:g} {unit}"
     words = (
-        f"{known:,} pipes with a velocity at the design flow, in bands of 0.1 m/s; the dashed lines are the minimum "
-        f"({rules.min_velocity:g} m/s) and maximum ({rules.max_velocity:g} m/s, against scour) velocity of the rules. "
+        f"{known:,} pipes with a velocity at the design flow, in bands of {band:g} {unit}; the dashed lines are the minimum "
+        f"({low:g} {unit}) and maximum ({high:g} {unit}, against scour) velocity of the rules. "
         "Bands outside them are orange; the last band holds every faster pipe. "
         f"Self-cleansing (the silting flag) is judged {criterion} (rules.self_cleansing = {rules.self_cleansing}): "
         f"a pipe silts below a {threshold} there."
     )
-    return velocity_histogram(velocity, min_velocity=rules.min_velocity, max_velocity=rules.max_velocity) + paragraph(words, class_="note")
+    chart = velocity_histogram(velocity, min_velocity=low, max_velocity=high, bin_width=band, unit=unit)
+    return chart + paragraph(words, class_="note")
 
 
-def _candidates(pipes: pd.DataFrame, *, id_field: str | None) -> str:
+def _candidates(pipes: pd.DataFrame, *, id_field: str | None, units: UnitSystem) -> str:
     ranked = renewal_candidates(pipes, id_field=id_field, limit=CANDIDATE_ROWS)
     if ranked.empty:
         return paragraph("No pipe raised a flag.")
+    height = units.convert(ranked["height_mm"].to_numpy(dtype=float) / 1000.0, "size")
+    length, upstream = (units.convert(ranked[name].to_numpy(dtype=float), "length") for name in ("length_m", "upstream_length_m"))
+    size_digits = 0 if units.unit("size") == "mm" else 1
     rows = [
-        (cell(rank), cell(row.pipe), cell(row.from_to), cell(row.severity), cell(row.load_ratio, digits=2), cell(row.height_mm, digits=0),
-         cell(row.length_m, digits=1), cell(row.upstream_length_m, digits=0), cell(row.reasons))
+        (cell(rank), cell(row.pipe), cell(row.from_to), cell(row.severity), cell(row.load_ratio, digits=2), cell(height[rank - 1], digits=size_digits),
+         cell(length[rank - 1], digits=1), cell(upstream[rank - 1], digits=0), cell(row.reasons))
         for rank, row in enumerate(ranked.itertuples(index=False), start=1)
     ]  # fmt: skip
-    headers = ("#", "Pipe", "From \u2192 to", "Severity", "Load ratio", "Height [mm]", "Length [m]", "Upstream [m]", "Reasons")
+    headers = ("#", "Pipe", "From \u2192 to", "Severity", "Load ratio", f"Height [{units.unit('size')}]", f"Length [{units.unit('length')}]",
+               f"Upstream [{units.unit('length')}]", "Reasons")  # fmt: skip
     note = paragraph("Ranked by worst severity, then load ratio, then length of network upstream.", class_="note")
     return table(headers, rows, numeric=(True, False, False, False, True, True, True, True, False), id="candidate-table") + note
 
@@ -194,24 +209,27 @@ def _findings(findings: pd.DataFrame) -> str:
     return table(("Finding", "Layer", "Count", "Examples (up to 3 features)"), rows, numeric=(False, False, True, False), id="finding-table")
 
 
-_RULE_UNITS = {
-    "max_load_ratio": "-", "near_capacity_ratio": "-", "min_velocity": "m/s", "min_shear": "Pa",
-    "max_velocity": "m/s", "min_slope": "m/m", "min_diameter_mm": "mm", "min_cover_m": "m", "max_spacing_m": "m",
-}  # fmt: skip
+def _rule_unit(key: str) -> str:
+    """The unit a ``[rules]`` key names at its end (``min_velocity_ft_s`` -> ft/s); "-" for none."""
+    for ending, unit in (("_m_s", "m/s"), ("_ft_s", "ft/s"), ("_pa", "Pa"), ("_psf", "lb/ft2"), ("_mm", "mm"), ("_in", "in"), ("_m", "m"), ("_ft", "ft")):
+        if key.endswith(ending):
+            return unit
+    return "m/m" if key.startswith("min_slope") else "-"
 
 
 def _rule_value(name: str, value: object) -> str:
     if isinstance(value, DiameterTable):
-        return "; ".join(f"from {size:g} mm: {row:g}" if np.isfinite(row) else f"from {size:g} mm: no limit" for size, row in zip(value.from_diameter_mm, value.values, strict=True))
+        size = "in" if name.endswith(("_ft", "_by_in")) else "mm"
+        return "; ".join(f"from {start:g} {size}: {row:g}" if np.isfinite(row) else f"from {start:g} {size}: no limit" for start, row in zip(value.from_diameter_mm, value.values, strict=True))
     if value is None:
-        return "only a zero or negative slope is flagged" if name == "min_slope" else "not checked"
+        return "not checked"
     if isinstance(value, Mapping):
         return ", ".join(f"{flag} {word}" for flag, word in value.items())
     return f"{value:g}" if isinstance(value, float) else str(value)
 
 
 def _rules(result: AuditResult, *, created: datetime) -> str:
-    rules = [(element("code", cell(item.name)), cell(_RULE_UNITS.get(item.name, "")), cell(_rule_value(item.name, getattr(result.rules, item.name)))) for item in dataclasses.fields(result.rules)]
+    rules = [(element("code", cell(key)), cell(_rule_unit(key)), cell(_rule_value(key, value))) for key, value in as_table(result.rules, result.units).items()]
     settings = [
         (element("code", cell(f"{group}.{key}")), "", cell(value))
         for group in ("hydraulics", "network")

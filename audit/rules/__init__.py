@@ -28,6 +28,7 @@ from audit.rules.settings import (
     SEVERITY_ORDER,
     DiameterTable,
     RuleSettings,
+    as_table,
     unusual_values,
 )
 
@@ -45,6 +46,7 @@ __all__ = [
     "Cleansing",
     "DiameterTable",
     "RuleSettings",
+    "as_table",
     "check_pipes",
     "cleansing_state",
     "unusual_values",

@@ -30,6 +30,7 @@ from audit.rules.settings import (
     RuleSettings,
 )
 from audit.rules.text import concat, fixed, join, pick, rows, strings
+from audit.units import SI, UnitSystem
 
 METRIC_COLUMNS: tuple[str, ...] = (
     "pipe_id", "shape", "diameter", "height", "length_m", "slope", "q_full", "q_design",
@@ -59,6 +60,7 @@ def check_pipes(
     downstream: np.ndarray,
     node_access: np.ndarray,
     settings: RuleSettings,
+    units: UnitSystem = SI,
 ) -> pd.DataFrame:
     """Flags, worst severity and reasons per pipe.
 
@@ -74,6 +76,7 @@ def check_pipes(
         unknown
     node_access : True for each node that is an access point (manhole with a cover)
     settings : the thresholds
+    units : the unit system the reasons are written in (``[output] units``); the checks are SI
 
     Returns
     -------
@@ -91,12 +94,12 @@ def check_pipes(
     run_length, run_pipes = run_totals(run, length=columns["length_m"])
     hits = {
         **_capacity_hits(columns, settings=settings),
-        **_velocity_hits(columns, settings=settings),
+        **_velocity_hits(columns, settings=settings, units=units),
         **_grade_hits(columns, size=size, settings=settings),
-        "long_spacing": _spacing_hit(size, run, run_length, run_pipes, settings=settings),
-        "below_min_diameter": _diameter_hit(columns, size=size, settings=settings),
-        "diameter_decrease": _decrease_hit(columns, size, upstream, downstream, nodes=len(node_access)),
-        "shallow_cover": _cover_hit(columns, settings=settings),
+        "long_spacing": _spacing_hit(size, run, run_length, run_pipes, settings=settings, units=units),
+        "below_min_diameter": _diameter_hit(columns, size=size, settings=settings, units=units),
+        "diameter_decrease": _decrease_hit(columns, size, upstream, downstream, nodes=len(node_access), units=units),
+        "shallow_cover": _cover_hit(columns, settings=settings, units=units),
         "missing_data": _missing_hit(columns, size=size),
     }
     hits = {code: _restrict(hit, judged) for code, hit in hits.items()}
@@ -198,17 +201,33 @@ CLEANSING_WORDS = {"full_velocity": "flowing full", "design_velocity": "at the d
                    "dry_weather_shear": "at the dry-weather {dry} flow"}  # fmt: skip
 
 
-def _velocity_hits(columns: dict[str, np.ndarray], *, settings: RuleSettings) -> dict[str, Hit]:
+#: Decimals of a number in a reason, by the unit it is written in.
+_DECIMALS = {"m/s": 2, "ft/s": 2, "Pa": 2, "psf": 3, "m": 2, "ft": 1, "mm": 0, "in": 1, "m2": 3, "ft2": 2}
+
+
+def _amount(values: np.ndarray, quantity: str, units: UnitSystem) -> pa.Array:
+    """SI ``values`` of ``quantity`` as text in ``units``, with the unit: ``0.45 m/s``, ``1.5 ft/s``."""
+    unit = units.unit(quantity)
+    return concat(fixed(units.convert(values, quantity), _DECIMALS[unit]), f" {unit}")
+
+
+def _limit(value: float, quantity: str, units: UnitSystem) -> str:
+    """One SI threshold as text in ``units``, with the unit."""
+    unit = units.unit(quantity)
+    return f"{float(units.convert(value, quantity)):.{_DECIMALS[unit]}f} {unit}"
+
+
+def _velocity_hits(columns: dict[str, np.ndarray], *, settings: RuleSettings, units: UnitSystem) -> dict[str, Hit]:
     flowing = columns["slope"] > 0
     velocity = columns["v_design"]
     fast = flowing & (velocity > settings.max_velocity)
     return {
-        "silting": _silting_hit(columns, settings=settings),
-        "high_velocity": (fast, concat("velocity ", fixed(velocity[fast], 2), f" m/s > {settings.max_velocity:.2f} m/s")),
+        "silting": _silting_hit(columns, settings=settings, units=units),
+        "high_velocity": (fast, concat("velocity ", _amount(velocity[fast], "velocity", units), " > ", _limit(settings.max_velocity, "velocity", units))),
     }
 
 
-def _silting_hit(columns: dict[str, np.ndarray], *, settings: RuleSettings) -> Hit:
+def _silting_hit(columns: dict[str, np.ndarray], *, settings: RuleSettings, units: UnitSystem) -> Hit:
     """Self-cleansing by the configured criterion: the velocity (or shear) at the criterion's flow.
 
     The frame's ``v_cleansing`` and ``shear_cleansing`` hold them; a frame without them is judged
@@ -222,10 +241,10 @@ def _silting_hit(columns: dict[str, np.ndarray], *, settings: RuleSettings) -> H
     if criterion == "dry_weather_shear":
         shear = columns.get("shear_cleansing", columns["shear"])
         weak = flowing & (shear < settings.min_shear)
-        return weak, concat("shear ", fixed(shear[weak], 2), f" Pa < {settings.min_shear:.2f} Pa {words}")
+        return weak, concat("shear ", _amount(shear[weak], "stress", units), f" < {_limit(settings.min_shear, 'stress', units)} {words}")
     velocity = columns.get("v_cleansing", columns["v_design"])
     slow = flowing & (velocity < settings.min_velocity)
-    return slow, concat("velocity ", fixed(velocity[slow], 2), f" m/s < {settings.min_velocity:.2f} m/s {words}")
+    return slow, concat("velocity ", _amount(velocity[slow], "velocity", units), f" < {_limit(settings.min_velocity, 'velocity', units)} {words}")
 
 
 def _grade_hits(columns: dict[str, np.ndarray], *, size: np.ndarray, settings: RuleSettings) -> dict[str, Hit]:
@@ -243,7 +262,7 @@ def _grade_hits(columns: dict[str, np.ndarray], *, size: np.ndarray, settings: R
 
 
 def _spacing_hit(
-    size: np.ndarray, run: np.ndarray, run_length: np.ndarray, run_pipes: np.ndarray, *, settings: RuleSettings
+    size: np.ndarray, run: np.ndarray, run_length: np.ndarray, run_pipes: np.ndarray, *, settings: RuleSettings, units: UnitSystem
 ) -> Hit:
     """A run is held to the strictest limit of its pipes; a pipe of unknown size to the table's strictest."""
     limit = settings.max_spacing_m.lookup(size)
@@ -252,20 +271,23 @@ def _spacing_hit(
     np.minimum.at(run_limit, run, limit)
     limit = run_limit[run]
     long = run_length > limit
+    unit = units.unit("length")
     reason = concat(
-        "access run ", fixed(run_length[long], 1), " m > ", fixed(limit[long], 1), " m (", fixed(run_pipes[long], 0), " pipes)"
-    )
+        "access run ", fixed(units.convert(run_length[long], "length"), 1), f" {unit} > ", fixed(units.convert(limit[long], "length"), 1),
+        f" {unit} (", fixed(run_pipes[long], 0), " pipes)",
+    )  # fmt: skip
     return long, reason
 
 
-def _diameter_hit(columns: dict[str, np.ndarray], *, size: np.ndarray, settings: RuleSettings) -> Hit:
+def _diameter_hit(columns: dict[str, np.ndarray], *, size: np.ndarray, settings: RuleSettings, units: UnitSystem) -> Hit:
     size_mm = np.round(size * 1000.0, 6)
     small = size_mm < settings.min_diameter_mm
-    return small, concat(_size_word(columns, small), fixed(size_mm[small], 0), f" mm < {settings.min_diameter_mm:.0f} mm")
+    least = _limit(settings.min_diameter_mm / 1000.0, "size", units)
+    return small, concat(_size_word(columns, small), _amount(size[small], "size", units), f" < {least}")
 
 
 def _decrease_hit(
-    columns: dict[str, np.ndarray], size: np.ndarray, upstream: np.ndarray, downstream: np.ndarray, *, nodes: int
+    columns: dict[str, np.ndarray], size: np.ndarray, upstream: np.ndarray, downstream: np.ndarray, *, nodes: int, units: UnitSystem
 ) -> Hit:
     """A full-bore area smaller than that of the largest pipe ending at this pipe's upstream node.
 
@@ -284,16 +306,16 @@ def _decrease_hit(
     entering[known], entering_height[known] = largest_in[upstream[known]], entering_size[upstream[known]]
     step = area < entering * (1.0 - _AREA_TOLERANCE)
     reason = concat(
-        _size_word(columns, step), fixed(1000 * size[step], 0), " mm, full area ", fixed(area[step], 3), " m2 < ",
-        fixed(entering[step], 3), " m2 of the ", fixed(1000 * entering_height[step], 0), " mm pipe entering upstream",
+        _size_word(columns, step), _amount(size[step], "size", units), ", full area ", _amount(area[step], "section", units), " < ",
+        _amount(entering[step], "section", units), " of the ", _amount(entering_height[step], "size", units), " pipe entering upstream",
     )  # fmt: skip
     return step, reason
 
 
-def _cover_hit(columns: dict[str, np.ndarray], *, settings: RuleSettings) -> Hit:
+def _cover_hit(columns: dict[str, np.ndarray], *, settings: RuleSettings, units: UnitSystem) -> Hit:
     cover = np.fmin(columns["up_cover"], columns["down_cover"])
     shallow = cover < settings.min_cover_m
-    return shallow, concat("cover ", fixed(cover[shallow], 2), f" m < {settings.min_cover_m:.2f} m")
+    return shallow, concat("cover ", _amount(cover[shallow], "length", units), " < ", _limit(settings.min_cover_m, "length", units))
 
 
 def _missing_hit(columns: dict[str, np.ndarray], *, size: np.ndarray) -> Hit:

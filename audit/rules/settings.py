@@ -16,6 +16,7 @@ from types import MappingProxyType
 import numpy as np
 
 from audit.errors import ConfigError
+from audit.units import SI, UNIT_SIZES, US, UnitSystem, to_si
 
 #: Severity words from the least to the most serious; "" in an output column means no flag.
 SEVERITY_ORDER: tuple[str, ...] = ("low", "medium", "high")
@@ -177,13 +178,21 @@ class RuleSettings:
         """
         if not isinstance(table, Mapping):
             raise ConfigError(f"{source}: rules: expected a table of settings, got {_kind(table)}")
-        names = [item.name for item in fields(cls)]
+        names = list(_KEYS)
         for key in table:
-            if key not in names:
+            if key in _RENAMED:
+                raise ConfigError(f"{source}: rules.{key}: renamed to {_RENAMED[key]}, so that every key names its unit")
+            if key not in _KEYS:
                 raise ConfigError(f"{source}: rules.{key}: unknown key{_did_you_mean(str(key), names)}")
         values: dict[str, object] = {}
+        given: dict[str, str] = {}
         for key, raw in table.items():
-            values[key] = _PARSERS[key](raw, source=source, key=f"rules.{key}")
+            setting, system, quantity = _KEYS[key]
+            if setting in given:
+                raise ConfigError(f"{source}: rules.{key}: give one of rules.{given[setting]} and rules.{key}, not both")
+            given[setting] = key
+            parsed = _PARSERS[setting](raw, source=source, key=f"rules.{key}")
+            values[setting] = _to_si(parsed, system=system, quantity=quantity, setting=setting)
         settings = cls(**values)  # type: ignore[arg-type]
         _check_consistent(settings, source=source)
         return settings
@@ -276,6 +285,79 @@ _PARSERS = {
     "severity": _severity,
 }
 
+#: The ``[rules]`` keys of each setting with a unit, by unit system: every key names its unit, and
+#: a setting is given in either system (one key of a pair). Values are kept in SI inside.
+#: (setting, quantity of ``audit.units``, SI key, US key); a table by size has its rows'
+#: sizes in millimetres (SI key) or inches (US key).
+UNIT_KEYS: tuple[tuple[str, str, str, str], ...] = (
+    ("min_velocity", "velocity", "min_velocity_m_s", "min_velocity_ft_s"),
+    ("max_velocity", "velocity", "max_velocity_m_s", "max_velocity_ft_s"),
+    ("min_shear", "stress", "min_shear_pa", "min_shear_psf"),
+    ("min_diameter_mm", "size", "min_diameter_mm", "min_diameter_in"),
+    ("min_cover_m", "length", "min_cover_m", "min_cover_ft"),
+    ("max_spacing_m", "length", "max_spacing_m", "max_spacing_ft"),
+    ("min_slope", "ratio", "min_slope", "min_slope_by_in"),
+)
+_RENAMED = {"min_velocity": "min_velocity_m_s (or min_velocity_ft_s)", "max_velocity": "max_velocity_m_s (or max_velocity_ft_s)",
+            "min_shear": "min_shear_pa (or min_shear_psf)"}  # fmt: skip
+
+
+def _key_table() -> dict[str, tuple[str, UnitSystem, str]]:
+    """Every ``[rules]`` key: the setting it sets, its unit system, and the quantity of its value."""
+    keys = {name: (name, SI, "ratio") for name in _PARSERS}
+    for setting, quantity, si_key, us_key in UNIT_KEYS:
+        keys.pop(setting, None)
+        keys[si_key] = (setting, SI, quantity)
+        keys[us_key] = (setting, US, quantity)
+    return keys
+
+
+_KEYS = _key_table()
+
+
+def _to_si(value: object, *, system: UnitSystem, quantity: str, setting: str) -> object:
+    """A parsed value given in ``system`` in the SI units the rules use (sizes of tables in mm)."""
+    if system is SI or (quantity == "ratio" and not isinstance(value, DiameterTable)):
+        return value
+    size = float(to_si(1.0, system.unit("size"), quantity="length")) * 1000.0  # mm per size unit
+    scale = 1.0 if quantity == "ratio" else float(UNIT_SIZES[quantity][system.unit(quantity)])
+    if setting == "min_diameter_mm":
+        return float(value) * size  # type: ignore[arg-type]
+    if isinstance(value, DiameterTable):
+        return DiameterTable(tuple(start * size for start in value.from_diameter_mm), tuple(row * scale for row in value.values))
+    return float(value) * scale  # type: ignore[arg-type]
+
+
+def as_table(settings: RuleSettings, units: UnitSystem) -> dict[str, object]:
+    """The settings as ``[rules]`` keys and values in ``units``: what a config in that system would say.
+
+    >>> table = as_table(RuleSettings(), US)
+    >>> round(table["min_velocity_ft_s"], 3), table["min_cover_ft"] == round(0.9 / 0.3048, 6)
+    (1.969, True)
+    """
+    out: dict[str, object] = {}
+    by_setting = {setting: (quantity, si_key, us_key) for setting, quantity, si_key, us_key in UNIT_KEYS}
+    for item in fields(settings):
+        value = getattr(settings, item.name)
+        if item.name not in by_setting:
+            out[item.name] = value
+            continue
+        quantity, si_key, us_key = by_setting[item.name]
+        out[us_key if units is US else si_key] = _from_si(value, units=units, quantity=quantity, setting=item.name)
+    return out
+
+
+def _from_si(value: object, *, units: UnitSystem, quantity: str, setting: str) -> object:
+    if units is SI or value is None:
+        return value
+    size = 1.0 / (float(to_si(1.0, units.unit("size"), quantity="length")) * 1000.0)  # size units per mm
+    scale = 1.0 if quantity == "ratio" else 1.0 / float(UNIT_SIZES[quantity][units.unit(quantity)])
+    if setting == "min_diameter_mm":
+        return round(float(value) * size, 6)  # type: ignore[arg-type]
+    if isinstance(value, DiameterTable):
+        return DiameterTable(tuple(round(start * size, 6) for start in value.from_diameter_mm), tuple(row * scale for row in value.values))
+    return round(float(value) * scale, 6)  # type: ignore[arg-type]
+
 
 def _check_consistent(settings: RuleSettings, *, source: str) -> None:
     if settings.near_capacity_ratio > settings.max_load_ratio:
@@ -314,14 +396,16 @@ def unusual_values(settings: RuleSettings) -> list[tuple[str, str]]:
 
     Examples
     --------
-    >>> unusual_values(RuleSettings(min_slope=DiameterTable.constant(0.4), min_cover_m=3.5))
+    >>> unusual_values(RuleSettings(min_slope=DiameterTable.constant(0.4), min_cover_m=3.5))  # the values as SI
     [('rules.min_slope', 'rules.min_slope = 0.4 lies outside the usual 0.0001 to 0.05; expected m/m (0.4 % is 0.004)'), ('rules.min_cover_m', 'rules.min_cover_m = 3.5 lies outside the usual 0.2 to 3; expected m (3 ft is 0.91 m)')]
     """
     found = []
+    si_keys = {setting: si_key for setting, _, si_key, _ in UNIT_KEYS}
     for name, (low, high, unit) in USUAL_RANGES.items():
         value = getattr(settings, name)
         values = value.values if isinstance(value, DiameterTable) else () if value is None else (value,)
         odd = [v for v in values if np.isfinite(v) and not low <= v <= high]
+        key = f"rules.{si_keys.get(name, name)}"
         if odd:
-            found.append((f"rules.{name}", f"rules.{name} = {odd[0]:g} lies outside the usual {low:g} to {high:g}; expected {unit}"))
+            found.append((key, f"{key} = {odd[0]:g} lies outside the usual {low:g} to {high:g}; expected {unit}"))
     return found

@@ -89,7 +89,7 @@ snap_tolerance_m = 0.25
 formula = "colebrook-white"
 ks_mm = 0.6
 [rules]
-min_velocity = 0.7
+min_velocity_m_s = 0.7
 min_slope = [[150, 0.0067], [225, 0.004]]
 """
 
@@ -127,16 +127,16 @@ def test_rules_are_parsed_at_load_and_the_raw_table_is_read_only(tmp_path: Path)
     assert config.rules.min_slope is not None
     assert list(config.rules.min_slope.lookup(np.array([0.15, 0.2, 0.3]))) == [0.0067, 0.0067, 0.004]
     rules = config.rules_table
-    assert rules["min_velocity"] == 0.7
+    assert rules["min_velocity_m_s"] == 0.7
     with pytest.raises(TypeError):
-        rules["min_velocity"] = 1.0  # type: ignore[index]
+        rules["min_velocity_m_s"] = 1.0  # type: ignore[index]
     with pytest.raises(TypeError):
         rules["min_slope"][0][1] = 0.0  # type: ignore[index]
 
 
 def test_a_misspelt_rule_fails_at_load_naming_file_and_key(tmp_path: Path) -> None:
     path = _write(tmp_path, '[pipes]\npath = "a.gpkg"\n[rules]\nmax_velocty = 2.5\n')
-    with pytest.raises(ConfigError, match=r"town.toml: rules.max_velocty: unknown key \(did you mean 'max_velocity'\?\)"):
+    with pytest.raises(ConfigError, match=r"town.toml: rules.max_velocty: unknown key \(did you mean 'max_velocity_m_s'\?\)"):
         load_config(path)
 
 
@@ -289,7 +289,7 @@ def test_flows_catchments_and_manhole_loads_are_read(tmp_path: Path) -> None:
         ('[flows.rainfall]\nb = 10\n', "flows.rainfall: expected either a"),
         ('[flows.rainfall]\na = 1000\nduration = 5\n', "flows.rainfall.duration: unknown key"),
         ('[catchments]\npath = "a.gpkg"\n[catchments.fields]\nrunoff = "C"\n', "catchments.fields.runoff: unknown key"),
-        ('[catchments]\npath = "a.gpkg"\nunits = {}\n', "catchments.units: unknown key"),
+        ('[catchments]\npath = "a.gpkg"\n[catchments.units]\narea_ha = "km2"\n', "catchments.units.area_ha: expected an area unit, one of ha, ac, m2"),
         ('[manholes]\npath = "m.gpkg"\n[manholes.units]\npoint_load = "litres"\n', "manholes.units.point_load: expected a flow unit"),
     ],
 )
@@ -303,3 +303,20 @@ def test_the_complete_example_in_the_docs_loads(tmp_path: Path) -> None:
     config = load_config(_write(tmp_path, example))
     assert config.pipes.fields["from_node"] == "US_MH"
     assert config.rules.min_velocity == 0.75
+
+
+def test_flows_in_us_units_are_the_same_settings(tmp_path: Path) -> None:
+    text = ('[pipes]\npath = "p.gpkg"\n[catchments]\npath = "c.gpkg"\n[flows]\nkind = "combined"\nper_capita_gal_day = 100\n'
+            'infiltration_gal_day_mile = 2000\nload_per_manhole_gpm = 15\npersons_per_mile = 1609.344\nfallback_velocity_ft_s = 2\n'
+            '[flows.rainfall]\nintensity_unit = "in/h"\ntable = [[5, 4.0], [60, 1.0]]\n')  # fmt: skip
+    flows = load_config(_write(tmp_path, text)).flows
+    # Source: NIST SP 811 (2008), appendix B: 1 US gallon = 3.785411784 l, 1 mile = 1.609344 km, 1 in = 25.4 mm
+    assert flows.per_capita_l_day == pytest.approx(378.5411784)
+    assert flows.infiltration_l_s_km == pytest.approx(2000 * 3.785411784 / 86400 / 1.609344)
+    assert flows.load_per_manhole_l_s == pytest.approx(15 * 3.785411784 / 60)
+    assert flows.persons_per_km == pytest.approx(1000.0)
+    assert flows.fallback_velocity_m_s == pytest.approx(0.6096)
+    assert flows.rainfall is not None
+    assert [intensity for _, intensity in flows.rainfall.table] == pytest.approx([101.6, 25.4])
+    with pytest.raises(ConfigError, match="flows.per_capita_gal_day: expected one of flows.per_capita_l_day and flows.per_capita_gal_day"):
+        load_config(_write(tmp_path, '[pipes]\npath = "p.gpkg"\n[flows]\nper_capita_l_day = 200\nper_capita_gal_day = 50\n'))

@@ -7,6 +7,7 @@ import numpy as np
 import pandas as pd
 
 from audit.outputs.candidates import write_candidates
+from audit.units import US
 
 
 def _rows(path: Path) -> list[dict[str, str]]:
@@ -40,3 +41,13 @@ def test_mixed_objects_are_written_as_their_text(tmp_path: Path) -> None:
     table = pd.DataFrame({"rank": [1, 2, 3], "material": pd.Series(["clay", 7, None], dtype=object)})
     write_candidates(table, tmp_path / "c.csv")
     assert [row["material"] for row in _rows(tmp_path / "c.csv")] == ["clay", "7", ""]
+
+
+def test_candidates_in_us_units_name_and_convert_their_columns(tmp_path: Path) -> None:
+    table = pd.DataFrame({"rank": [1], "pipe_id": ["P1"], "v_design": [0.6096], "diameter_mm": [203.2], "length_m": [30.48],
+                          "upstream_length_m": [304.8]})  # fmt: skip
+    write_candidates(table, tmp_path / "c.csv", units=US)
+    with (tmp_path / "c.csv").open(encoding="utf-8", newline="") as handle:
+        rows = list(csv.DictReader(handle))
+    # Source: NIST SP 811 (2008), appendix B: 1 ft = 0.3048 m, 1 in = 25.4 mm, exactly
+    assert rows == [{"rank": "1", "pipe_id": "P1", "v_design_ft_s": "2", "diameter_in": "8", "length_ft": "100", "upstream_length_ft": "1000"}]

@@ -16,8 +16,9 @@ from audit.about import CAUTION
 from audit.errors import AuditError, OutputExistsError
 from audit.outputs import print_summary_table, rank_candidates, write_outputs
 from audit.outputs import writing as outputs
-from audit.result import FINDING_COLUMNS, MANHOLE_COLUMNS, PIPE_COLUMNS, AuditResult
+from audit.result import COLUMN_UNITS, FINDING_COLUMNS, MANHOLE_COLUMNS, PIPE_COLUMNS, AuditResult, output_name
 from audit.rules import RuleSettings
+from audit.units import SI
 
 CRS = "EPSG:27700"
 ORIGINAL = ["Pipe ID", "DIAM_MM_10", "Up Level", "note", "laid", "isPublic", "fid", "geom"]
@@ -52,7 +53,7 @@ def _pipes() -> gpd.GeoDataFrame:
 
 def _manholes() -> gpd.GeoDataFrame:
     frame = {"MH_REF": ["M1", "M2"], "Cover Level": [14.0, np.nan]}
-    computed = {"pipes_in": [0, 1], "pipes_out": [1, 1], "total_inflow": [0.01, np.nan], "findings": ["", "orphan_manhole"]}
+    computed = {"pipes_in": [0, 1], "pipes_out": [1, 1], "flow_out": [0.01, np.nan], "findings": ["", "orphan_manhole"]}
     return gpd.GeoDataFrame({**frame, **computed}, geometry=shapely.points([[0, 0], [40, 0]]), crs=CRS)
 
 
@@ -97,13 +98,16 @@ def test_writes_the_three_files_and_nothing_else(tmp_path: Path) -> None:
 def test_pipes_round_trip_keeps_every_original_field_and_the_computed_columns(tmp_path: Path) -> None:
     back = gpd.read_file(_written(tmp_path)["geopackage"], layer="pipes", engine="pyogrio")
     sent = _pipes()
-    assert list(back.columns) == [*ORIGINAL, *PIPE_COLUMNS, "geometry"]
+    assert list(back.columns) == [*ORIGINAL, *(output_name(name, SI) for name in PIPE_COLUMNS), "geometry"]
     assert back["DIAM_MM_10"].dtype == np.int64
     assert back["isPublic"].dtype == bool
     for name in [*ORIGINAL, *PIPE_COLUMNS]:
         expected = sent[name].astype(object).where(sent[name].notna(), None).tolist()
-        got = back[name].astype(object).where(back[name].notna(), None).tolist()
-        assert got == expected, name
+        if name in COLUMN_UNITS:  # written in the SI output units: l/s, mm, ...
+            expected = [None if value is None else float(SI.convert(value, COLUMN_UNITS[name][1])) for value in expected]
+        column = output_name(name, SI)
+        got = back[column].astype(object).where(back[column].notna(), None).tolist()
+        assert got == pytest.approx(expected) if name in COLUMN_UNITS else got == expected, name
     assert back.crs == sent.crs
     assert back.geometry.geom_equals(sent.geometry).all()
 
@@ -111,8 +115,9 @@ def test_pipes_round_trip_keeps_every_original_field_and_the_computed_columns(tm
 def test_manholes_and_findings_layers(tmp_path: Path) -> None:
     path = _written(tmp_path)["geopackage"]
     manholes = gpd.read_file(path, layer="manholes", engine="pyogrio")
-    assert list(manholes.columns) == ["MH_REF", "Cover Level", *MANHOLE_COLUMNS, "geometry"]
-    assert manholes["total_inflow"].isna().tolist() == [False, True]
+    assert list(manholes.columns) == ["MH_REF", "Cover Level", *(output_name(name, SI) for name in MANHOLE_COLUMNS), "geometry"]
+    assert manholes["flow_out_l_s"].tolist()[0] == pytest.approx(10.0)  # 0.01 m3/s written in l/s
+    assert manholes["flow_out_l_s"].isna().tolist() == [False, True]
     findings = gpd.read_file(path, layer="findings", engine="pyogrio")
     assert list(findings.columns) == [*FINDING_COLUMNS, "geometry"]
     assert findings["feature"].tolist() == ["P1", "P2", "M2", "P3", "P4", "P5", "P6", "P7", "P8"]
@@ -201,7 +206,7 @@ def test_a_failure_midway_leaves_no_file_and_keeps_the_old_ones(tmp_path: Path, 
 
 
 def test_a_failure_in_the_last_file_replaces_nothing(tmp_path: Path, monkeypatch: pytest.MonkeyPatch) -> None:
-    def fail(*_: object) -> None:
+    def fail(*_: object, **__: object) -> None:
         raise OSError(5, "Input/output error")
 
     monkeypatch.setattr(outputs, "write_candidates", fail)
@@ -292,7 +297,7 @@ def test_candidates_file(tmp_path: Path) -> None:
     with _written(tmp_path)["candidates"].open(encoding="utf-8", newline="") as handle:
         rows = list(csv.DictReader(handle))
     assert list(rows[0]) == [
-        "rank", "pipe_id", "severity", "flags", "reasons", "load_ratio", "depth_ratio", "v_design", "slope",
+        "rank", "pipe_id", "severity", "flags", "reasons", "load_ratio", "depth_ratio", "v_design_m_s", "slope",
         "diameter_mm", "length_m", "upstream_length_m", "install_year", "material",
     ]  # fmt: skip
     assert [row["severity"] for row in rows] == ["high", "medium"]

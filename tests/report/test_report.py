@@ -205,7 +205,7 @@ def test_velocity_limits_and_rules_are_shown(town: AuditResult, town_page: Page)
     assert f"{town.rules.max_velocity:g} m/s" in words
     rules = {row[0]: row[2] for row in town_page.table_rows("rule-table")}
     assert rules["max_load_ratio"] == "1"
-    assert rules["min_velocity"] == "0.6"
+    assert rules["min_velocity_m_s"] == "0.6"
     run_rows = {row[0]: row[1] for row in town_page.table_rows("run-table")}
     assert run_rows["Config"] == str(TOWN)
     assert run_rows["Tool"].startswith("sewer-audit ")

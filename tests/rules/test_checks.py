@@ -15,10 +15,12 @@ from audit.rules import (
     SEVERITY_ORDER,
     DiameterTable,
     RuleSettings,
+    as_table,
     check_pipes,
     unusual_values,
     worst_severity_at_least,
 )
+from audit.units import US
 
 # A healthy 300 mm pipe: nothing in it breaks a default rule (values invented for the fixture).
 HEALTHY = {
@@ -336,7 +338,7 @@ def test_settings_defaults() -> None:
 
 def test_settings_from_table() -> None:
     settings = RuleSettings.from_table(
-        {"min_velocity": 0.75, "max_spacing_m": 90, "min_slope": [[0, 0.005], [300, 0.003]], "min_shear": 1},
+        {"min_velocity_m_s": 0.75, "max_spacing_m": 90, "min_slope": [[0, 0.005], [300, 0.003]], "min_shear_pa": 1},
         source="town.toml",
     )
     assert settings.min_velocity == 0.75
@@ -348,9 +350,11 @@ def test_settings_from_table() -> None:
 @pytest.mark.parametrize(
     ("table", "words"),
     [
-        ({"max_velocty": 3.0}, ["rules.max_velocty", "did you mean 'max_velocity'"]),
-        ({"min_velocity": "fast"}, ["rules.min_velocity", "finite number"]),
-        ({"min_velocity": True}, ["rules.min_velocity", "finite number"]),
+        ({"max_velocty": 3.0}, ["rules.max_velocty", "did you mean 'max_velocity_m_s'"]),
+        ({"min_velocity_m_s": "fast"}, ["rules.min_velocity_m_s", "finite number"]),
+        ({"min_velocity_ft_s": True}, ["rules.min_velocity_ft_s", "finite number"]),
+        ({"min_velocity": 0.7}, ["rules.min_velocity", "renamed to min_velocity_m_s (or min_velocity_ft_s)"]),
+        ({"min_cover_m": 0.9, "min_cover_ft": 3}, ["rules.min_cover_ft", "give one of rules.min_cover_m and rules.min_cover_ft"]),
         ({"min_cover_m": -1}, ["rules.min_cover_m", ">= 0"]),
         ({"max_spacing_m": [[0, 120], [0, 150]]}, ["rules.max_spacing_m[1]", "ascend"]),
         ({"max_spacing_m": [[0, 120, 3]]}, ["rules.max_spacing_m[0]", "[from_diameter_mm, value]"]),
@@ -362,7 +366,7 @@ def test_settings_from_table() -> None:
         ({"cleansing_fraction": 0}, ["rules.cleansing_fraction", "> 0"]),
         ({"severity": {"silting": "urgent"}}, ["rules.severity.silting", "low, medium, high, off"]),
         ({"near_capacity_ratio": 1.2}, ["rules.near_capacity_ratio", "rules.max_load_ratio"]),
-        ({"min_velocity": 4.0}, ["rules.min_velocity", "rules.max_velocity"]),
+        ({"min_velocity_m_s": 4.0}, ["rules.min_velocity", "rules.max_velocity"]),
     ],
 )
 def test_settings_errors_name_file_and_key(table: dict[str, object], words: list[str]) -> None:
@@ -403,10 +407,33 @@ def test_thresholds_far_outside_their_usual_range_are_said(tmp_path: Path) -> No
 
     config = write_town(tmp_path, "GPKG", ".gpkg")
     # a minimum slope of 0.4 meant as 0.4 %, a cover of 3.5 meant as feet, a velocity in ft/s
-    text = config.read_text(encoding="utf-8").replace("[rules]\n", "[rules]\nmin_slope = 0.4\nmin_cover_m = 3.5\nmin_velocity = 2.0\n")
+    text = config.read_text(encoding="utf-8").replace("[rules]\n", "[rules]\nmin_slope = 0.4\nmin_cover_m = 3.5\nmin_velocity_m_s = 2.0\n")
     config.write_text(text, encoding="utf-8")
     found = run(config).findings.query("code == 'unusual_setting'")
     assert found["layer"].unique().tolist() == ["config"]
-    assert found["feature"].tolist() == ["rules.min_velocity", "rules.min_slope", "rules.min_cover_m"]
-    assert found["message"].iloc[0] == "rules.min_velocity = 2 lies outside the usual 0.2 to 1.5; expected m/s (2 ft/s is 0.61 m/s)"
+    assert found["feature"].tolist() == ["rules.min_velocity_m_s", "rules.min_slope", "rules.min_cover_m"]
+    assert found["message"].iloc[0] == "rules.min_velocity_m_s = 2 lies outside the usual 0.2 to 1.5; expected m/s (2 ft/s is 0.61 m/s)"
     assert unusual_values(RuleSettings()) == []  # the defaults are usual
+
+
+def test_rules_in_us_units_are_the_same_settings() -> None:
+    # Source: NIST SP 811 (2008), appendix B: 1 ft = 0.3048 m, 1 in = 25.4 mm, 1 lbf/ft^2 = 47.880 Pa
+    us = RuleSettings.from_table(
+        {"min_velocity_ft_s": 2.0, "max_velocity_ft_s": 10.0, "min_shear_psf": 0.02, "min_cover_ft": 3.0, "min_diameter_in": 8,
+         "max_spacing_ft": [[0, 400], [18, 500]], "min_slope_by_in": [[8, 0.004], [12, 0.0022]]},
+        source="town.toml",
+    )  # fmt: skip
+    assert us.min_velocity == pytest.approx(0.6096)
+    assert us.max_velocity == pytest.approx(3.048)
+    assert us.min_shear == pytest.approx(0.02 * 47.880259, rel=1e-6)
+    assert us.min_cover_m == pytest.approx(0.9144)
+    assert us.min_diameter_mm == pytest.approx(203.2)
+    assert us.max_spacing_m.from_diameter_mm == pytest.approx((0.0, 457.2))
+    assert us.max_spacing_m.values == pytest.approx((121.92, 152.4))
+    assert us.min_slope is not None
+    assert us.min_slope.from_diameter_mm == pytest.approx((203.2, 304.8))
+    assert us.min_slope.values == (0.004, 0.0022)
+    back = as_table(us, US)
+    assert back["min_velocity_ft_s"] == pytest.approx(2.0)
+    assert back["max_spacing_ft"].values == pytest.approx((400.0, 500.0))  # type: ignore[attr-defined]
+    assert "min_velocity_m_s" not in back
