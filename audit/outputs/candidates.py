@@ -20,12 +20,12 @@ import pyarrow as pa
 import pyarrow.compute as pc
 import pyarrow.csv as pacsv
 
-from audit.rules import SEVERITY_ORDER
+from audit.rules import DEFAULT_SEVERITY, SEVERITY_ORDER
 from audit.units import SI, UnitSystem
 
 #: Columns of candidates.csv, in order.
 CANDIDATE_COLUMNS: tuple[str, ...] = (
-    "rank", "pipe_id", "severity", "flags", "reasons", "load_ratio", "depth_ratio", "v_design", "slope",
+    "rank", "pipe_id", "action", "severity", "flags", "reasons", "load_ratio", "depth_ratio", "v_design", "slope",
     "diameter_mm", "length_m", "upstream_length_m", "install_year", "material",
 )  # fmt: skip
 
@@ -37,6 +37,12 @@ DECIMALS: dict[str, int] = {
 
 
 _SOURCES = ("diameter", "height", "shape")  # canonical columns that diameter_mm is made from
+
+
+#: Flags that most often mean the register is wrong, not the pipe: such a pipe is data to verify
+#: before anything is renewed (docs/rules.md).
+VERIFY_FLAGS = frozenset({"reverse_grade", "zero_grade"})
+ACTIONS = ("consider renewal", "verify levels")
 
 
 def rank_candidates(pipes: pd.DataFrame, *, include_low: bool = False) -> pd.DataFrame:
@@ -57,12 +63,15 @@ def rank_candidates(pipes: pd.DataFrame, *, include_low: bool = False) -> pd.Dat
     chosen = np.flatnonzero(pipes["severity"].isin(wanted).to_numpy())
     used = [name for name in (*CANDIDATE_COLUMNS, *_SOURCES) if name in pipes.columns]
     picked = pipes[list(dict.fromkeys(used))].iloc[chosen]  # convert the candidates only, not every pipe
+    verify = _to_verify(picked, wanted)
     order = np.lexsort((
         chosen,
         _descending(_number(picked, "upstream_length_m")),
         _descending(_number(picked, "load_ratio")),
         -picked["severity"].map(rank_of).to_numpy(dtype=float),
+        verify,
     ))  # fmt: skip
+    picked = picked.assign(action=np.asarray(ACTIONS, dtype=object)[verify.astype(int)])
     table = pd.DataFrame({name: _ordered(picked, name, order) for name in CANDIDATE_COLUMNS[1:]})
     table.insert(0, "rank", np.arange(1, len(order) + 1))
     return table.round(dict(DECIMALS))
@@ -107,6 +116,21 @@ def _csv_column(values: pd.Series, *, whole: bool) -> pa.Array:
         return pa.array(values, from_pandas=True)
     except (pa.ArrowInvalid, pa.ArrowTypeError):  # mixed objects: write their text
         return pa.array(values.astype(str).where(values.notna(), None), from_pandas=True)
+
+
+def _to_verify(pipes: pd.DataFrame, wanted: tuple[str, ...]) -> np.ndarray:
+    """True where every flag of a listed severity is one of ``VERIFY_FLAGS``: levels to verify, not a pipe to renew.
+
+    A pipe is listed for its worst flag; it is data to verify when its flags at the listed
+    severities are all grade flags that most often are survey or register errors.
+    """
+    if "flags" not in pipes.columns:
+        return np.zeros(len(pipes), dtype=bool)
+    flags = pipes["flags"].astype(object).where(pipes["flags"].notna(), "").astype(str).to_numpy(dtype=object)
+    serious = {code for code, word in DEFAULT_SEVERITY.items() if word in wanted}
+    distinct, which = np.unique(flags, return_inverse=True)  # a handful of distinct flag sets
+    verdict = np.array([bool(set(text.split(";")) & serious) and set(text.split(";")) & serious <= VERIFY_FLAGS for text in distinct], dtype=bool)
+    return verdict[which.ravel()]
 
 
 def _descending(values: np.ndarray) -> np.ndarray:

@@ -51,3 +51,18 @@ def test_candidates_in_us_units_name_and_convert_their_columns(tmp_path: Path) -
         rows = list(csv.DictReader(handle))
     # Source: NIST SP 811 (2008), appendix B: 1 ft = 0.3048 m, 1 in = 25.4 mm, exactly
     assert rows == [{"rank": "1", "pipe_id": "P1", "v_design_ft_s": "2", "diameter_in": "8", "length_ft": "100", "upstream_length_ft": "1000"}]
+
+
+def test_pipes_whose_only_serious_flags_are_grades_come_after_as_levels_to_verify() -> None:
+    from audit.outputs.candidates import rank_candidates
+
+    pipes = pd.DataFrame({
+        "pipe_id": ["R", "S", "RS", "Z"],
+        "severity": ["high", "high", "high", "medium"],
+        "flags": ["reverse_grade", "surcharge", "surcharge;reverse_grade", "zero_grade;long_spacing"],
+        "load_ratio": [np.nan, 1.2, 1.4, np.nan],
+    })  # fmt: skip
+    table = rank_candidates(pipes)
+    # a reverse or zero grade is most often a survey error: verify the levels before renewing
+    assert table["pipe_id"].tolist() == ["RS", "S", "R", "Z"]
+    assert table["action"].tolist() == ["consider renewal", "consider renewal", "verify levels", "verify levels"]

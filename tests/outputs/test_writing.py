@@ -297,7 +297,7 @@ def test_candidates_file(tmp_path: Path) -> None:
     with _written(tmp_path)["candidates"].open(encoding="utf-8", newline="") as handle:
         rows = list(csv.DictReader(handle))
     assert list(rows[0]) == [
-        "rank", "pipe_id", "severity", "flags", "reasons", "load_ratio", "depth_ratio", "v_design_m_s", "slope",
+        "rank", "pipe_id", "action", "severity", "flags", "reasons", "load_ratio", "depth_ratio", "v_design_m_s", "slope",
         "diameter_mm", "length_m", "upstream_length_m", "install_year", "material",
     ]  # fmt: skip
     assert [row["severity"] for row in rows] == ["high", "medium"]
