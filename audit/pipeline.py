@@ -120,6 +120,7 @@ def run(config: Config | str | Path, *, progress: bool = False) -> AuditResult:
             findings=ready.findings,
             capacity=full_bore(hydraulics.sections, hydraulics.slope, hydraulics.friction)[0],
             carries=kind != "overflow",
+            collects=np.isin(kind, JUDGED_KINDS),
         )
         _step(bar, 4)
         state = normal_depth(flows.q_design, hydraulics.sections, hydraulics.slope, hydraulics.friction, temperature_c=hydraulics.temperature_c)

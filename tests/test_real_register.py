@@ -115,9 +115,9 @@ def _served_bounds(town: Audited) -> pd.DataFrame:
     """Persons upstream of every flow-carrying pipe, by an accumulation written here with networkx.
 
     The persons of each manhole plus `persons_per_km` x the length of every pipe at its upstream
-    node. Which pipes count as sewer for the per-km load, and which length (the field or the
-    drawing) it takes, the documentation leaves open: the lower bound counts gravity and private
-    pipes at the shorter length, the upper bound every pipe in the network at the longer one.
+    node. Only gravity and private pipes take in sewage along their length (docs/config.md,
+    `persons_per_km`); which length (the field or the drawing) it takes, the documentation leaves
+    open: the lower bound counts the shorter length, the upper bound the longer one.
     A loop is one node (docs/config.md, "Loops"); no node has two outgoing pipes that carry flow.
     """
     register = town.register
@@ -125,11 +125,11 @@ def _served_bounds(town: Audited) -> pd.DataFrame:
     typed = pd.Series(register.length_ft) * FT_M
     shorter, longer = np.fmin(drawn, typed), np.fmax(drawn, typed)
     carrying = [p for p in register.pipe_ids if register.kinds[p] in CARRYING and p != register.self_loop]
-    in_network = [p for p in register.pipe_ids if register.kinds[p] != "abandoned"]
+    collecting = [p for p in carrying if register.kinds[p] in ("gravity", "private")]
     graph = nx.DiGraph([register.links[p] for p in carrying])
-    for bound, pipes, length in (("low", [p for p in carrying if register.kinds[p] != "rising_main"], shorter), ("high", in_network, longer)):
+    for bound, length in (("low", shorter), ("high", longer)):
         load = {n: float(register.persons.get(n, 0)) for n in graph.nodes}  # a stub's head has no persons of its own
-        for pipe in pipes:
+        for pipe in collecting:
             load[register.links[pipe][0]] += PERSONS_PER_KM * length[pipe] / 1000.0
         nx.set_node_attributes(graph, load, bound)
     condensed = nx.condensation(graph)
@@ -194,7 +194,9 @@ def test_the_rising_main_carries_the_pump_station_catchment_to_main_a(town: Audi
     assert rising["flags"] == ""
     assert rising["hydraulic_status"] == "pressure_pipe"  # docs/outputs.md: not judged by the gravity rules
     assert rising["q_design"] >= pipes.loc[into_pump, "q_design"].max()
-    assert rising["population_served"] >= pipes.loc[into_pump, "population_served"].sum()
+    # a rising main is sealed: it adds no persons per km of its own (docs/config.md)
+    at_pump = register.persons.get(register.pump_station, 0) + pipes.loc[into_pump, "population_served"].sum()
+    assert rising["population_served"] == pytest.approx(at_pump, rel=1e-12)
     # walk main A from where the rising main delivers down to the outfall
     node, walked = register.links[register.rising_main][1], []
     while node != "OF-1":

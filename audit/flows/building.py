@@ -62,7 +62,8 @@ def flow_carrier(network: Network, *, capacity: Array | None = None, carries: ND
 
 def built_flows(network: Network, *, manholes: pd.DataFrame | None, catchments: pd.DataFrame | None, given_flow: Array,
                 pipes: PipeHydraulics, pipe_labels: NDArray[np.object_], options: FlowOptions, findings: FindingLog,
-                capacity: Array | None = None, carries: NDArray[np.bool_] | None = None) -> DesignFlows:  # fmt: skip
+                capacity: Array | None = None, carries: NDArray[np.bool_] | None = None,
+                collects: NDArray[np.bool_] | None = None) -> DesignFlows:  # fmt: skip
     """Design flow per pipe as ``[flows]`` says, with its parts when built from the catchment.
 
     Parameters
@@ -76,6 +77,9 @@ def built_flows(network: Network, *, manholes: pd.DataFrame | None, catchments: 
     findings : the log of data problems
     capacity : full-bore capacity per pipe [m^3/s], for the shares at a split (None: equal shares)
     carries : pipes that may carry flow (False for overflow pipes); None: every placed pipe
+    collects : pipes that take in sewage and groundwater along their length (gravity and private
+        sewers; not rising mains or siphons, which run sealed under pressure): only their
+        length counts for ``persons_per_km`` and for infiltration per km. None: every pipe
 
     Returns
     -------
@@ -90,11 +94,12 @@ def built_flows(network: Network, *, manholes: pd.DataFrame | None, catchments: 
                          left_out=network.left_out, pipe_labels=pipe_labels, node_labels=node_labels, findings=findings)  # fmt: skip
     if not built:
         return shape
+    collecting_length = pipes.length if collects is None else np.where(collects, pipes.length, 0.0)
     loads = node_loads(nodes, manholes, catchments, options=options, findings=findings,
-                       pipe_upstream=np.where(carrier.usable, network.upstream, -1), pipe_length=pipes.length)  # fmt: skip
+                       pipe_upstream=np.where(carrier.usable, network.upstream, -1), pipe_length=collecting_length)  # fmt: skip
     _report_outfall_catchments(network, loads.catchment_node, catchments, findings=findings)
     loads = replace(loads, population=options.population_growth * loads.population)  # the design horizon's population
-    sanitary = sanitary_flows(carrier, loads, length=pipes.length, options=options)
+    sanitary = sanitary_flows(carrier, loads, length=collecting_length, options=options)
     given = np.isfinite(given_flow) & (given_flow >= 0) & carrier.usable
     q_storm, tc, passes, storm_own = _storm(carrier, catchments, loads.catchment_node, pipes, base=sanitary.q_sanitary + sanitary.q_infiltration,
                                              given=np.where(given, given_flow, np.nan), options=options, findings=findings)  # fmt: skip
