@@ -40,18 +40,26 @@ def _chain(multi: shapely.MultiLineString) -> tuple[shapely.LineString, str]:
     parts = [part for part in shapely.get_parts(multi) if not part.is_empty and part.length > 0]
     coordinates: list[np.ndarray] = []
     gaps: list[float] = []
+    turned = 0
     for part in parts:
         xy = np.asarray(part.coords)[:, :2]
         if coordinates:
             end = coordinates[-1][-1]
             if np.hypot(*(xy[-1] - end)) < np.hypot(*(xy[0] - end)):
-                xy = xy[::-1]
+                xy, turned = xy[::-1], turned + 1
             gaps.append(float(np.hypot(*(xy[0] - end))))
+            if gaps[-1] == 0.0:
+                xy = xy[1:]  # the shared vertex once, not twice
         coordinates.append(xy)
     line = shapely.linestrings(np.concatenate(coordinates)) if coordinates else None
     lengths = ", ".join(f"{part.length:.2f}" for part in parts)
-    message = (f"the line has {len(parts)} parts that do not join (lengths {lengths} m, {sum(p.length for p in parts):.2f} m in all; "
-               f"gaps {', '.join(f'{gap:.2f}' for gap in gaps)} m); the parts are joined in order across the gaps")
+    total = f"lengths {lengths} m, {sum(p.length for p in parts):.2f} m in all"
+    if max(gaps, default=0.0) < 0.005:  # touching once turned: only the drawing direction of a part differs
+        message = (f"the line has {len(parts)} parts drawn in different directions ({total}); {turned} "
+                   f"{'part was' if turned == 1 else 'parts were'} turned to follow the first and they are joined into one line")
+    else:
+        message = (f"the line has {len(parts)} parts that do not join ({total}; gaps {', '.join(f'{gap:.2f}' for gap in gaps)} m); "
+                   "the parts are joined in order across the gaps")
     return line, message
 
 

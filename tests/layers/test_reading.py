@@ -196,7 +196,9 @@ def test_multipart_lines_are_merged_or_chained_across_their_gaps(
     joined = MultiLineString([[(0, 0), (10, 0)], [(10, 0), (10, 5)]])
     # three parts that do not join; the third is drawn backwards against the second's end
     apart = MultiLineString([[(0, 0), (3, 0)], [(50, 0), (50, 20)], [(61, 0), (60, 0)]])
-    frame = gpd.GeoDataFrame({"REF": ["J", "S"], "LEN": [15.0, 24.0]}, geometry=[joined, apart], crs=UTM)
+    # two parts that touch, the second drawn backwards: no gap, only a direction to set right
+    turned = MultiLineString([[(0, 0), (10, 0)], [(10, 8), (10, 0)]])
+    frame = gpd.GeoDataFrame({"REF": ["J", "S", "T"], "LEN": [15.0, 24.0, 18.0]}, geometry=[joined, apart, turned], crs=UTM)
     path = _write(frame, tmp_path, "pipes", "gpkg")
     unchanged()
     layers, findings = _read(make_config(_pipes_config(path, '[pipes.fields]\nid = "REF"\nlength = "LEN"\n')))
@@ -205,14 +207,17 @@ def test_multipart_lines_are_merged_or_chained_across_their_gaps(
     # chained in stored order; the third part is turned so that it starts nearer (50, 20)
     assert geometry.iloc[1].equals(LineString([(0, 0), (3, 0), (50, 0), (50, 20), (60, 0), (61, 0)]))
     # the drawn length is the total of the parts, without the gaps: 3 + 20 + 1 m
-    assert layers.pipes.canonical["drawn_length"].tolist() == [15.0, 24.0]
+    assert list(geometry.iloc[2].coords) == [(0, 0), (10, 0), (10, 8)]
+    assert layers.pipes.canonical["drawn_length"].tolist() == [15.0, 24.0, 18.0]
     found = findings.to_frame()
-    assert found[["feature", "code"]].values.tolist() == [["S", "multipart_line"]]
+    assert found[["feature", "code"]].values.tolist() == [["S", "multipart_line"], ["T", "multipart_line"]]
     gap = float(np.hypot(10.0, 20.0))  # from (50, 20) to (60, 0)
-    assert found["message"].iloc[0] == (
+    assert found["message"].tolist() == [
         "the line has 3 parts that do not join (lengths 3.00, 20.00, 1.00 m, 24.00 m in all; "
-        f"gaps 47.00, {gap:.2f} m); the parts are joined in order across the gaps"
-    )
+        f"gaps 47.00, {gap:.2f} m); the parts are joined in order across the gaps",
+        "the line has 2 parts drawn in different directions (lengths 10.00, 8.00 m, 18.00 m in all); "
+        "1 part was turned to follow the first and they are joined into one line",
+    ]
     unchanged()
 
 
