@@ -29,7 +29,7 @@ def register_tables(nodes: pd.DataFrame, pipes: pd.DataFrame) -> tuple[pd.DataFr
     flow = np.full(len(pipes), np.nan)
     flow[given] = np.round(pipes["flow"].to_numpy()[given] * SURVEY_MARGIN, 1)
     table = pd.DataFrame({
-        "asset_ref": np.char.add(refs[up].astype(str), ".1"), "mh_up": refs[up], "mh_down": refs[dn],
+        "asset_ref": np.char.add("P", np.char.zfill(np.arange(1, len(pipes) + 1).astype(str), 4)), "mh_up": refs[up], "mh_down": refs[dn],
         "profile": np.where(egg, "OV", "C"),
         "bore_mm": np.where(egg, np.nan, span), "rise_mm": np.where(egg, span * EGG_RISE_RATIO, np.nan),
         "span_mm": np.where(egg, span, np.nan),
