@@ -68,7 +68,7 @@ def test_flags_and_numbers_match_an_independent_computation(tmp_path: Path, driv
         assert row["load_ratio"] == pytest.approx(DESIGN_FLOW_LS[ref] / 1000 / expected["q_full"], rel=1e-6)
     assert pipes.loc["P3", "severity"] == "high"
     assert pipes.loc["P2", "severity"] == "high"
-    assert pipes.loc["P1", "severity"] == ""
+    assert pipes.loc["P1", "severity"] == "none"
     assert result.totals["outfalls"] == 1
     assert result.totals["pipes"] == 5
     # the reasons carry the numbers: P3's load ratio by hand

@@ -10,6 +10,7 @@ terminal table), ``candidates`` (candidates.csv).
 
 from audit.outputs.candidates import (
     CANDIDATE_COLUMNS,
+    candidate_rows,
     rank_candidates,
     write_candidates,
 )
@@ -25,6 +26,7 @@ __all__ = [
     "CANDIDATE_COLUMNS",
     "OUTPUT_FILES",
     "build_summary",
+    "candidate_rows",
     "code_totals",
     "print_summary_table",
     "rank_candidates",

@@ -58,11 +58,26 @@ def rank_candidates(pipes: pd.DataFrame, *, include_low: bool = False) -> pd.Dat
     -------
     one row per candidate, best first; ``rank`` counts from 1; numbers rounded per ``DECIMALS``
     """
+    rows, action = candidate_rows(pipes, include_low=include_low)
+    used = [name for name in (*CANDIDATE_COLUMNS, *_SOURCES) if name in pipes.columns]
+    picked = pipes[list(dict.fromkeys(used))].iloc[rows].assign(action=action)  # convert the candidates only, not every pipe
+    table = pd.DataFrame({name: _output_column(picked, name) for name in CANDIDATE_COLUMNS[1:]})
+    table.insert(0, "rank", np.arange(1, len(rows) + 1))
+    return table.round(dict(DECIMALS))
+
+
+def candidate_rows(pipes: pd.DataFrame, *, include_low: bool = False) -> tuple[np.ndarray, np.ndarray]:
+    """Row positions of the candidates in ``pipes``, best first, and the action of each.
+
+    The one ranking behind candidates.csv and the report's table: pipes whose worst flag is
+    medium or high (low too with ``include_low``); ``consider renewal`` before ``verify levels``;
+    then worst severity, load ratio and upstream length (descending, unknown last); ties keep
+    the input order.
+    """
     wanted = SEVERITY_ORDER if include_low else SEVERITY_ORDER[1:]
     rank_of = {word: place for place, word in enumerate(SEVERITY_ORDER, start=1)}
     chosen = np.flatnonzero(pipes["severity"].isin(wanted).to_numpy())
-    used = [name for name in (*CANDIDATE_COLUMNS, *_SOURCES) if name in pipes.columns]
-    picked = pipes[list(dict.fromkeys(used))].iloc[chosen]  # convert the candidates only, not every pipe
+    picked = pipes.iloc[chosen]
     verify = _to_verify(picked, wanted)
     order = np.lexsort((
         chosen,
@@ -71,10 +86,7 @@ def rank_candidates(pipes: pd.DataFrame, *, include_low: bool = False) -> pd.Dat
         -picked["severity"].map(rank_of).to_numpy(dtype=float),
         verify,
     ))  # fmt: skip
-    picked = picked.assign(action=np.asarray(ACTIONS, dtype=object)[verify.astype(int)])
-    table = pd.DataFrame({name: _ordered(picked, name, order) for name in CANDIDATE_COLUMNS[1:]})
-    table.insert(0, "rank", np.arange(1, len(order) + 1))
-    return table.round(dict(DECIMALS))
+    return chosen[order], np.asarray(ACTIONS, dtype=object)[verify[order].astype(int)]
 
 
 #: The candidate columns that carry a unit: their name without it, their quantity, and the
@@ -163,11 +175,11 @@ def _pipe_ids(pipes: pd.DataFrame) -> np.ndarray:
     return ("#" + pd.RangeIndex(len(pipes)).astype(str)).to_numpy(dtype=object)
 
 
-def _ordered(pipes: pd.DataFrame, name: str, order: np.ndarray) -> np.ndarray | pd.Series:
-    """One output column in rank order; a column of strings is taken as it is (no object round trip)."""
+def _output_column(pipes: pd.DataFrame, name: str) -> np.ndarray | pd.Series:
+    """One output column; a column of strings is taken as it is (no object round trip)."""
     if name in pipes.columns and name not in DECIMALS and isinstance(pipes[name].dtype, pd.StringDtype):
-        return pipes[name].iloc[order].reset_index(drop=True)
-    return _column(pipes, name)[order]
+        return pipes[name].reset_index(drop=True)
+    return _column(pipes, name)
 
 
 def _column(pipes: pd.DataFrame, name: str) -> np.ndarray:

@@ -21,7 +21,7 @@ import pandas as pd
 
 from audit.about import CAUTION, __version__
 from audit.result import AuditResult
-from audit.rules import FLAG_CODES, SEVERITY_ORDER, DiameterTable, RuleSettings, as_table
+from audit.rules import FLAG_CODES, SEVERITY_NONE, SEVERITY_ORDER, DiameterTable, RuleSettings, as_table
 from audit.units import SI, UNIT_SIZES, UnitSystem
 
 #: Feature ids listed per finding code in summary.json.
@@ -112,7 +112,7 @@ def severity_counts(pipes: pd.DataFrame) -> dict[str, int]:
     """Number of pipes per worst severity, most serious first, plus ``none`` for unflagged pipes."""
     worst = pipes["severity"].fillna("").astype(str)
     counts = {word: int((worst == word).sum()) for word in reversed(SEVERITY_ORDER)}
-    counts["none"] = int((worst == "").sum())
+    counts[SEVERITY_NONE] = int(worst.isin([SEVERITY_NONE, ""]).sum())
     return counts
 
 

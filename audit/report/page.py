@@ -188,14 +188,15 @@ def _candidates(pipes: pd.DataFrame, *, id_field: str | None, units: UnitSystem)
     length, upstream = (units.convert(ranked[name].to_numpy(dtype=float), "length") for name in ("length_m", "upstream_length_m"))
     size_digits = 0 if units.unit("size") == "mm" else 1
     rows = [
-        (cell(rank), cell(row.pipe), cell(row.from_to), cell(row.severity), cell(row.load_ratio, digits=2), cell(height[rank - 1], digits=size_digits),
+        (cell(rank), cell(row.pipe), cell(row.from_to), cell(row.action), cell(row.severity), cell(row.load_ratio, digits=2), cell(height[rank - 1], digits=size_digits),
          cell(length[rank - 1], digits=1), cell(upstream[rank - 1], digits=0), cell(row.reasons))
         for rank, row in enumerate(ranked.itertuples(index=False), start=1)
     ]  # fmt: skip
-    headers = ("#", "Pipe", "From \u2192 to", "Severity", "Load ratio", f"Height [{units.unit('size')}]", f"Length [{units.unit('length')}]",
+    headers = ("#", "Pipe", "From \u2192 to", "Action", "Severity", "Load ratio", f"Height [{units.unit('size')}]", f"Length [{units.unit('length')}]",
                f"Upstream [{units.unit('length')}]", "Reasons")  # fmt: skip
-    note = paragraph("Ranked by worst severity, then load ratio, then length of network upstream.", class_="note")
-    return table(headers, rows, numeric=(True, False, False, False, True, True, True, True, False), id="candidate-table") + note
+    note = paragraph("The first rows of candidates.csv: pipes whose worst flag is medium or high, those to renew before those "
+                     "whose levels to verify, then by worst severity, load ratio and length of network upstream.", class_="note")
+    return table(headers, rows, numeric=(True, False, False, False, False, True, True, True, True, False), id="candidate-table") + note
 
 
 def _findings(findings: pd.DataFrame) -> str:

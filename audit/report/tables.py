@@ -17,7 +17,7 @@ import numpy as np
 import pandas as pd
 
 from audit.errors import InputError
-from audit.outputs import code_totals
+from audit.outputs import candidate_rows, code_totals
 from audit.rules import FLAG_CODES, SEVERITY_ORDER
 
 #: Map classes from the most urgent to the least, with the words the legend uses.
@@ -96,23 +96,16 @@ def pipe_labels(pipes: pd.DataFrame, rows: np.ndarray, *, id_field: str | None) 
 
 
 def renewal_candidates(pipes: pd.DataFrame, *, id_field: str | None, limit: int = 20) -> pd.DataFrame:
-    """The ``limit`` flagged pipes most in need of a look, best first.
-
-    Ranked by worst severity (high first), then load ratio, then length of network upstream
-    (both descending, unknown last); ties keep the input order.
-    """
-    rank = {word: place for place, word in enumerate(SEVERITY_ORDER, start=1)}
+    """The first ``limit`` rows of candidates.csv: the same pipes in the same order, with the action."""
+    rows, action = candidate_rows(pipes)
+    rows, action = rows[:limit], action[:limit]
     severity = texts(pipes, "severity")
-    flagged = np.flatnonzero(severity.isin(list(rank)).to_numpy())
-    keys = [flagged]
-    keys += [np.nan_to_num(-numeric(pipes, name)[flagged], nan=np.inf) for name in ("upstream_length_m", "load_ratio")]
-    keys.append(-severity.iloc[flagged].map(rank).to_numpy(dtype=float))
-    rows = flagged[np.lexsort(keys)][:limit]
     chosen = pipes.iloc[rows]
     return pd.DataFrame(
         {
             "pipe": pipe_labels(pipes, rows, id_field=id_field),
             "from_to": (texts(chosen, "from_node_id") + " \u2192 " + texts(chosen, "to_node_id")).to_numpy(dtype=object),
+            "action": action,
             "severity": severity.to_numpy(dtype=object)[rows],
             "load_ratio": numeric(chosen, "load_ratio"),
             "height_mm": numeric(chosen, "height_m") * 1000.0,

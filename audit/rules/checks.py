@@ -26,6 +26,7 @@ from audit.rules.access import access_runs, run_totals
 from audit.rules.settings import (
     FLAG_CODES,
     SEVERITY_OFF,
+    SEVERITY_NONE,
     SEVERITY_ORDER,
     RuleSettings,
 )
@@ -81,7 +82,7 @@ def check_pipes(
     Returns
     -------
     DataFrame on the index of ``metrics`` with ``flags`` (codes joined by ";", "" when none),
-    ``severity`` (the worst, "" when none), ``reasons`` (joined by "; ") and ``access_run_m``,
+    ``severity`` (the worst, ``none`` when no flag), ``reasons`` (joined by "; ") and ``access_run_m``,
     the length of pipe [m] between the access points around each pipe.
     """
     columns = _columns(metrics)
@@ -120,14 +121,14 @@ def worst_severity_at_least(severity_column: pd.Series | np.ndarray, threshold: 
 
     Examples
     --------
-    >>> worst_severity_at_least(np.array(["", "low", "medium", "high"]), "medium").tolist()
+    >>> worst_severity_at_least(np.array(["none", "low", "medium", "high"]), "medium").tolist()
     [False, False, True, True]
     """
     if threshold not in SEVERITY_ORDER:
         raise ConfigError(f"severity threshold: expected one of {', '.join(SEVERITY_ORDER)}, got {threshold!r}")
     rank = {word: place for place, word in enumerate(SEVERITY_ORDER, start=1)}
-    words = pd.Series(np.asarray(severity_column, dtype=object)).fillna("")
-    unknown = ~words.isin([*rank, ""])
+    words = pd.Series(np.asarray(severity_column, dtype=object)).fillna(SEVERITY_NONE)
+    unknown = ~words.isin([*rank, SEVERITY_NONE, ""])
     if unknown.any():
         raise ValueError(f"severity column holds {words[unknown].iloc[0]!r}, not one of {', '.join(SEVERITY_ORDER)}")
     return words.map(rank).fillna(0).to_numpy(dtype=float) >= rank[threshold]
@@ -367,7 +368,7 @@ def _assemble(
     return pd.DataFrame(
         {
             "flags": pd.array(flags, dtype="str"),
-            "severity": pd.array(pick(("", *SEVERITY_ORDER), rank), dtype="str"),
+            "severity": pd.array(pick((SEVERITY_NONE, *SEVERITY_ORDER), rank), dtype="str"),
             "reasons": pd.array(join(list(live.values()), sep="; ", count=count), dtype="str"),
             "access_run_m": run_length,
         },

@@ -18,8 +18,11 @@ import numpy as np
 from audit.errors import ConfigError
 from audit.units import SI, UNIT_SIZES, US, UnitSystem, to_si
 
-#: Severity words from the least to the most serious; "" in an output column means no flag.
+#: Severity words from the least to the most serious.
 SEVERITY_ORDER: tuple[str, ...] = ("low", "medium", "high")
+
+#: The severity word of a pipe without a flag, the same in every output.
+SEVERITY_NONE = "none"
 
 #: A severity override of "off" switches a flag off entirely.
 SEVERITY_OFF = "off"

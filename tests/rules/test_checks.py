@@ -58,7 +58,7 @@ def check(
 
 def test_healthy_pipe_has_no_flag() -> None:
     result = check(metrics())
-    assert result.loc[0, ["flags", "severity", "reasons"]].tolist() == ["", "", ""]
+    assert result.loc[0, ["flags", "severity", "reasons"]].tolist() == ["", "none", ""]
 
 
 def test_surcharge_reason_carries_the_numbers() -> None:
@@ -294,7 +294,7 @@ def test_severity_override_and_off() -> None:
                                        source="t.toml").severity  # fmt: skip
     result = check(frame, severity=severity)
     assert result["flags"].tolist() == ["shallow_cover", ""]
-    assert result["severity"].tolist() == ["high", ""]
+    assert result["severity"].tolist() == ["high", "none"]
 
 
 def test_severity_order_and_fail_on_masks() -> None:
