@@ -45,7 +45,7 @@ Writes into OUTDIR:
   report.html      one self-contained page for readers without a GIS: map, charts, tables
 Field names and units: docs/outputs.md."""
 
-DEMO_CONFIG = Path(__file__).resolve().parent.parent / "sample_gis" / "town.toml"
+DEMO_CONFIG = Path(__file__).resolve().parent / "sample_gis" / "town.toml"  # a link to sample_gis/ in a checkout; files in a wheel
 
 DESCRIPTION = f"""\
 Screen a gravity sewer network held as GIS layers (pipes as lines, manholes as points).
@@ -169,7 +169,7 @@ def _audit_command(args: argparse.Namespace) -> int:
 
     config = Path(args.config) if args.command == "run" else DEMO_CONFIG
     if args.command == "demo" and not config.exists():
-        raise InputError(f"{config}: the bundled sample is missing; run `python scripts/make_sample_gis.py` from a source checkout")
+        raise InputError(f"{config}: the bundled sample is missing; reinstall sewer-audit, or run `python scripts/make_sample_gis.py` in a source checkout")
     show = not args.quiet and sys.stderr.isatty()
     result = run(config, progress=show)
     created = datetime.now(UTC)  # one time stamp for every output of the run
