@@ -29,6 +29,7 @@ from audit.hydraulics.sections import (
     TabulatedSection,
     Trapezoidal,
     register_section,
+    section_names,
 )
 from audit.hydraulics.settings import FORMULAS, WATER_TEMPERATURE_RANGE_C, HydraulicsOptions, parse_hydraulics
 from audit.hydraulics.uniform import (
@@ -67,6 +68,7 @@ __all__ = [
     "normal_depth",
     "parse_hydraulics",
     "register_section",
+    "section_names",
     "required_slope",
     "smallest_diameter",
     "water_density",

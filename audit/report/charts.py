@@ -27,7 +27,12 @@ from audit.report.svg import (
 _AXIS = {"stroke": "#555", "stroke_width": 1}
 _GRID = {"stroke": "#e3e3e3", "stroke_width": 1}
 _SEVERITY_COLOURS = {word: CLASS_COLOURS[word] for word in ("high", "medium", "low")}
-_CURVE_DASH = {"circular": None, "egg": "6 4"}
+_CURVE_DASHES = (None, "6 4", "2 3", "10 3 2 3")
+
+
+def _dash(place: int) -> str | None:
+    """The dash pattern of the ``place``-th curve: solid, then dashed, dotted, dash-dotted."""
+    return _CURVE_DASHES[place % len(_CURVE_DASHES)]
 #: Scatter marks are 6 px round dots; one per occupied 1 px cell draws the same picture.
 SCATTER_CELL_PX = 1.0
 
@@ -88,9 +93,9 @@ def part_full_chart(
     """
     plot = Plot(left=56, top=16, width=620, height=360, x_range=(0.0, x_max), y_range=(0.0, 1.0))
     parts = [plot.axes(x_ticks=np.arange(0, x_max + 1e-9, 0.25), y_ticks=np.arange(0, 1.01, 0.2), x_title="load ratio Q/Qf [-]", y_title="depth ratio y/H [-]")]
-    for name, (depth, ratio) in curves.items():
+    for place, (name, (depth, ratio)) in enumerate(curves.items()):
         cx, cy = plot.px(ratio, depth)
-        parts.append(element("path", d=line_path_data(cx, cy, np.zeros(cx.size)), fill="none", stroke="#222", stroke_width=1.5, stroke_dasharray=_CURVE_DASH.get(name), data_curve=name))
+        parts.append(element("path", d=line_path_data(cx, cy, np.zeros(cx.size)), fill="none", stroke="#222", stroke_width=1.5, stroke_dasharray=_dash(place), data_curve=name))
     shown = np.isfinite(load_ratio) & np.isfinite(depth_ratio)
     x, y = plot.px(np.clip(load_ratio, 0.0, x_max), np.clip(depth_ratio, 0.0, 1.0))
     for name in reversed(list(CLASS_COLOURS)):
@@ -105,7 +110,7 @@ def _curve_key(curves: Mapping[str, tuple[Array, Array]], *, x: float, y: float)
     rows = []
     for place, name in enumerate(curves):
         yy = y + place * 20
-        rows.append(segment(x, yy - 4, x + 28, yy - 4, stroke="#222", stroke_width=1.5, stroke_dasharray=_CURVE_DASH.get(name)))
+        rows.append(segment(x, yy - 4, x + 28, yy - 4, stroke="#222", stroke_width=1.5, stroke_dasharray=_dash(place)))
         rows.append(label(x + 34, yy, f"{name} (Manning)"))
     return element("g", "".join(rows), font_size=12, fill="#333")
 

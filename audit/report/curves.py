@@ -19,22 +19,22 @@ References
 from __future__ import annotations
 
 import numpy as np
-from numpy.typing import NDArray
+from numpy.typing import ArrayLike, NDArray
 
-from audit.hydraulics import Circular, Egg, Section
+from audit.hydraulics import PipeSections, section_names
 
 Array = NDArray[np.float64]
 
-#: Shapes whose curve the report draws, with the width-to-height ratio of each.
-CURVE_SHAPES: dict[str, tuple[Section, float]] = {"circular": (Circular(), 1.0), "egg": (Egg(), 2.0 / 3.0)}
+#: The width-to-height ratio of shapes whose proportions are fixed by their name.
+FIXED_WIDTH_RATIO: dict[str, float] = {"circular": 1.0, "egg": 2.0 / 3.0}
 
 
-def part_full_curve(section: Section, *, width_ratio: float = 1.0, points: int = 401) -> tuple[Array, Array]:
+def part_full_curve(shape: str, *, width_ratio: float = 1.0, points: int = 401) -> tuple[Array, Array]:
     r"""Relative depth :math:`y/H` [-] and relative discharge :math:`Q/Q_f` [-] of a section.
 
     Parameters
     ----------
-    section : the section shape (``audit.sections``)
+    shape : a registered section name (``audit.hydraulics.section_names``)
     width_ratio : width over height of the section [-]
     points : number of relative depths from 0 to 1
 
@@ -44,19 +44,41 @@ def part_full_curve(section: Section, *, width_ratio: float = 1.0, points: int =
 
     Examples
     --------
-    >>> depth, ratio = part_full_curve(Circular(), points=3)  # empty, half full, full
+    >>> depth, ratio = part_full_curve("circular", points=3)  # empty, half full, full
     >>> [round(float(value), 3) for value in ratio]
     [0.0, 0.5, 1.0]
     """
     eta = np.linspace(0.0, 1.0, points)
-    unit = np.ones_like(eta)
-    area, perimeter, _ = section.elements(eta, unit, unit * width_ratio)
-    full_area, full_perimeter = section.full(np.array(1.0), np.array(width_ratio))
+    sections = PipeSections.from_names(np.full(points, shape), np.ones(points), np.full(points, width_ratio))
+    area, perimeter, _ = sections.elements(eta)
+    full_area, full_perimeter = sections.full()
     with np.errstate(invalid="ignore", divide="ignore"):
         radius_ratio = np.where(perimeter > 0, (area / perimeter) / (full_area / full_perimeter), 0.0)
     return eta, area / full_area * radius_ratio ** (2.0 / 3.0)
 
 
-def report_curves(*, points: int = 401) -> dict[str, tuple[Array, Array]]:
-    """The part-full curve of every shape in ``CURVE_SHAPES``, by name."""
-    return {name: part_full_curve(section, width_ratio=ratio, points=points) for name, (section, ratio) in CURVE_SHAPES.items()}
+def report_curves(shape: ArrayLike, height: ArrayLike, width: ArrayLike, *, points: int = 401) -> dict[str, tuple[Array, Array]]:
+    """The part-full curve of every shape among the pipes, by a label naming it.
+
+    A shape whose proportions vary (a box, an open channel) is drawn at the median
+    width-to-height ratio of its pipes, and the label says which. Pipes of an unknown shape or
+    size add no curve.
+
+    Examples
+    --------
+    >>> sorted(report_curves(["rectangular", "rectangular", "circular"], [1.0, 1.0, 0.3], [1.5, 2.5, 0.3]))
+    ['circular', 'rectangular, B/H 2']
+    """
+    names = np.asarray(shape, dtype=object)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        ratio = np.asarray(width, dtype=float) / np.asarray(height, dtype=float)
+    curves = {}
+    for name in sorted({str(value) for value in names if isinstance(value, str) and value in section_names()}):
+        fixed = FIXED_WIDTH_RATIO.get(name)
+        usable = ratio[(names == name) & np.isfinite(ratio) & (ratio > 0)]
+        if fixed is None and usable.size == 0:
+            continue
+        width_ratio = fixed if fixed is not None else float(np.median(usable))
+        label = name if fixed is not None else f"{name}, B/H {width_ratio:.3g}"
+        curves[label] = part_full_curve(name, width_ratio=width_ratio, points=points)
+    return curves

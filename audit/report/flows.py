@@ -56,7 +56,7 @@ def flows_section(pipes: pd.DataFrame, assumptions: Mapping[str, Any] | None, *,
         rows.append([cell(row["to_node_id"]), *values])
     headers = ("Outfall", *(heading if quantity is None else f"{heading} [{units.unit(quantity)}]" for _, heading, quantity, _ in parts))
     outfalls = table(headers, rows, numeric=(False, *([True] * len(parts))), id="outfall-table")
-    settings = [(cell(key), cell(value)) for key, value in _flat(assumptions or {})]
+    settings = [(cell(key), cell(value)) for key, value in _flat(used_flow_settings(assumptions or {}))]
     more = f" The {MAX_OUTFALLS} largest of {positions.size} outfall pipes are shown." if positions.size > MAX_OUTFALLS else ""
     note = paragraph(f"Flow arriving at each outfall, by part; the assumptions below built them (docs/methods.md).{more}", class_="note")
     return outfalls + note + table(("Assumption", "Value"), settings, id="flow-assumptions")
@@ -67,6 +67,30 @@ def _shown(value: float, quantity: str | None, units: UnitSystem) -> float | Non
     if not np.isfinite(value):
         return None
     return value if quantity is None else float(units.convert(value, quantity))
+
+
+def used_flow_settings(settings: Mapping[str, Any]) -> dict[str, Any]:
+    """The flow assumptions without those another setting made unused.
+
+    ``peaking_factor`` only for ``peaking = "constant"``, ``peaking_table`` only for a table,
+    ``min_peaking_population`` only for a formula; the rainfall's ``a``, ``b``, ``c`` or its
+    ``table``, whichever was given.
+
+    Examples
+    --------
+    >>> used_flow_settings({"peaking": "harmon", "peaking_factor": 3.0, "peaking_table": (), "min_peaking_population": 1000.0,
+    ...                     "rainfall": {"a": 330.0, "b": 6.0, "c": 0.85, "table": ()}})
+    {'peaking': 'harmon', 'min_peaking_population': 1000.0, 'rainfall': {'a': 330.0, 'b': 6.0, 'c': 0.85}}
+    """
+    peaking = settings.get("peaking")
+    unused = {"peaking_factor"} if peaking != "constant" else {"min_peaking_population"}
+    unused |= {"peaking_table"} if not settings.get("peaking_table") else {"min_peaking_population"}
+    used = {key: value for key, value in settings.items() if key not in unused}
+    rainfall = settings.get("rainfall")
+    if isinstance(rainfall, Mapping):
+        dropped = {"a", "b", "c"} if rainfall.get("table") else {"table"}
+        used["rainfall"] = {key: value for key, value in rainfall.items() if key not in dropped}
+    return used
 
 
 def _flat(settings: Mapping[str, Any], prefix: str = "") -> list[tuple[str, Any]]:

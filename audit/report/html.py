@@ -14,13 +14,23 @@ def cell(value: object, *, digits: int | None = None) -> str:
 
     Examples
     --------
-    >>> cell("<W1>"), cell(float("nan")), cell(1234.5678, digits=1), cell(12)
-    ('&lt;W1&gt;', '\u2013', '1,234.6', '12')
+    Floats without ``digits`` keep six significant digits and a rounding residue such as
+    -3.55e-15 is shown as 0; a list or tuple is shown as its items, ``none`` when empty.
+
+    >>> cell("<W1>"), cell(float("nan")), cell(1234.5678, digits=1), cell(12), cell(-3.55e-15), cell(1 / 3), cell(-0.001, digits=2)
+    ('&lt;W1&gt;', '\u2013', '1,234.6', '12', '0', '0.333333', '0.00')
+    >>> cell(()), cell(((1000, 2.5), (5000, 2.0)))
+    ('none', '1000: 2.5; 5000: 2')
     """
     if value is None or (isinstance(value, float) and math.isnan(value)):
         return "\u2013"
-    if isinstance(value, float) and digits is not None:
-        return f"{value:,.{digits}f}"
+    if isinstance(value, float):
+        shown = round(value, digits) if digits is not None else value
+        value = 0.0 if abs(shown) < 1e-9 else value  # no "-0.00" and no rounding residue
+        return f"{value:,.{digits}f}" if digits is not None else f"{value:.6g}"
+    if isinstance(value, tuple | list):
+        rows = (row if isinstance(row, tuple | list) else (row,) for row in value)
+        return html.escape("; ".join(": ".join(f"{part:g}" if isinstance(part, float) else str(part) for part in row) for row in rows)) or "none"
     return html.escape(str(value))
 
 
@@ -43,6 +53,15 @@ def section(identifier: str, title: str, content: str) -> str:
 def paragraph(words: str, **values: object) -> str:
     """A ``<p>`` of plain words (escaped here)."""
     return element("p", html.escape(words), **values)
+
+
+def plural(count: int, noun: str) -> str:
+    """``count`` and the noun, with an s unless the count is one.
+
+    >>> plural(1, "pipe"), plural(1200, "pipe")
+    ('1 pipe', '1,200 pipes')
+    """
+    return f"{count:,} {noun}" + ("" if count == 1 else "s")
 
 
 def percent(share: float) -> str:

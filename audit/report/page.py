@@ -19,16 +19,18 @@ from audit.about import __version__
 from audit.report.charts import flag_bars, part_full_chart, velocity_histogram
 from audit.report.curves import report_curves
 from audit.report.flows import flows_section
-from audit.report.html import cell, paragraph, percent, section, table
+from audit.report.html import cell, paragraph, percent, plural, section, table
 from audit.report.map import CLASS_COLOURS, metric_geometry, network_map
 from audit.report.svg import element
 from audit.report.tables import (
     MAP_CLASSES,
     class_counts,
+    evaluated,
     finding_digest,
     flag_totals,
     map_classes,
     numeric,
+    pipes_flags,
     renewal_candidates,
 )
 from audit.result import AuditResult
@@ -72,9 +74,9 @@ def render_page(result: AuditResult, *, id_field: str | None, created: datetime)
         (
             element("section", element("h2", "Caution") + paragraph(CAUTION_WORDS), id="caution", class_="caution"),
             section("totals", "Network totals", _totals(result.totals, result.units)),
-            section("map", "Map of the network by worst flag", _map(result, classes, totals)),
+            section("map", "Map of the network by worst flag", _map(result, pipes, classes, totals)),
             section("flags", "Flags: pipes and length", _flags(totals, len(pipes), result.units)),
-            section("part-full", "Load ratio against depth ratio", _part_full(pipes, classes)),
+            section("part-full", "Load ratio against depth ratio", _part_full(pipes, classes, result.canonical_pipes)),
             section("velocity", "Velocity at design flow", _velocity(pipes, result.rules, result.units)),
             section("candidates", f"Top {CANDIDATE_ROWS} renewal candidates", _candidates(pipes, id_field=id_field, units=result.units)),
             section("findings", "Data findings", _findings(result.findings)),
@@ -123,16 +125,25 @@ def _totals(totals: Mapping[str, Any], units: UnitSystem) -> str:
     return table(("Quantity", "Value"), rows, numeric=(False, True))
 
 
-def _map(result: AuditResult, classes: np.ndarray, totals: pd.DataFrame) -> str:
+def _map(result: AuditResult, pipes: pd.DataFrame, classes: np.ndarray, totals: pd.DataFrame) -> str:
     geometry, metres = metric_geometry(result.pipes, working_crs=result.settings.get("working_crs"))
     drawing = network_map(geometry, classes, metres=metres, units=result.units)
     counts = class_counts(classes)
+    flags_of = pipes_flags(pipes)
+    order = {flag: place for place, flag in enumerate(totals["flag"])}
+    unevaluated = int(np.count_nonzero(~evaluated(pipes)))
     items = []
     for name, words in MAP_CLASSES.items():
-        flags = totals.loc[totals["severity"] == name, "flag"].tolist()
-        detail = f" ({', '.join(flags)})" if flags else (" (hydraulics could not run)" if name == "not_evaluated" else "")
+        present = set().union(*flags_of[classes == name]) if counts[name] else set()
+        flags = sorted((flag for flag in present if flag in order), key=order.__getitem__)
+        if name == "not_evaluated":
+            drawn_elsewhere = unevaluated - counts[name]
+            more = f"; {plural(drawn_elsewhere, 'more pipe')} drawn by {'its' if drawn_elsewhere == 1 else 'their'} high or medium flag" if drawn_elsewhere else ""
+            detail = f" (hydraulics could not run{': ' + ', '.join(flags) if flags else ''}{more})"
+        else:
+            detail = f" ({', '.join(flags)})" if flags else ""
         swatch = element("span", "", class_="swatch", style=f"background:{CLASS_COLOURS[name]}")
-        items.append(element("li", swatch + html.escape(f"{words}: {counts[name]:,} pipes{detail}"), data_class=name))
+        items.append(element("li", swatch + html.escape(f"{words}: {plural(counts[name], 'pipe')}{detail}"), data_class=name))
     note = "North is up (grid north of the map's coordinate system)." + ("" if metres else " The unit of the coordinates is unknown: no scale bar.")
     return drawing + element("ul", "".join(items), class_="legend") + paragraph(note, class_="note")
 
@@ -149,15 +160,22 @@ def _flags(totals: pd.DataFrame, pipe_count: int, units: UnitSystem) -> str:
     return table(headers, rows, numeric=(False, False, True, True, True), id="flag-table") + note + flag_bars(totals)
 
 
-def _part_full(pipes: pd.DataFrame, classes: np.ndarray) -> str:
+def _part_full(pipes: pd.DataFrame, classes: np.ndarray, canonical: pd.DataFrame | None) -> str:
     load, depth = numeric(pipes, "load_ratio"), numeric(pipes, "depth_ratio")
-    drawn = int(np.count_nonzero(np.isfinite(load) & np.isfinite(depth)))
+    drawn = np.isfinite(load) & np.isfinite(depth)
+    if canonical is not None and {"shape", "height", "width"} <= set(canonical.columns):
+        picked = canonical.iloc[np.flatnonzero(drawn)]
+        curves = report_curves(picked["shape"].to_numpy(dtype=object), picked["height"].to_numpy(dtype=float), picked["width"].to_numpy(dtype=float))
+    else:
+        curves = report_curves(["circular"], [1.0], [1.0])
+    names = list(curves)
+    shapes = names[0] if len(names) == 1 else ", ".join(names[:-1]) + " and " + names[-1] if names else "no known"
     words = (
-        f"{drawn:,} pipes with both ratios known, coloured as on the map, over the part-full curve of the "
-        "circular and the egg-shaped section (Manning). A point on the curve flows at normal depth; "
+        f"{plural(int(np.count_nonzero(drawn)), 'pipe')} with both ratios known, coloured as on the map, over the part-full curve of "
+        f"each shape among them (Manning): {shapes}. A point on the curve flows at normal depth; "
         "surcharged pipes sit at depth ratio 1; load ratios above 1.5 are drawn at the right edge."
     )
-    return part_full_chart(load, depth, classes, report_curves()) + paragraph(words, class_="note")
+    return part_full_chart(load, depth, classes, curves) + paragraph(words, class_="note")
 
 
 def _velocity(pipes: pd.DataFrame, rules: RuleSettings, units: UnitSystem) -> str:
@@ -229,12 +247,17 @@ def _rule_value(name: str, value: object) -> str:
     return f"{value:g}" if isinstance(value, float) else str(value)
 
 
+#: The [hydraulics] settings each friction formula does not use.
+_UNUSED_BY_FORMULA: dict[str, tuple[str, ...]] = {"manning": ("ks_mm", "water_temp_c"), "colebrook-white": ("manning_n",)}
+
+
 def _rules(result: AuditResult, *, created: datetime) -> str:
     rules = [(element("code", cell(key)), cell(_rule_unit(key)), cell(_rule_value(key, value))) for key, value in as_table(result.rules, result.units).items()]
     settings = [
         (element("code", cell(f"{group}.{key}")), "", cell(value))
         for group in ("hydraulics", "network")
         for key, value in (result.settings.get(group) or {}).items()
+        if not (group == "hydraulics" and key in _UNUSED_BY_FORMULA.get(str((result.settings.get(group) or {}).get("formula")), ()))
     ]
     run = [
         ("Tool", cell(f"sewer-audit {__version__}")),

@@ -18,7 +18,7 @@ import pandas as pd
 
 from audit.errors import InputError
 from audit.outputs import candidate_rows, code_totals
-from audit.rules import FLAG_CODES, SEVERITY_ORDER
+from audit.rules import FLAG_CODES
 
 #: Map classes from the most urgent to the least, with the words the legend uses.
 MAP_CLASSES: dict[str, str] = {
@@ -59,14 +59,27 @@ def texts(pipes: pd.DataFrame, name: str) -> pd.Series:
     return column.astype(object).where(column.notna(), "").astype(str)
 
 
+def evaluated(pipes: pd.DataFrame) -> np.ndarray:
+    """True where the pipe's hydraulics ran (its status is one of ``EVALUATED_STATUSES``)."""
+    return texts(pipes, "hydraulic_status").isin(EVALUATED_STATUSES).to_numpy()
+
+
 def map_classes(pipes: pd.DataFrame) -> np.ndarray:
     """The map class of every pipe (see the module docstring), as strings."""
     severity = texts(pipes, "severity").to_numpy(dtype=object)
-    evaluated = texts(pipes, "hydraulic_status").isin(EVALUATED_STATUSES).to_numpy()
     urgent = np.isin(severity, ("high", "medium"))
     return np.select(
-        [urgent, ~evaluated, severity == "low"], [severity, "not_evaluated", "low"], "none"
+        [urgent, ~evaluated(pipes), severity == "low"], [severity, "not_evaluated", "low"], "none"
     ).astype(object)
+
+
+def pipes_flags(pipes: pd.DataFrame) -> np.ndarray:
+    """The set of flag codes of every pipe (an object array of frozensets), from the ``flags`` text."""
+    text = texts(pipes, "flags").to_numpy(dtype=object)
+    distinct, which = np.unique(text, return_inverse=True)  # a handful of distinct flag sets
+    sets = np.empty(distinct.size, dtype=object)
+    sets[:] = [frozenset(code for code in str(words).split(";") if code) for words in distinct]
+    return sets[which.ravel()]
 
 
 def class_counts(classes: np.ndarray) -> dict[str, int]:

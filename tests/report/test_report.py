@@ -20,7 +20,6 @@ import pytest
 import shapely
 
 from audit.errors import InputError, OutputExistsError
-from audit.hydraulics.sections import Circular, Egg
 from audit.pipeline import run
 from audit.report import part_full_curve, render_report, write_report
 from audit.result import PIPE_COLUMNS, AuditResult
@@ -219,17 +218,65 @@ def test_velocity_limits_and_rules_are_shown(town: AuditResult, town_page: Page)
     assert run_rows["Tool"].startswith("sewer-audit ")
 
 
-@pytest.mark.parametrize(("section", "width"), [(Circular(), 1.0), (Egg(), 2.0 / 3.0)])
-def test_part_full_curve_passes_through_full_bore(section: object, width: float) -> None:
-    depth, ratio = part_full_curve(section, width_ratio=width, points=2001)  # type: ignore[arg-type]
+@pytest.mark.parametrize(("section", "width"), [("circular", 1.0), ("egg", 2.0 / 3.0)])
+def test_part_full_curve_passes_through_full_bore(section: str, width: float) -> None:
+    depth, ratio = part_full_curve(section, width_ratio=width, points=2001)
     assert depth[0] == 0.0
     assert ratio[0] == pytest.approx(0.0, abs=1e-12)
     assert depth[-1] == 1.0
     assert ratio[-1] == pytest.approx(1.0, abs=1e-9)
 
 
+def test_box_curve_just_below_the_lid_is_above_full_bore() -> None:
+    # A box 2 wide and 1 high (Manning): just below the lid R = 2 x 1 / (2 + 2 x 1) = 0.5 against
+    # the full-bore R = 2 / (2 x (2 + 1)) = 1/3 with the lid wetted, so Q/Qf = 1 x 1.5^(2/3).
+    _, ratio = part_full_curve("rectangular", width_ratio=2.0, points=101)
+    assert ratio[-1] == pytest.approx(1.5 ** (2.0 / 3.0), rel=1e-12)
+    # at half depth: A/Af = 0.5, R = 1 / 3 = Rf, so Q/Qf = 0.5
+    assert ratio[50] == pytest.approx(0.5, rel=1e-12)
+
+
+def test_the_chart_draws_the_curves_of_the_shapes_present_only(town: AuditResult) -> None:
+    boxes = town.canonical_pipes.assign(shape="rectangular", width=town.canonical_pipes["height"] * 1.5)
+    page = Page(render_report(dataclasses.replace(town, canonical_pipes=boxes)))
+    (chart,) = page.section("part-full").find_all("svg")
+    assert [node.attrs["data-curve"] for node in chart.find_all("path") if "data-curve" in node.attrs] == ["rectangular, B/H 1.5"]
+    (town_chart,) = Page(render_report(town)).section("part-full").find_all("svg")
+    assert {node.attrs["data-curve"] for node in town_chart.find_all("path") if "data-curve" in node.attrs} == {"circular", "egg"}
+
+
+def test_the_legend_lists_each_flag_under_the_class_its_pipes_are_drawn_in(town: AuditResult, town_page: Page) -> None:
+    legend = {node.attrs["data-class"]: node.text() for node in town_page.section("map").find_all("li")}
+    # the town's missing_data pipes cannot be evaluated: they are drawn (and listed) as not evaluated
+    assert "missing_data" in legend["not_evaluated"]
+    assert "missing_data" not in legend["low"]
+    # the pipes whose hydraulics could not run are those drawn as not evaluated and those drawn by their flag
+    status = town.pipes["hydraulic_status"]
+    not_run = int((~status.isin(["ok", "above_full_bore", "surcharged"])).sum())
+    assert town.totals["pipes_not_evaluated"] == not_run
+    shown = re.search(r"Not evaluated: (\d+) pipes? \(hydraulics could not run[^;]*(?:; (\d+) more pipes?)?", legend["not_evaluated"])
+    assert shown is not None
+    assert int(shown.group(1)) + int(shown.group(2) or 0) == not_run
+    assert "(1 pipes)" not in town_page.section("map").text()
+
+
+def test_settings_are_shown_as_used_and_in_plain_words(town_page: Page) -> None:
+    assumptions = dict(town_page.table_rows("flow-assumptions"))
+    assert assumptions["peaking"] == "harmon"  # the demo town's config
+    assert "peaking_factor" not in assumptions  # used only for peaking = "constant"
+    assert "rainfall.table" not in assumptions  # the town gives a, b and c
+    assert assumptions["rainfall.c"] == "0.85"
+    rules = dict((row[0], row[2]) for row in town_page.table_rows("rule-table"))
+    assert rules["hydraulics.formula"] == "colebrook-white"
+    assert "hydraulics.manning_n" not in rules
+    assert rules["network.placeholder_ids"] == "none"
+    page = town_page.section("flows").text() + town_page.section("rules").text()
+    assert "()" not in page
+    assert not re.search(r"\de-\d", page)  # no float residue such as -3.55e-15
+
+
 def test_circular_part_full_curve_peaks_near_1_076_at_0_938() -> None:
-    depth, ratio = part_full_curve(Circular(), points=20001)
+    depth, ratio = part_full_curve("circular", points=20001)
     peak = int(np.argmax(ratio))
     assert ratio[peak] == pytest.approx(1.076, abs=0.001)  # common practice, no source
     assert depth[peak] == pytest.approx(0.938, abs=0.002)  # common practice, no source
