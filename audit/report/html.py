@@ -45,9 +45,12 @@ def table(headers: Sequence[str], rows: Iterable[Sequence[str]], *, numeric: Seq
     return element("table", element("thead", element("tr", head)) + element("tbody", body), **values)
 
 
-def section(identifier: str, title: str, content: str) -> str:
-    """A ``<section>`` with an ``id`` and an ``<h2>`` title (escaped)."""
-    return element("section", element("h2", html.escape(title)) + content, id=identifier)
+def section(identifier: str, title: str, content: str, *, long: bool = False) -> str:
+    """A ``<section>`` with an ``id`` and an ``<h2>`` title (escaped).
+
+    A ``long`` section (a long table) may run over printed pages; the others keep to one page.
+    """
+    return element("section", element("h2", html.escape(title)) + content, id=identifier, class_="long" if long else None)
 
 
 def paragraph(words: str, **values: object) -> str:

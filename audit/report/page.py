@@ -16,6 +16,7 @@ import numpy as np
 import pandas as pd
 
 from audit.about import __version__
+from audit.outputs import candidate_rows
 from audit.report.charts import flag_bars, part_full_chart, velocity_histogram
 from audit.report.curves import report_curves
 from audit.report.flows import flows_section
@@ -32,6 +33,7 @@ from audit.report.tables import (
     numeric,
     pipes_flags,
     renewal_candidates,
+    texts,
 )
 from audit.result import AuditResult
 from audit.rules import CLEANSING_WORDS, DiameterTable, RuleSettings, as_table
@@ -62,6 +64,23 @@ svg{max-width:100%;height:auto;display:block}
 .swatch{display:inline-block;width:22px;height:6px;margin-right:6px;vertical-align:middle;border-radius:2px}
 .note{color:#555;font-size:.85em}
 #candidate-table td:nth-child(2),#candidate-table td:nth-child(3){white-space:nowrap}
+.title-block{max-width:1040px;margin:0 auto;padding:0 20px;color:#444;font-size:.9em}
+.title-block dl{display:grid;grid-template-columns:max-content 1fr;gap:2px 14px;margin:4px 0 0}
+.title-block dt{font-weight:600}.title-block dd{margin:0}
+.summary{font-size:1.05em}
+@media print{
+@page{margin:14mm 12mm}
+body{background:#fff;font-size:9.5pt}
+main,h1,.title-block{max-width:none;padding:0}
+h1{margin:0 0 4px}
+section{border:none;border-radius:0;padding:0;margin-top:10px;break-inside:avoid-page}
+section.long{break-inside:auto}
+h2{margin-top:6px;break-after:avoid-page}
+thead{display:table-header-group}
+tr,svg,.legend,.note{break-inside:avoid-page}
+svg{max-height:150mm;width:auto;margin:0 auto}
+.caution{border-left:4px solid #c0392b}
+}
 """
 
 
@@ -73,19 +92,67 @@ def render_page(result: AuditResult, *, id_field: str | None, created: datetime)
     body = "".join(
         (
             element("section", element("h2", "Caution") + paragraph(CAUTION_WORDS), id="caution", class_="caution"),
+            section("summary", "Summary", paragraph(_summary_words(result, pipes), class_="summary")),
             section("totals", "Network totals", _totals(result.totals, result.units)),
             section("map", "Map of the network by worst flag", _map(result, pipes, classes, totals)),
             section("flags", "Flags: pipes and length", _flags(totals, len(pipes), result.units)),
             section("part-full", "Load ratio against depth ratio", _part_full(pipes, classes, result.canonical_pipes)),
             section("velocity", "Velocity at design flow", _velocity(pipes, result.rules, result.units)),
-            section("candidates", f"Top {CANDIDATE_ROWS} renewal candidates", _candidates(pipes, id_field=id_field, units=result.units)),
-            section("findings", "Data findings", _findings(result.findings)),
-            section("flows", "Design flows at the outfalls", flows_section(pipes, result.settings.get("flows"), units=result.units)),
-            section("rules", "Rules and run", _rules(result, created=created)),
+            section("candidates", f"Top {CANDIDATE_ROWS} renewal candidates", _candidates(pipes, id_field=id_field, units=result.units), long=True),
+            section("findings", "Data findings", _findings(result.findings), long=True),
+            section("flows", "Design flows at the outfalls", flows_section(pipes, result.settings.get("flows"), units=result.units), long=True),
+            section("rules", "Rules and run", _rules(result, created=created), long=True),
         )
     )
     head = element("head", '<meta charset="utf-8"><meta name="viewport" content="width=device-width, initial-scale=1">' + element("title", "Sewer audit report") + element("style", _CSS))
-    return "<!DOCTYPE html>\n" + element("html", head + element("body", element("h1", "Sewer audit report") + element("main", body)), lang="en")
+    heading = element("h1", html.escape(f"Sewer audit report: {network_name(result)}"))
+    return "<!DOCTYPE html>\n" + element("html", head + element("body", heading + _title_block(result, created=created) + element("main", body)), lang="en")
+
+
+def network_name(result: AuditResult) -> str:
+    """The network's name: ``[output] title`` of the config, else the config file's name, else "network"."""
+    title = result.settings.get("title")
+    if title:
+        return str(title)
+    return result.config_path.stem if result.config_path is not None else "network"
+
+
+def _title_block(result: AuditResult, *, created: datetime) -> str:
+    """Network, date, config, tool and design storm, for the top of every printed copy."""
+    rainfall = (result.settings.get("flows") or {}).get("rainfall") or {}
+    period = rainfall.get("return_period_years")
+    storm = f"{period:g}-year return period" if isinstance(period, float | int) and period == period else "none (no storm flow)"
+    rows = [
+        ("Network", network_name(result)),
+        ("Date", created.strftime("%Y-%m-%d %H:%M %Z").strip()),
+        ("Config", "(none)" if result.config_path is None else str(result.config_path)),
+        ("Tool", f"sewer-audit {__version__}"),
+        ("Design storm", storm),
+    ]
+    items = "".join(element("dt", html.escape(key)) + element("dd", html.escape(value)) for key, value in rows)
+    return element("div", element("dl", items), class_="title-block")
+
+
+def _summary_words(result: AuditResult, pipes: pd.DataFrame) -> str:
+    """One paragraph for a manager: the length of pipe per worst severity and what to do first."""
+    length = numeric(pipes, "length_m")
+    severity = texts(pipes, "severity").to_numpy(dtype=object)
+    total, unit = _long(float(np.nansum(length)), result.units)
+    parts = []
+    for word in ("high", "medium", "low"):
+        chosen = severity == word
+        amount = _long(float(np.nansum(length[chosen])), result.units)[0] or 0.0
+        parts.append(f"{amount:,.2f} {unit} ({plural(int(np.count_nonzero(chosen)), 'pipe')}) of {word} severity")
+    action = candidate_rows(pipes)[1]
+    renew, verify = int(np.count_nonzero(action == "consider renewal")), int(np.count_nonzero(action == "verify levels"))
+    unevaluated = int(np.count_nonzero(~evaluated(pipes)))
+    return (
+        f"Of {total or 0.0:,.2f} {unit} of pipe in {plural(len(pipes), 'pipe')}, the worst flag puts "
+        + ", ".join(parts[:-1]) + f" and {parts[-1]}. "
+        + f"{plural(renew, 'pipe')} {'is a candidate' if renew == 1 else 'are candidates'} for renewal and "
+        + f"{plural(verify, 'pipe')} {'needs its' if verify == 1 else 'need their'} levels verified first; "
+        + f"the hydraulics of {plural(unevaluated, 'pipe')} could not run for want of data."
+    )
 
 
 def analysis_frame(result: AuditResult) -> pd.DataFrame:

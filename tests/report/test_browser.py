@@ -10,17 +10,19 @@ from __future__ import annotations
 import re
 import struct
 import subprocess
+import unicodedata
 import zlib
 from pathlib import Path
 
 import pytest
+from pypdf import PdfReader
 
 from audit.pipeline import run
 from audit.report import write_report
 
 CHROMIUM = Path("/usr/bin/chromium")
 TOWN = Path(__file__).resolve().parents[2] / "sample_gis" / "town.toml"
-SECTIONS = ("caution", "totals", "map", "flags", "part-full", "velocity", "candidates", "findings", "flows", "rules")
+SECTIONS = ("caution", "summary", "totals", "map", "flags", "part-full", "velocity", "candidates", "findings", "flows", "rules")
 WINDOW = (1280, 3000)
 
 pytestmark = pytest.mark.skipif(not CHROMIUM.exists(), reason="needs /usr/bin/chromium; .ci/run installs it with apt-get")
@@ -94,3 +96,43 @@ def test_screenshot_is_a_drawn_page(report: Path, tmp_path: Path) -> None:
     assert (width, height) == WINDOW
     assert distinct > 200
     assert page_faults(done.stderr) == []
+
+
+#: Paper sizes [pt] (ISO 216 A4 is 210 x 297 mm; US Letter 8.5 x 11 in).
+PAPERS = {"A4": (595.28, 841.89), "letter": (612.0, 792.0)}
+
+
+@pytest.mark.parametrize("paper", list(PAPERS))
+def test_printed_report_keeps_sections_off_the_foot_of_a_page(report: Path, tmp_path: Path, paper: str) -> None:
+    printed = tmp_path / f"report-{paper}.html"
+    markup = report.read_text(encoding="utf-8")
+    printed.write_text(markup.replace("</head>", f"<style>@page{{size:{paper}}}</style></head>", 1), encoding="utf-8")
+    pdf = tmp_path / f"report-{paper}.pdf"
+    done = chromium(tmp_path, printed, f"--print-to-pdf={pdf}", "--no-pdf-header-footer")
+    assert done.returncode == 0, done.stderr[-2000:]
+    reader = PdfReader(pdf)
+    width, height = PAPERS[paper]
+    assert all(abs(float(page.mediabox.width) - width) < 1 and abs(float(page.mediabox.height) - height) < 1 for page in reader.pages)
+    assert 3 <= len(reader.pages) <= 12  # the demo town: a map, three charts and a few tables
+    titles = {"Caution", "Summary", "Network totals", "Map of the network by worst flag", "Flags: pipes and length",
+              "Load ratio against depth ratio", "Velocity at design flow", "Top 20 renewal candidates", "Data findings",
+              "Design flows at the outfalls", "Rules and run"}  # fmt: skip
+    lines: dict[tuple[int, float], str] = {}  # text runs joined by page and baseline
+    for number, page in enumerate(reader.pages):
+
+        def visit(text: str, cm: list[float], tm: list[float], _font: object, _size: object, number: int = number) -> None:
+            # the baseline's height above the foot of the page [pt]: the text matrix's origin through the page's matrix
+            key = (number, round(tm[4] * cm[1] + tm[5] * cm[3] + cm[5], 1))
+            lines[key] = lines.get(key, "") + unicodedata.normalize("NFKC", text)  # "ﬂ" ligatures back to "fl"
+
+        page.extract_text(visitor_text=visit)
+    found: dict[str, tuple[int, float]] = {}
+    for (number, y), text in sorted(lines.items(), key=lambda item: (item[0][0], -item[0][1])):
+        if text.strip() in titles and text.strip() not in found:
+            found[text.strip()] = (number, y)
+    assert set(found) == titles
+    # no section starts in the last 10 % of a page: its title would be parted from its content
+    low = {title: y for title, (_, y) in found.items() if y < 0.10 * height}
+    assert low == {}
+    pages = [found[title][0] for title in ("Caution", "Summary", "Network totals")]
+    assert pages == [0, 0, 0]  # the caution, the summary and the totals open the first page

@@ -26,7 +26,7 @@ from audit.result import PIPE_COLUMNS, AuditResult
 from audit.rules import RuleSettings
 
 TOWN = Path(__file__).resolve().parents[2] / "sample_gis" / "town.toml"
-SECTION_ORDER = ["caution", "totals", "map", "flags", "part-full", "velocity", "candidates", "findings", "flows", "rules"]
+SECTION_ORDER = ["caution", "summary", "totals", "map", "flags", "part-full", "velocity", "candidates", "findings", "flows", "rules"]
 VOID = {"meta", "br", "img", "link", "input", "hr"}
 
 
@@ -117,6 +117,30 @@ def test_caution_is_the_first_section_and_says_what_the_page_is_not(town_page: P
     words = sections[0].text().lower()
     for phrase in ("screening aid", "uniform-flow", "configure", "calibrated", "local codes", "licensed engineer"):
         assert phrase in words
+
+
+def test_the_summary_gives_the_length_per_severity_and_what_to_do_first(town: AuditResult, town_page: Page) -> None:
+    words = town_page.section("summary").text()
+    pipes = town.pipes
+    for word in ("high", "medium", "low"):
+        chosen = pipes["severity"] == word
+        km = pipes.loc[chosen, "length_m"].sum() / 1000.0
+        count = int(chosen.sum())
+        assert f"{km:,.2f} km ({count} pipe{'' if count == 1 else 's'}) of {word} severity" in words
+    assert f"Of {pipes['length_m'].sum() / 1000.0:,.2f} km of pipe in {len(pipes)} pipes" in words
+    # the errors planted in the demo (sample_gis/ERRORS.md): 4 overloaded laterals, a silting spur, a steep
+    # pipe and a size step to renew (7); a reverse and a zero grade to verify (2)
+    assert "7 pipes are candidates for renewal and 2 pipes need their levels verified first" in words
+
+
+def test_the_title_block_names_the_network_run_and_design_storm(town: AuditResult, town_page: Page) -> None:
+    (block,) = [node for node in town_page.root.find_all("div") if node.attrs.get("class") == "title-block"]
+    text = block.text()
+    assert "Network" in text
+    assert "town" in text  # no [output] title: the config file's name
+    assert str(TOWN) in text
+    assert "sewer-audit " in text
+    assert "2-year return period" in text  # the demo's [flows.rainfall] return_period_years
 
 
 def test_every_flag_appears_in_legend_and_table_with_its_count(town: AuditResult, town_page: Page) -> None:
@@ -266,7 +290,7 @@ def test_settings_are_shown_as_used_and_in_plain_words(town_page: Page) -> None:
     assert "peaking_factor" not in assumptions  # used only for peaking = "constant"
     assert "rainfall.table" not in assumptions  # the town gives a, b and c
     assert assumptions["rainfall.c"] == "0.85"
-    rules = dict((row[0], row[2]) for row in town_page.table_rows("rule-table"))
+    rules = {row[0]: row[2] for row in town_page.table_rows("rule-table")}
     assert rules["hydraulics.formula"] == "colebrook-white"
     assert "hydraulics.manning_n" not in rules
     assert rules["network.placeholder_ids"] == "none"
