@@ -55,9 +55,35 @@ Typical session:
   (edit town.toml: map your field names and units)
   sewer-audit run town.toml -o audit_out   audit the network; write flagged layers and a summary
   sewer-audit demo -o demo_out             the same on the bundled invented town
+  sewer-audit compare audit_2024 audit_out -o changes
+                                           what appeared, cleared or changed since an earlier audit
 
 {CAUTION}
 """
+
+COMPARE_HELP = """\
+Compare two audits of a register (made by `sewer-audit run` or `demo`): which pipes and manholes
+were added, removed or changed, which register fields changed, which flags were gained or
+cleared, whether severities went up or down, and how the totals moved.
+
+Features are matched by their id where it is unique in both audits (the id field the audit's
+config mapped, or --pipe-id / --manhole-id); duplicate, missing or placeholder ids fall back to
+geometry: a pipe whose two ends lie within --tolerance of the other's ends, in either order.
+Whatever cannot be matched is listed as added or removed. Numbers are compared in OLD's unit
+system. Audits made with other rule settings or tool versions are compared too, but every
+output says so first: a changed rule, not a changed network, may explain a difference.
+
+Writes into OUTDIR:
+  compare.gpkg     layers pipes and manholes: each feature with its change columns (the new
+                   geometry, or the old one for a removed feature)
+  changes.csv      one row per pipe or manhole that is not unchanged
+  compare.json     totals before and after per flag and severity, counts of each change, the
+                   two audits' versions, times, units and rules, and the settings that differ
+  compare.html     one self-contained page with a map of what got worse and what got better
+Columns and rules: docs/compare.md.
+
+Example:
+  sewer-audit compare audit_2024 audit_2025 -o changes --fail-on-new high"""
 
 
 def _build_parser() -> argparse.ArgumentParser:
@@ -67,7 +93,7 @@ def _build_parser() -> argparse.ArgumentParser:
         prog="sewer-audit",
         description=DESCRIPTION,
         formatter_class=argparse.RawDescriptionHelpFormatter,
-        epilog="Exit codes: 0 finished, 1 unusable input, 2 usage error, 3 --fail-on threshold reached, "
+        epilog="Exit codes: 0 finished, 1 unusable input, 2 usage error, 3 --fail-on (or compare's --fail-on-new) threshold reached, "
         "130 interrupted (Ctrl-C), 141 output closed early (piped into head).",
     )
     parser.add_argument("--version", action="version", version=f"%(prog)s {__version__}")
@@ -103,7 +129,45 @@ def _build_parser() -> argparse.ArgumentParser:
             help=f"exit with code 3 when any pipe has a flag of this severity or worse ({', '.join(SEVERITY_ORDER)})",
         )
         stage.add_argument("-q", "--quiet", action="store_true", help="no progress bars and no summary table")
+    compare = commands.add_parser(
+        "compare",
+        help="compare two audits: what was added, removed or changed, which flags appeared or cleared",
+        description=COMPARE_HELP,
+        formatter_class=argparse.RawDescriptionHelpFormatter,
+    )
+    compare.add_argument("old", metavar="OLD", help="the earlier audit: the folder `sewer-audit run -o` wrote, or its audit.gpkg")
+    compare.add_argument("new", metavar="NEW", help="the later audit, the same way")
+    compare.add_argument("-o", "--output", required=True, metavar="OUTDIR", help="folder for the comparison (created if missing)")
+    compare.add_argument(
+        "--tolerance",
+        type=_distance,
+        metavar="DISTANCE",
+        help="how far apart the ends of one pipe (or one manhole) may lie in the two audits to be matched by geometry, "
+        "in OLD's length unit (m or ft; default 0.5 m)",
+    )
+    compare.add_argument("--pipe-id", metavar="FIELD", help="the pipes' id field in both audits (default: as each audit's config mapped it)")
+    compare.add_argument("--manhole-id", metavar="FIELD", help="the manholes' id field in both audits (default: as each audit's config mapped it)")
+    compare.add_argument(
+        "--fail-on-new",
+        choices=SEVERITY_ORDER,
+        metavar="SEVERITY",
+        help=f"exit with code 3 when any pipe gained a flag of this severity or worse ({', '.join(SEVERITY_ORDER)}); "
+        "an added pipe gains all its flags",
+    )
+    compare.add_argument("--overwrite", action="store_true", help="replace our output files in an existing folder (other files are left alone)")
+    compare.add_argument("-q", "--quiet", action="store_true", help="no summary table")
     return parser
+
+
+def _distance(text: str) -> float:
+    """A command-line distance: a finite number >= 0."""
+    try:
+        value = float(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"expected a distance (a number >= 0), got {text!r}") from None
+    if not 0.0 <= value < float("inf"):
+        raise argparse.ArgumentTypeError(f"expected a distance (a number >= 0), got {text!r}")
+    return value
 
 
 def main(argv: Sequence[str] | None = None) -> int:
@@ -149,6 +213,8 @@ def _main(argv: Sequence[str] | None) -> int:
             from audit.inspect import inspect_command
 
             return inspect_command(args)
+        if args.command == "compare":
+            return _compare_command(args)
         return _audit_command(args)
     except OutputExistsError as error:
         print(f"sewer-audit: {error}", file=sys.stderr)
@@ -178,6 +244,24 @@ def _audit_command(args: argparse.Namespace) -> int:
     if not args.quiet:
         print_summary_table(result, paths, file=sys.stdout)
     if args.fail_on and worst_severity_at_least(result.pipe_results["severity"].to_numpy(dtype=object), args.fail_on).any():
+        return EXIT_FLAGGED
+    return EXIT_OK
+
+
+def _compare_command(args: argparse.Namespace) -> int:
+    """``compare``: read both audits, compare, write the outputs, print the table, pick the exit code."""
+    from audit.compare import compare_audits, print_comparison, read_audit, write_comparison
+    from audit.rules import worst_severity_at_least
+
+    audits = [read_audit(Path(path), label=label, pipe_id=args.pipe_id, manhole_id=args.manhole_id)
+              for path, label in ((args.old, "OLD"), (args.new, "NEW"))]  # fmt: skip
+    comparison = compare_audits(*audits, tolerance=args.tolerance)
+    del audits  # the comparison keeps what it needs; the audits' features need not stay in memory while the files are written
+    paths = write_comparison(comparison, Path(args.output), overwrite=args.overwrite, created=datetime.now(UTC))
+    if not args.quiet:
+        print_comparison(comparison, paths, file=sys.stdout)
+    gained = comparison.pipes.table["gained_severity"].to_numpy(dtype=object)
+    if args.fail_on_new and worst_severity_at_least(gained, args.fail_on_new).any():
         return EXIT_FLAGGED
     return EXIT_OK
 
