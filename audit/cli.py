@@ -16,9 +16,11 @@ Exit codes, for scripts and data pipelines:
 from __future__ import annotations
 
 import argparse
+import errno
 import os
 import signal
 import sys
+import warnings
 from collections.abc import Sequence
 from datetime import UTC, datetime
 from pathlib import Path
@@ -176,10 +178,17 @@ def main(argv: Sequence[str] | None = None) -> int:
     A reader that closes standard output early (``sewer-audit inspect town.gpkg | head -1``)
     ends the command quietly with ``EXIT_CLOSED_PIPE``: what was still to be written is sent to
     the null device, so Python's last flush at exit finds no broken pipe either.
+
+    Library warnings (numpy's on arithmetic with the NaN that stands for a missing value, GDAL's
+    notices) are not shown: a problem in the data reaches the user as a finding, an unusable
+    input as a message. The Python API keeps them. A full disk is said as such, wherever it
+    stops the command.
     """
     try:
         try:
-            code = _main(argv)
+            with warnings.catch_warnings():
+                warnings.simplefilter("ignore")
+                code = _main(argv)
         except SystemExit:  # --help, --version and usage errors print, then exit: flush while we can still catch
             sys.stdout.flush()
             raise
@@ -190,7 +199,29 @@ def main(argv: Sequence[str] | None = None) -> int:
     except KeyboardInterrupt:
         print("sewer-audit: interrupted; no output was written", file=sys.stderr)
         return EXIT_INTERRUPTED
+    except OSError as error:
+        if error.errno not in (errno.ENOSPC, errno.EDQUOT):
+            raise
+        print(f"sewer-audit: the disk is full ({error.filename or 'writing'}); free some space and run again", file=sys.stderr)
+        return EXIT_BAD_INPUT
     return code
+
+
+MESSAGE_LIMIT = 3000
+"""Most characters of a message printed [-]: a library's error can carry a whole SQL statement."""
+
+
+def _bounded(message: str) -> str:
+    """The message cut to :data:`MESSAGE_LIMIT` characters in its middle, so its start (the file) and its end (why) stay.
+
+    >>> cut = _bounded("a" + "x" * 3010 + "z")
+    >>> cut[0], cut[1500:1534], cut[-1]
+    ('a', ' ... (12 characters left out) ... ', 'z')
+    """
+    if len(message) <= MESSAGE_LIMIT:
+        return message
+    half = MESSAGE_LIMIT // 2
+    return f"{message[:half]} ... ({len(message) - 2 * half:,} characters left out) ... {message[-half:]}"
 
 
 def _silence_stdout() -> None:
@@ -217,10 +248,10 @@ def _main(argv: Sequence[str] | None) -> int:
             return _compare_command(args)
         return _audit_command(args)
     except OutputExistsError as error:
-        print(f"sewer-audit: {error}", file=sys.stderr)
+        print(f"sewer-audit: {_bounded(str(error))}", file=sys.stderr)
         return EXIT_USAGE
     except AuditError as error:
-        print(f"sewer-audit: {error}", file=sys.stderr)
+        print(f"sewer-audit: {_bounded(str(error))}", file=sys.stderr)
         return EXIT_BAD_INPUT
     parser.error(f"unknown command {args.command!r}")
     return EXIT_USAGE  # pragma: no cover - parser.error exits

@@ -68,10 +68,10 @@ class ConfigProblems:
         self.problems.append(f"{dotted}: unknown key{hint}")
 
     def text(self, data: dict[str, Any], name: str, key: str, default: str | None) -> str | None:
-        """A non-empty string, else ``default`` after a reported problem."""
+        """A non-empty string without a null character, else ``default`` after a reported problem."""
         value = data.get(name, default)
-        if value is not None and (not isinstance(value, str) or not value.strip()):
-            self.fail(f"{key}.{name}", "a non-empty string", value)
+        if value is not None and (not isinstance(value, str) or not value.strip() or "\x00" in value):
+            self.fail(f"{key}.{name}", "a non-empty string without a null character", value)
             return default
         return value
 
@@ -84,7 +84,11 @@ class ConfigProblems:
         return str(value)
 
     def number(self, data: dict[str, Any], name: str, key: str, default: float, *, low: float = 0.0) -> float:
-        """A number ``>= low``; for ``low == 0`` zero is allowed, negative values are not."""
+        """A number ``>= low``; for ``low == 0`` zero is allowed, negative values are not.
+
+        NaN and infinite numbers never reach here from a file: ``audit.config`` refuses them for
+        every key when it reads the file.
+        """
         value = data.get(name, default)
         if isinstance(value, bool) or not isinstance(value, int | float) or value < low:
             self.fail(f"{key}.{name}", f"a number >= {low:g}", value)

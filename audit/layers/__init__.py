@@ -5,10 +5,12 @@ In: the ``[input]``, ``[pipes]``, ``[manholes]`` and ``[catchments]`` settings
 every field, input order, source CRS) and canonical (the columns of the data contract in
 DEVELOPERS.md, SI, geometry in a projected CRS in metres), plus findings for every bad value.
 
-Modules: ``settings`` (the config tables), ``reading`` (files to frames), ``fields`` (values,
-units, ids), ``geometry`` (clean-up to one 2D part).
+Modules: ``settings`` (the config tables), ``files`` (a file read whole or refused with a
+message), ``reading`` (files to frames), ``fields`` (values, units, ids), ``geometry`` (clean-up
+to one 2D part).
 """
 
+from audit.layers.geometry import MAX_COORDINATE_M
 from audit.layers.reading import (
     LayerData,
     Layers,
@@ -36,6 +38,7 @@ __all__ = [
     "CATCHMENT_FIELDS",
     "MANHOLE_FIELDS",
     "MANHOLE_UNITS",
+    "MAX_COORDINATE_M",
     "NODE_KINDS",
     "OPEN_SHAPES",
     "PIPE_FIELDS",

@@ -4,6 +4,11 @@ Vectorised over all features with shapely; the caller turns the returned masks a
 findings (codes ``no_geometry``, ``wrong_geometry_type``, ``multipart_line``,
 ``multipart_point``).
 
+A geometry with a coordinate that is not a finite number, or that lies farther from the CRS's
+origin than any place on Earth can (:data:`MAX_COORDINATE_M`), is no position at all: the
+caller removes it (:func:`unusable_coordinates`) and the feature stays without a geometry, with
+a ``no_geometry`` finding that says why.
+
 A multi-line whose parts join end to start is merged into one line. One whose parts do not join
 (a gap, or parts drawn in different directions) is chained: its parts are taken in the order
 they are stored, each turned where that brings its start nearer the end of the one before, and
@@ -14,10 +19,35 @@ gaps.
 
 from __future__ import annotations
 
+from collections.abc import Callable
 from dataclasses import dataclass
 
 import numpy as np
+import pandas as pd
 import shapely
+
+MAX_COORDINATE_M = 4.0e9
+"""Largest coordinate magnitude taken as a position [m]: a hundred times the Earth's circumference
+(about 4.0e7 m; common practice, no source); false eastings and northings stay far below it."""
+
+
+def unusable_coordinates(geometry: np.ndarray, *, limit: float = np.inf) -> np.ndarray:
+    """True for every geometry with an x or y that is NaN, infinite or larger in magnitude than ``limit``.
+
+    Examples
+    --------
+    >>> lines = np.array([shapely.LineString([(0, 0), (1, 1)]), shapely.LineString([(0, 0), (np.inf, 1)]), None])
+    >>> unusable_coordinates(lines).tolist()
+    [False, True, False]
+    >>> unusable_coordinates(np.array([shapely.Point(5e9, 0.0)]), limit=MAX_COORDINATE_M).tolist()
+    [True]
+    """
+    coordinates, owner = shapely.get_coordinates(geometry, return_index=True)
+    with np.errstate(invalid="ignore"):
+        bad = ~(np.isfinite(coordinates) & (np.abs(coordinates) <= limit)).all(axis=1)
+    unusable = np.zeros(len(geometry), dtype=bool)
+    unusable[owner[bad]] = True
+    return unusable
 
 
 @dataclass(frozen=True)
@@ -66,9 +96,11 @@ def _chain(multi: shapely.MultiLineString) -> tuple[shapely.LineString, str]:
 def _merge_lines(geometry: np.ndarray, multi: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     """Merge multi-lines in place (directed) where they join; else chain their parts.
 
-    Returns the mask of the multi-lines that did not join, and a message per feature for them.
+    Empty parts are dropped first (they carry no vertex to join). Returns the mask of the
+    multi-lines that did not join, and a message per feature for them.
     """
     index = np.flatnonzero(multi)
+    geometry[index] = _without_empty_parts(geometry[index], shapely.multilinestrings)
     merged = shapely.line_merge(geometry[index], directed=True)
     joined = shapely.get_type_id(merged) == shapely.GeometryType.LINESTRING
     geometry[index[joined]] = merged[joined]
@@ -78,6 +110,21 @@ def _merge_lines(geometry: np.ndarray, multi: np.ndarray) -> tuple[np.ndarray, n
     return np.isin(np.arange(len(geometry)), index[~joined]), messages
 
 
+def _without_empty_parts(multi: np.ndarray, build: Callable[..., np.ndarray]) -> np.ndarray:
+    """Multi-part geometries without their empty parts, rebuilt by ``build`` (``shapely.multilinestrings``, ...).
+
+    Each is itself not empty, so it keeps at least one part.
+    """
+    parts, owner = shapely.get_parts(multi, return_index=True)
+    empty = shapely.is_empty(parts)
+    if not empty.any():
+        return multi
+    kept = np.unique(owner[~empty])
+    rebuilt = np.full(len(multi), None, dtype=object)
+    rebuilt[kept] = build(parts[~empty], indices=np.searchsorted(kept, owner[~empty]))
+    return rebuilt
+
+
 _KINDS = {
     "line": (shapely.GeometryType.LINESTRING, shapely.GeometryType.MULTILINESTRING),
     "point": (shapely.GeometryType.POINT, shapely.GeometryType.MULTIPOINT),
@@ -85,7 +132,7 @@ _KINDS = {
 }
 
 
-def clean_geometry(geometry: np.ndarray, *, kind: str) -> CleanGeometry:
+def clean_geometry(geometry: np.ndarray, *, kind: str, why_missing: np.ndarray | None = None) -> CleanGeometry:
     """2D geometries of one kind: LineStrings, Points or (multi-)Polygons.
 
     A multi-line keeps its merged line, else its parts chained across the gaps; a multi-point
@@ -95,6 +142,8 @@ def clean_geometry(geometry: np.ndarray, *, kind: str) -> CleanGeometry:
     ----------
     geometry : shapely geometries of one layer (modified in place and returned)
     kind : ``"line"`` (pipes), ``"point"`` (manholes) or ``"polygon"`` (catchments)
+    why_missing : per feature, why the caller removed its geometry (None where it did not);
+        the ``no_geometry`` message of those features
 
     Returns
     -------
@@ -119,8 +168,10 @@ def clean_geometry(geometry: np.ndarray, *, kind: str) -> CleanGeometry:
         flags["multipart_line"], messages["multipart_line"] = _merge_lines(geometry, multi)
     elif kind == "point":
         flags["multipart_point"] = multi & (shapely.get_num_geometries(geometry) > 1)
-        geometry[multi] = shapely.get_geometry(geometry[multi], 0)
+        geometry[multi] = shapely.get_geometry(_without_empty_parts(geometry[multi], shapely.multipoints), 0)
     geometry[empty | flags["wrong_geometry_type"]] = None
+    if why_missing is not None and not pd.isna(why_missing).all():
+        messages["no_geometry"] = np.where(pd.isna(why_missing), GEOMETRY_MESSAGES["no_geometry"], why_missing)
     return CleanGeometry(geometry, drawn_length, flags, messages)
 
 

@@ -5,11 +5,14 @@ order, source CRS), and ``canonical``, the columns of the data contract in DEVEL
 same index, values in SI and geometry in a projected CRS in metres. Every input feature is kept.
 
 A geographic CRS (or a projected one not in metres) is replaced by the UTM zone of the pipes'
-extent; manholes and catchments are brought to the pipes' working CRS.
+extent; manholes and catchments are brought to the pipes' working CRS. How a file is opened, and
+what is done about damaged ones, is in :mod:`audit.layers.files`.
 
 Findings emitted (layer ``pipes``, ``manholes`` or ``catchments``; each message names the field and raw value):
 
-* ``no_geometry``: null or empty geometry; the row stays with no geometry;
+* ``no_geometry``: null or empty geometry, or one that cannot be read, has a coordinate that is
+  not a finite number, or is no place on Earth once projected (the message says which); the row
+  stays with no geometry;
 * ``wrong_geometry_type``: not a line (pipes), point (manholes) or polygon (catchments); dropped;
 * ``multipart_line``: parts that do not join into one line; they are chained in order across the gaps
   (the message gives the parts, their lengths and the gaps; the drawn length is the total of the parts);
@@ -29,19 +32,16 @@ Findings emitted (layer ``pipes``, ``manholes`` or ``catchments``; each message 
 
 from __future__ import annotations
 
-import warnings
-from collections.abc import Iterator, Mapping
-from contextlib import contextmanager
+from collections.abc import Mapping
 from dataclasses import dataclass
 from pathlib import Path
 
-import fiona.errors
 import geopandas as gpd
 import numpy as np
 import pandas as pd
-import pyarrow as pa
 import pyogrio
 import pyproj
+import shapely
 
 from audit.errors import InputError
 from audit.findings import FindingLog
@@ -55,11 +55,14 @@ from audit.layers.fields import (
     report_ids,
     text_column,
 )
+from audit.layers.files import READ_ERRORS, LayerFile, check_source, quiet_measures, read_layer_file
 from audit.layers.geometry import (
     GEOMETRY_MESSAGES,
+    MAX_COORDINATE_M,
     CleanGeometry,
     clean_geometry,
     representative_points,
+    unusable_coordinates,
 )
 from audit.layers.settings import (
     CATCHMENT_UNITS,
@@ -80,17 +83,6 @@ CATCHMENT_NUMBERS = ("population", "dwellings", "occupancy", "area_ha", "runoff_
 GEOMETRY_KINDS = {"pipes": "line", "manholes": "point", "catchments": "polygon"}
 ACCESS_YES = ("1", "true", "t", "yes", "y")  # common practice, no source
 ACCESS_NO = ("0", "false", "f", "no", "n")  # common practice, no source
-_READ_ERRORS = (OSError, RuntimeError, ValueError, fiona.errors.FionaError)
-
-
-@contextmanager
-def quiet_measures() -> Iterator[None]:
-    """Silence the reader's notice that M values are not supported: they are dropped anyway."""
-    with warnings.catch_warnings():
-        warnings.filterwarnings("ignore", message=r"Measured \(M\) geometry types", category=UserWarning)
-        yield
-
-
 @dataclass(frozen=True)
 class LayerData:
     """One layer as read (``original``) and in canonical form (``canonical``)."""
@@ -128,13 +120,16 @@ def _where(source: LayerSource, layer: str | None = None) -> str:
 
 def _layer_name(source: LayerSource, key: str) -> str:
     """The layer to read: the configured one, or the only one in the file."""
-    if not source.path.exists():
-        raise InputError(f"{source.path}: file not found (from {key}.path)")
+    check_source(source.path, key)
     try:
         with quiet_measures():
             names = [str(name) for name in pyogrio.list_layers(source.path)[:, 0]]
-    except _READ_ERRORS as error:
+    except READ_ERRORS as error:
         raise InputError(f"{source.path}: not a readable vector file ({error})") from None
+    except Exception as error:  # a library's own failure on a damaged file
+        raise InputError(f"{source.path}: not a readable vector file ({type(error).__name__} in the reading library: {error})") from None
+    if not names:
+        raise InputError(f"{source.path}: holds no layer")
     if source.layer is None and len(names) == 1:
         return names[0]
     if source.layer in names:
@@ -145,49 +140,12 @@ def _layer_name(source: LayerSource, key: str) -> str:
     raise InputError(f"{_where(source, source.layer)} not found ({key}.layer); the file holds: {listed}")
 
 
-# Integer fields read through Arrow keep an integer type (nullable where a value is missing)
-# instead of becoming floats, so that the output writes them back as integers.
-_INTEGER_DTYPES = {
-    pa.int8(): pd.Int8Dtype(), pa.int16(): pd.Int16Dtype(), pa.int32(): pd.Int32Dtype(), pa.int64(): pd.Int64Dtype(),
-    pa.uint8(): pd.UInt8Dtype(), pa.uint16(): pd.UInt16Dtype(), pa.uint32(): pd.UInt32Dtype(), pa.uint64(): pd.UInt64Dtype(),
-}  # fmt: skip
-
-
-def _read_original(source: LayerSource, key: str, *, engine: str) -> tuple[gpd.GeoDataFrame, str]:
+def _read_original(source: LayerSource, key: str, *, engine: str) -> tuple[LayerFile, str]:
     layer = _layer_name(source, key)
-    options: dict[str, object] = {}
-    if engine == "pyogrio":
-        options = {"use_arrow": True, "arrow_to_pandas_kwargs": {"types_mapper": _INTEGER_DTYPES.get}}
-    try:
-        with quiet_measures():
-            frame = gpd.read_file(source.path, layer=layer, engine=engine, **options)
-            if engine == "fiona":
-                frame = _declared_types(frame, source.path, layer)
-    except _READ_ERRORS as error:
-        raise InputError(f"{_where(source, layer)}: cannot be read ({error})") from None
-    if not isinstance(frame, gpd.GeoDataFrame) or frame.geometry.name not in frame:
+    read = read_layer_file(source.path, layer, engine=engine, where=_where(source, layer))
+    if not isinstance(read.frame, gpd.GeoDataFrame) or read.frame.geometry.name not in read.frame:
         raise InputError(f"{_where(source, layer)}: has no geometry column")
-    return frame, layer
-
-
-def _declared_types(frame: gpd.GeoDataFrame, path: Path, layer: str) -> gpd.GeoDataFrame:
-    """The fields fiona read as floats or text back in the type the file declares.
-
-    Integer fields with a missing value come back as floats, narrow integers as 64-bit ones and
-    Date fields as text; all are restored (nullable integers of the declared width, dates) so the
-    output writes them as the input had them.
-    """
-    info = pyogrio.read_info(path, layer=layer)
-    for name, declared in zip(info["fields"], info["dtypes"], strict=True):
-        if name not in frame.columns:
-            continue
-        column = frame[name]
-        numeric = pd.api.types.is_float_dtype(column.dtype) or pd.api.types.is_integer_dtype(column.dtype)
-        if str(declared).startswith(("int", "uint")) and numeric and not pd.api.types.is_bool_dtype(column.dtype):
-            frame[name] = column.astype(str(declared).capitalize().replace("Uint", "UInt"))
-        elif str(declared) == "datetime64[D]" and not pd.api.types.is_datetime64_any_dtype(column.dtype):
-            frame[name] = pd.to_datetime(column, errors="coerce").dt.date.astype(pd.ArrowDtype(pa.date32()))
-    return frame
+    return read, layer
 
 
 def _source_crs(frame: gpd.GeoDataFrame, source: LayerSource, key: str, layer: str) -> pyproj.CRS:
@@ -213,10 +171,17 @@ def working_crs(geometry: gpd.GeoSeries, *, where: str) -> pyproj.CRS:
     crs = pyproj.CRS.from_user_input(geometry.crs)
     if crs.is_projected and all(axis.unit_name in ("metre", "meter") for axis in crs.axis_info):
         return crs
-    valid = geometry[~(geometry.isna() | geometry.is_empty)]
+    shapes = geometry.to_numpy()
+    valid = geometry[~(shapely.is_missing(shapes) | shapely.is_empty(shapes) | unusable_coordinates(shapes))]
     if valid.empty:
         raise InputError(f"{where}: no feature has a geometry, so no projected CRS can be chosen")
-    return pyproj.CRS.from_user_input(valid.estimate_utm_crs())
+    try:
+        return pyproj.CRS.from_user_input(valid.estimate_utm_crs())
+    except (RuntimeError, ValueError, pyproj.exceptions.CRSError):
+        xmin, ymin, xmax, ymax = valid.total_bounds
+        raise InputError(f"{where}: no UTM zone covers the layer's extent (x {xmin:.6g} to {xmax:.6g}, y {ymin:.6g} to {ymax:.6g} "
+                         f"in {crs.name}), so no projected CRS in metres can be chosen: the coordinates lie outside the CRS's area "
+                         "of use; check the layer's CRS, or give the layer in a projected CRS in metres") from None  # fmt: skip
 
 
 def _field(frame: gpd.GeoDataFrame, wanted: str, *, key: str, where: str) -> pd.Series:
@@ -243,10 +208,35 @@ def _report_geometry(report: Reporter, cleaned: CleanGeometry, *, original: np.n
         report.add(mask, code, messages)
 
 
-def _geometry(frame: gpd.GeoDataFrame, source_crs: pyproj.CRS, crs: pyproj.CRS, *, kind: str) -> tuple[gpd.GeoSeries, CleanGeometry]:
-    """Geometry in the working CRS, cleaned there so that lengths and gaps are in metres."""
-    projected = gpd.GeoSeries(frame.geometry.to_numpy().copy(), index=frame.index, crs=source_crs).to_crs(crs)
-    cleaned = clean_geometry(projected.to_numpy().copy(), kind=kind)
+_UNREADABLE = "the geometry stored in the file cannot be read (a damaged blob); the feature is kept without it"
+_NOT_FINITE = "a coordinate of the geometry is not a finite number (NaN or infinite); the feature is kept without it"
+_NOT_PROJECTED = ("once projected to the working CRS a coordinate is not finite or lies farther out than any place on Earth (the "
+                  "geometry lies outside its CRS's area of use); the feature is kept without it")  # fmt: skip
+
+
+def _geometry(read: LayerFile, source_crs: pyproj.CRS, crs: pyproj.CRS, *, kind: str, where: str) -> tuple[gpd.GeoSeries, CleanGeometry]:
+    """Geometry in the working CRS, cleaned there so that lengths and gaps are in metres.
+
+    A geometry that cannot be read, has a coordinate that is not finite, or loses its coordinates
+    in the projection is removed before the clean-up, with the reason as its ``no_geometry`` message.
+    """
+    frame = read.frame
+    given = frame.geometry.to_numpy().copy()
+    why = np.full(len(given), None, dtype=object)
+    why[read.unreadable] = _UNREADABLE
+    not_finite = unusable_coordinates(given)
+    why[not_finite] = _NOT_FINITE
+    given[not_finite] = None
+    try:
+        with np.errstate(all="ignore"):
+            projected = gpd.GeoSeries(given, index=frame.index, crs=source_crs).to_crs(crs).to_numpy().copy()
+    except (pyproj.exceptions.ProjError, pyproj.exceptions.CRSError) as error:
+        raise InputError(f"{where}: cannot be projected from {source_crs.name} to the working CRS {crs.name} ({error})") from None
+    lost = unusable_coordinates(projected, limit=MAX_COORDINATE_M) & ~not_finite
+    why[lost] = _NOT_PROJECTED
+    projected[lost] = None
+    with np.errstate(all="ignore"):
+        cleaned = clean_geometry(projected, kind=kind, why_missing=why)
     return gpd.GeoSeries(cleaned.geometry, index=frame.index, crs=crs), cleaned
 
 
@@ -391,7 +381,8 @@ _ORDER = {"pipes": ("pipe_id", PIPE_ORDER), "manholes": ("manhole_id", MANHOLE_O
 def _read_layer(source: LayerSource, key: str, *, options: InputOptions, findings: FindingLog,
                 crs: pyproj.CRS | None) -> LayerData:  # fmt: skip
     """Read one layer; ``crs`` is the working CRS, or None to choose it from this layer."""
-    frame, layer = _read_original(source, key, engine=options.engine)
+    read, layer = _read_original(source, key, engine=options.engine)
+    frame = read.frame
     where = _where(source, layer)
     source_crs = _source_crs(frame, source, key, layer)
     if crs is None:
@@ -400,7 +391,7 @@ def _read_layer(source: LayerSource, key: str, *, options: InputOptions, finding
     id_field = source.fields.get("id")
     raw_id = None if id_field is None else _field(frame, id_field, key=f"{key}.fields.id", where=where)
     ids, missing = feature_ids(raw_id, count=len(frame))
-    geometry, clean = _geometry(frame, source_crs, crs, kind=kind)
+    geometry, clean = _geometry(read, source_crs, crs, kind=kind, where=where)
     cleaned = geometry.to_numpy()
     report = Reporter(findings, key, ids, lambda rows: representative_points(cleaned[rows], kind=kind))
     _report_geometry(report, clean, original=frame.geometry.to_numpy())

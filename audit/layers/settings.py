@@ -139,8 +139,10 @@ def _unit_map(check: ConfigProblems, data: object, key: str, spec: Mapping[str, 
     for name, (quantity, default) in spec.items():
         value = table.get(name, default)
         accepted = FACTORS[quantity]
-        if not isinstance(value, str) or normalise_unit(value) not in accepted:
-            check.fail(f"{key}.{name}", f"{'an' if quantity[0] in 'aeiou' else 'a'} {quantity} unit, one of {', '.join(SPELLING[u] for u in accepted)}", value)
+        # a unit with a stray space is refused, not trimmed: the file should say what it means
+        if not isinstance(value, str) or value != value.strip() or normalise_unit(value) not in accepted:
+            stray = " (without the stray space)" if isinstance(value, str) and value != value.strip() else ""
+            check.fail(f"{key}.{name}", f"{'an' if quantity[0] in 'aeiou' else 'a'} {quantity} unit{stray}, one of {', '.join(SPELLING[u] for u in accepted)}", value)
             value = default
         units[name] = normalise_unit(value)
     return MappingProxyType(units)
@@ -177,6 +179,16 @@ def _sentinel_map(check: ConfigProblems, data: object, key: str, names: tuple[st
     return MappingProxyType(sentinels)
 
 
+def _resolved(check: ConfigProblems, path: Path, key: str) -> Path:
+    """The absolute path; where it cannot be resolved (a link that loops, too long), the path as given after a reported problem."""
+    try:
+        return path.resolve()
+    except (OSError, RuntimeError) as error:  # RuntimeError: pathlib's own word for a symbolic link that loops
+        why = "a symbolic link that loops" if isinstance(error, RuntimeError) else error.strerror or str(error)
+        check.fail(key, f"a path that can be opened ({why})", str(path))
+        return path
+
+
 _LAYER_KEYS: Mapping[str, tuple[tuple[str, ...], Mapping[str, tuple[str, str]]]] = MappingProxyType(
     {"pipes": (PIPE_FIELDS, PIPE_UNITS), "manholes": (MANHOLE_FIELDS, MANHOLE_UNITS), "catchments": (CATCHMENT_FIELDS, CATCHMENT_UNITS)}
 )
@@ -193,7 +205,7 @@ def parse_layer_source(check: ConfigProblems, data: object, key: str, folder: Pa
     if path is None and "path" not in table:
         check.fail(f"{key}.path", "the path of the layer's file (required)")
     return LayerSource(
-        path=(folder / (path or "")).resolve(),
+        path=_resolved(check, folder / (path or ""), f"{key}.path"),
         layer=check.text(table, "layer", key, None),
         crs=_crs(check, table, key),
         fields=_field_map(check, table.get("fields", {}), f"{key}.fields", names),

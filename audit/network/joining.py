@@ -227,7 +227,7 @@ def _junctions(
     placeholder) share a junction named by that id.
     """
     end_node, flat_xy = end_pairs.reshape(-1), end_xy.reshape(-1, 2)
-    located = ~np.isnan(flat_xy).any(axis=1)
+    located = np.isfinite(flat_xy).all(axis=1)  # an end at infinity is no place to meet (and no point a k-d tree holds)
     free = np.flatnonzero((end_node < 0) & located)
     label = _apart(cluster_points(flat_xy[free], tolerance_m=tolerance_m), free)
     cluster_count = int(label.max()) + 1 if label.size else 0

@@ -83,8 +83,8 @@ def nearest_points(
 
     Parameters
     ----------
-    ends_xy : float array (m, 2) of end coordinates [m]; rows with NaN never snap
-    points_xy : float array (k, 2) of target coordinates [m]; rows with NaN are never targets
+    ends_xy : float array (m, 2) of end coordinates [m]; rows with NaN or infinity never snap
+    points_xy : float array (k, 2) of target coordinates [m]; rows with NaN or infinity are never targets
     tolerance_m : largest distance at which an end still snaps (inclusive) [m]
     count : how many of the nearest points to return per end, nearest first
 
@@ -104,8 +104,8 @@ def nearest_points(
     """
     hit = np.full((len(ends_xy), count), -1, dtype=np.int64)
     distance = np.full((len(ends_xy), count), np.nan)
-    end_ok = np.flatnonzero(~np.isnan(ends_xy).any(axis=1))
-    target_ok = np.flatnonzero(~np.isnan(points_xy).any(axis=1))
+    end_ok = np.flatnonzero(np.isfinite(ends_xy).all(axis=1))  # the tree holds finite points only
+    target_ok = np.flatnonzero(np.isfinite(points_xy).all(axis=1))
     if end_ok.size == 0 or target_ok.size == 0:
         return hit, distance
     bound = np.nextafter(tolerance_m, np.inf)  # the tree's bound is strict; the tolerance is not

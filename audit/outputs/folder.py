@@ -21,10 +21,11 @@ from __future__ import annotations
 
 import contextlib
 import ctypes
+import errno
 import os
 import secrets
 import shutil
-from collections.abc import Iterator
+from collections.abc import Iterable, Iterator
 from pathlib import Path
 
 from audit.errors import AuditError, OutputExistsError
@@ -35,13 +36,17 @@ _AT_FDCWD = -100
 
 
 @contextlib.contextmanager
-def staged_folder(outdir: Path, *, overwrite: bool) -> Iterator[Path]:
+def staged_folder(outdir: Path, *, overwrite: bool, keep: Iterable[Path] = ()) -> Iterator[Path]:
     """A fresh folder beside ``outdir`` to write the outputs into; it becomes ``outdir`` when the block ends well.
+
+    ``keep`` are files no output may replace (the run's inputs): where the block wrote a file
+    under the name of one of them inside ``outdir``, nothing is moved into place.
 
     Raises
     ------
     OutputExistsError
-        ``outdir`` is a file, or holds files and ``overwrite`` is not given.
+        ``outdir`` is a file, or holds files and ``overwrite`` is not given, or an output would
+        replace a file of ``keep``.
     AuditError
         the folder cannot be created or moved into place (the message names it and why).
     """
@@ -52,19 +57,64 @@ def staged_folder(outdir: Path, *, overwrite: bool) -> Iterator[Path]:
         outdir.parent.mkdir(parents=True, exist_ok=True)
         recover_leftovers(outdir)
     except OSError as error:
-        raise AuditError(f"{outdir}: cannot create the output folder: {error.strerror or error}") from error
+        raise AuditError(f"{outdir}: cannot create the output folder: {problem(error, outdir.parent)}") from error
     _check_target(outdir, overwrite=overwrite)
     try:
         stage = _sibling(outdir, _PARTIAL)
         stage.mkdir()
     except OSError as error:
-        raise AuditError(f"{outdir}: cannot create the output folder: {error.strerror or error}") from error
+        raise AuditError(f"{outdir}: cannot create the output folder: {problem(error, outdir.parent)}") from error
     try:
         yield stage
-        _carry_over_other_files(outdir, stage)
+        _refuse_replacing(stage, outdir, keep)
+        try:
+            _carry_over_other_files(outdir, stage)
+        except OSError as error:
+            raise AuditError(f"{outdir}: cannot carry its other files over: {problem(error, stage)}") from error
         _swap_into_place(stage, outdir)
     finally:
         shutil.rmtree(stage, ignore_errors=True)
+
+
+_FULL_BELOW_BYTES = 1 << 20  # a file system with less free space than this after a failed write is full [bytes]
+_FULL_WORDS = ("no space left", "disk is full", "database or disk is full")
+
+
+def disk_full(error: BaseException, folder: Path) -> bool:
+    """Whether a failed write failed for want of space: the error says so, or ``folder``'s file system has under 1 MiB free.
+
+    SQLite (inside GDAL) often reports a full disk only by what failed next ("cannot rollback -
+    no transaction is active", "no such table"), so the free space is asked as well.
+    """
+    if isinstance(error, OSError) and error.errno in (errno.ENOSPC, errno.EDQUOT):
+        return True
+    if any(words in str(error).lower() for words in _FULL_WORDS):
+        return True
+    try:
+        return shutil.disk_usage(folder).free < _FULL_BELOW_BYTES
+    except OSError:
+        return False
+
+
+def problem(error: BaseException, folder: Path) -> str:
+    """What went wrong in a write, for a message: "the disk is full", else the library's first line (at most 300 characters)."""
+    if disk_full(error, folder):
+        said = getattr(error, "strerror", None)
+        return f"the disk is full{f' ({said})' if said else ''}; free some space and run again"
+    lines = str(error).strip().splitlines()
+    text = getattr(error, "strerror", None) or (lines[0] if lines else type(error).__name__)
+    return text if len(text) <= 300 else text[:297] + "..."
+
+
+def _refuse_replacing(stage: Path, outdir: Path, keep: Iterable[Path]) -> None:
+    """Refuse to move ``stage`` into place where a file written there would take the place of one of ``keep``."""
+    for path in keep:
+        try:
+            inside = Path(path).resolve().relative_to(outdir.resolve())
+        except (ValueError, OSError, RuntimeError):
+            continue  # not inside the output folder
+        if (stage / inside).exists():
+            raise OutputExistsError(f"{outdir / inside}: this output file would replace the input {path}; choose another output folder")
 
 
 def recover_leftovers(outdir: Path) -> None:
@@ -124,7 +174,7 @@ def _swap_into_place(stage: Path, outdir: Path) -> None:
         os.rename(stage, outdir)
         os.rename(old, stage)
     except OSError as error:
-        raise AuditError(f"{outdir}: cannot move the outputs into place: {error.strerror or error}") from error
+        raise AuditError(f"{outdir}: cannot move the outputs into place: {problem(error, outdir.parent)}") from error
 
 
 def _exchange(first: Path, second: Path) -> bool:
