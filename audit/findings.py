@@ -26,6 +26,8 @@ FINDING_CODES: frozenset[str] = frozenset({
     # design flows
     "flow_split", "loop_flow", "unknown_outlet", "catchment_unplaced", "no_runoff_coefficient", "runoff_out_of_range",
     "tc_not_settled", "catchment_at_outfall",
+    # the hydraulic grade line
+    "grade_line_break",
     # the settings
     "unusual_setting",
     # writing the outputs

@@ -20,7 +20,9 @@ from tqdm import tqdm
 from audit.config import Config, load_config
 from audit.findings import FindingLog
 from audit.flows import DesignFlows, built_flows, flow_assumptions
+from audit.grade_line import BoundaryKind, FloodState, FullCause, GradeLine, Outfall, PipeRegime, grade_line, node_boundaries
 from audit.hydraulics import (
+    GRAVITY,
     FlowState,
     FlowStatus,
     Friction,
@@ -28,10 +30,12 @@ from audit.hydraulics import (
     PipeSections,
     full_bore,
     normal_depth,
+    water_density,
     water_kinematic_viscosity,
 )
 from audit.layers import Layers, read_layers
 from audit.network import Network, arrow_text, build_network, derive_levels, pipe_labels
+from audit.renewal import Programme, cleansing_criterion, read_condition, read_critical_areas, renewal_programme
 from audit.result import (
     PIPE_COLUMNS,
     AuditResult,
@@ -40,9 +44,10 @@ from audit.result import (
     network_totals,
     with_columns,
 )
-from audit.rules import JUDGED_KINDS, check_pipes, cleansing_state, unusual_values
+from audit.rules import JUDGED_KINDS, check_manholes, check_pipes, cleansing_state, unusual_values
+from audit.units import LENGTH_FACTORS
 
-STAGES = ("reading layers", "building the network", "slopes", "design flows", "hydraulics", "rules", "assembling")
+STAGES = ("reading layers", "building the network", "slopes", "design flows", "hydraulics", "grade line", "rules", "renewal", "assembling")
 
 # hydraulic statuses as the rules stage reads them: a flow above full bore still has a normal
 # depth (the load-ratio rules judge it); zero flow and an unknown shape leave a check unrun.
@@ -123,21 +128,93 @@ def run(config: Config | str | Path, *, progress: bool = False) -> AuditResult:
             collects=np.isin(kind, JUDGED_KINDS),
         )
         _step(bar, 4)
-        state = normal_depth(flows.q_design, hydraulics.sections, hydraulics.slope, hydraulics.friction, temperature_c=hydraulics.temperature_c)
-        state = _gravity_only(state, judged=np.isin(kind, JUDGED_KINDS))
+        uniform = normal_depth(flows.q_design, hydraulics.sections, hydraulics.slope, hydraulics.friction, temperature_c=hydraulics.temperature_c)
+        judged = np.isin(kind, JUDGED_KINDS)
+        state = _gravity_only(uniform, judged=judged)
         cleansing = cleansing_state(ready.config.rules, state=state, flows=flows, pipes=hydraulics)
         _step(bar, 5)
+        grade = _grade_line(ready, flows.q_design, hydraulics, uniform=uniform, evaluate=judged & ~ready.network.left_out)
+        state = replace(state, shear=_shear(state, grade, hydraulics))
+        _step(bar, 6)
         computed = _computed_columns(ready, flows, state, height=height).assign(v_cleansing=cleansing.velocity, shear_cleansing=cleansing.shear)
+        computed = computed.assign(**_grade_line_columns(grade, ready.levels))
         checks = check_pipes(
-            _metrics(pipes, computed, state, flows, height=height, labels=labels, sections=hydraulics.sections),
+            _metrics(pipes, computed, state, flows, height=height, labels=labels, sections=hydraulics.sections, grade=grade),
             upstream=network.upstream,
             downstream=network.downstream,
             node_access=network.nodes["access"].to_numpy(dtype=bool),
             settings=ready.config.rules,
             units=ready.config.output_units,
         )
-        _step(bar, 6)
-        return _result(ready, flows, computed.join(checks[["flags", "severity", "reasons", "access_run_m"]]))
+        _step(bar, 7)
+        computed = computed.join(checks[["flags", "severity", "reasons", "access_run_m"]])
+        programme = _programme(ready, flows, computed, hydraulics, grade=grade, labels=labels)
+        computed = computed.assign(**_programme_columns(programme))
+        _step(bar, 8)
+        return _result(ready, flows, computed, grade=grade, schemes=programme.schemes)
+
+
+def _grade_line(ready: Prepared, flow: np.ndarray, hydraulics: PipeHydraulics, *, uniform: FlowState, evaluate: np.ndarray) -> GradeLine:
+    """The hydraulic grade line at the design flows, with the outfalls' boundaries from ``[grade_line]``.
+
+    Every outfall takes its boundary (the default, or its own entry by node id); a pump station's
+    wet well is a free outfall for the gravity pipes that reach it. Anywhere else the grade line
+    has to start (the pipe below could not be evaluated) is a ``grade_line_break`` finding.
+    """
+    network, config, findings = ready.network, ready.config, ready.findings
+    nodes = network.nodes
+    ends = np.zeros(len(nodes), dtype=bool)
+    ends[network.outfalls] = True
+    ids = nodes["node_id"].to_numpy(dtype=object)
+    boundary, raw_level, unknown = node_boundaries(config.grade_line, ids, ends)
+    pumps = (nodes["role"].to_numpy(dtype=object) == "pump_station") & (boundary < 0)
+    boundary[pumps] = np.int8(BoundaryKind.FREE)
+    for name in unknown:  # a loop over the config's entries
+        findings.add("config", f"grade_line.outfalls.{name}", "unusual_setting", f"grade_line.outfalls names node '{name}', which no pipe "
+                     "reaches; its boundary is not used")  # fmt: skip
+    grade = grade_line(
+        hydraulics, flow=flow, upstream=network.upstream, downstream=network.downstream, node_count=len(nodes),
+        up_invert=ready.levels["up_invert"].to_numpy(dtype=float), down_invert=ready.levels["down_invert"].to_numpy(dtype=float),
+        node_rim=nodes["rim"].to_numpy(dtype=float), boundary=boundary, boundary_level=raw_level * _level_factor(config),
+        evaluate=evaluate, settings=config.grade_line, uniform=uniform,
+    )  # fmt: skip
+    _report_breaks(network, grade.boundary_assumed, findings=findings)
+    return grade
+
+
+def _level_factor(config: Config) -> float:
+    """Metres per unit of the levels in the layers ([manholes.units] rim, else [pipes.units] upstream_invert)."""
+    unit = config.manholes.units.get("rim", "m") if config.manholes is not None else config.pipes.units.get("upstream_invert", "m")
+    return LENGTH_FACTORS[unit]
+
+
+def _report_breaks(network: Network, assumed: np.ndarray, *, findings: FindingLog) -> None:
+    """A ``grade_line_break`` finding at each node where the grade line starts without an outfall."""
+    node = np.flatnonzero(assumed)
+    if not node.size:
+        return
+    nodes = network.nodes
+    ids = nodes["node_id"].to_numpy(dtype=object)[node].astype(str)
+    xy = nodes[["x", "y"]].to_numpy(dtype=float)[node]
+    message = [f"the grade line starts at '{name}' as a free outfall: no pipe below it could be evaluated (size, slope, levels or "
+               "flow missing), so the water levels upstream of it may be too low" for name in ids]  # fmt: skip
+    manhole = nodes["manhole_row"].to_numpy(dtype=np.int64)[node] >= 0
+    messages = np.asarray(message, dtype=object)
+    for layer, pick in (("manholes", manhole), ("network", ~manhole)):  # a manhole, or a junction of pipe ends
+        if pick.any():
+            findings.add_many(layer, ids[pick], "grade_line_break", messages[pick], x=xy[pick, 0], y=xy[pick, 1])
+
+
+def _shear(state: FlowState, grade: GradeLine, hydraulics: PipeHydraulics) -> np.ndarray:
+    r"""Boundary shear [Pa]: :math:`\rho g R S` at normal depth, and where the pipe runs full
+    :math:`\rho g R_f S_f` with the full-bore hydraulic radius and the friction slope, not the bed slope."""
+    full = np.isfinite(grade.full_friction_slope)
+    if not full.any():
+        return state.shear
+    area, perimeter = hydraulics.sections.full()
+    with np.errstate(invalid="ignore", divide="ignore"):
+        full_shear = water_density(hydraulics.temperature_c) * GRAVITY * area / perimeter * grade.full_friction_slope
+    return np.where(full, full_shear, state.shear)
 
 
 def _step(bar: tqdm | None, index: int) -> None:
@@ -233,6 +310,58 @@ def _computed_columns(ready: Prepared, flows: DesignFlows, state: FlowState, *, 
     return pd.DataFrame(columns, index=ready.layers.pipes.canonical.index, copy=False)
 
 
+_REGIME_LABELS = np.array([regime.label for regime in PipeRegime], dtype=object)
+_CAUSE_LABELS = np.array([cause.label for cause in FullCause], dtype=object)
+_FLOOD_LABELS = np.array([state.label for state in FloodState], dtype=object)
+
+
+def _grade_line_columns(grade: GradeLine, levels: pd.DataFrame) -> dict[str, object]:
+    """The grade line's pipe columns of ``PIPE_COLUMNS``."""
+    return {
+        "water_level_up_m": grade.level_up,
+        "water_level_down_m": grade.level_down,
+        "depth_up_m": grade.depth_up,
+        "depth_down_m": grade.depth_down,
+        "critical_depth_m": grade.critical_depth,
+        "froude": grade.froude,
+        "flow_regime": _as_column(pa.array(_REGIME_LABELS[grade.regime].tolist(), type=pa.string())),
+        "full_cause": _as_column(pa.array(_CAUSE_LABELS[grade.full_cause].tolist(), type=pa.string())),
+    }
+
+
+def _node_columns(ready: Prepared, grade: GradeLine) -> dict[str, np.ndarray]:
+    """The grade line's results per node, with the manhole flags (``MANHOLE_COLUMNS``)."""
+    config, network = ready.config, ready.network
+    rim = network.nodes["rim"].to_numpy(dtype=float)
+    state = _FLOOD_LABELS[grade.flood_state]
+    flags = check_manholes(state, level=grade.node_level, rim=rim, freeboard_m=config.grade_line.freeboard_m,
+                           settings=config.rules, units=config.output_units)  # fmt: skip
+    return {
+        "rim_m": rim,
+        "water_level_m": grade.node_level,
+        "freeboard_m": grade.freeboard,
+        "flood_depth_m": grade.flood_depth,
+        "flood_state": state,
+        "boundary": _boundary_words(ready, grade),
+        "flags": flags["flags"].to_numpy(dtype=object),
+        "severity": flags["severity"].to_numpy(dtype=object),
+        "reasons": flags["reasons"].to_numpy(dtype=object),
+    }
+
+
+def _boundary_words(ready: Prepared, grade: GradeLine) -> np.ndarray:
+    """Per node the boundary the grade line started from there: ``free``, ``normal``, ``fixed``, ``free (assumed)``, or ""."""
+    network = ready.network
+    ends = np.zeros(len(network.nodes), dtype=bool)
+    ends[network.outfalls] = True
+    codes, _, _ = node_boundaries(ready.config.grade_line, network.nodes["node_id"].to_numpy(dtype=object), ends)
+    pumps = network.nodes["role"].to_numpy(dtype=object) == "pump_station"
+    codes = np.where(pumps & (codes < 0), np.int8(BoundaryKind.FREE), codes)
+    words = np.array(["", *(kind.label for kind in BoundaryKind)], dtype=object)[codes + 1]
+    words[grade.boundary_assumed] = "free (assumed)"
+    return words
+
+
 def _node_text(node_ids: pa.Array, node: np.ndarray) -> pa.Array:
     """The id of each pipe's node; null where the pipe has none (-1)."""
     return node_ids.take(pa.array(np.maximum(node, 0), mask=node < 0))
@@ -255,7 +384,7 @@ def _flow_parts(flows: DesignFlows) -> dict[str, np.ndarray]:
 
 def _metrics(
     pipes: pd.DataFrame, computed: pd.DataFrame, state: FlowState, flows: DesignFlows, *, height: np.ndarray, labels: np.ndarray,
-    sections: PipeSections,
+    sections: PipeSections, grade: GradeLine,
 ) -> pd.DataFrame:
     """The frame the rules read (``audit.rules.METRIC_COLUMNS``); ``height`` [m], ``labels`` pipe ids.
 
@@ -280,6 +409,12 @@ def _metrics(
             "shear_cleansing": computed["shear_cleansing"].to_numpy(),
             "population_served": computed["population_served"].to_numpy(),
             "kind": text(pipes["kind"].to_numpy(dtype=object)),
+            "flow_regime": text(_REGIME_LABELS[grade.regime]),
+            "full_cause": text(_CAUSE_LABELS[grade.full_cause]),
+            "froude": grade.froude,
+            "jump": grade.jump.astype(float),
+            "depth_up": grade.depth_up,
+            "depth_down": grade.depth_down,
         },
         index=computed.index,
         copy=False,
@@ -291,29 +426,77 @@ def _objects(values: np.ndarray | pd.Series, *, index: pd.Index) -> pd.Series:
     return pd.Series(np.asarray(values, dtype=object), index=index, dtype=object)
 
 
-def _result(ready: Prepared, flows: DesignFlows, computed: pd.DataFrame) -> AuditResult:
+def _result(ready: Prepared, flows: DesignFlows, computed: pd.DataFrame, *, grade: GradeLine, schemes: pd.DataFrame) -> AuditResult:
     """Put the computed columns beside the original features and gather the totals."""
     layers, config = ready.layers, ready.config
     crs = layers.pipes.original.crs or config.pipes.crs
     computed = computed[list(PIPE_COLUMNS)]
     pipes = with_columns(layers.pipes.original, computed, ready.findings, layer="pipes")
-    manholes = manhole_output(layers, ready.network, flows.node_total, ready.findings) if layers.manholes is not None else None
+    node_columns = _node_columns(ready, grade)
+    manholes = manhole_output(layers, ready.network, flows.node_total, ready.findings, node_columns=node_columns) if layers.manholes is not None else None
     findings = finding_points(ready.findings, source_crs=layers.crs, target_crs=crs)
     sources = (config.pipes, config.manholes, config.catchments)
     inputs = tuple(dict.fromkeys(source.path for source in sources if source is not None))
     settings = {"hydraulics": asdict(config.hydraulics), "network": asdict(config.network), "working_crs": layers.crs.to_string(),
-                "flows": flow_assumptions(config.flows, flows)}
+                "flows": flow_assumptions(config.flows, flows), "grade_line": _grade_line_settings(config), "title": config.title}
     return AuditResult(
         pipes=gpd.GeoDataFrame(pipes, geometry=layers.pipes.original.geometry.name, crs=crs),
         manholes=manholes,
         findings=findings,
         rules=config.rules,
         settings=settings,
-        totals=network_totals(layers, ready.network, computed),
+        totals=network_totals(layers, ready.network, computed, node_columns=node_columns),
         missing_fields=layers.missing_fields,
         inputs=inputs,
         config_path=config.source,
         canonical_pipes=pd.DataFrame(layers.pipes.canonical.drop(columns="geometry")),
+        canonical_manholes=None if layers.manholes is None else pd.DataFrame(layers.manholes.canonical.drop(columns="geometry")),
+        schemes=schemes,
         computed=computed,
         units=config.output_units,
     )
+
+
+def _programme(ready: Prepared, flows: DesignFlows, computed: pd.DataFrame, hydraulics: PipeHydraulics, *, grade: GradeLine,
+               labels: np.ndarray) -> Programme:  # fmt: skip
+    """The renewal programme: a remedy, a scheme and a risk for every pipe (``[renewal]``, docs/renewal.md)."""
+    config, layers, network, findings = ready.config, ready.layers, ready.network, ready.findings
+    settings = config.renewal
+    pipes = layers.pipes.canonical
+    rim = network.nodes["rim"].to_numpy(dtype=float)
+    up, down = network.upstream, network.downstream
+    up_rim = np.where(up >= 0, rim[np.maximum(up, 0)], np.nan)
+    down_rim = np.where(down >= 0, rim[np.maximum(down, 0)], np.nan)
+    condition = None if settings.condition is None else read_condition(settings.condition, findings=findings)
+    areas = read_critical_areas(settings.critical_areas, crs=layers.crs, findings=findings)
+    status = computed["hydraulic_status"].astype(str).to_numpy()
+    return renewal_programme(
+        pipes=hydraulics, flags=computed["flags"].astype(str).to_numpy(dtype=object), severity=computed["severity"].astype(str).to_numpy(dtype=object),
+        q_design=flows.q_design, load_ratio=computed["load_ratio"].to_numpy(dtype=float),
+        population_served=computed["population_served"].to_numpy(dtype=float), install_year=pipes["install_year"].to_numpy(dtype=float),
+        material=pipes["material"].to_numpy(dtype=object), up_depth_m=up_rim - ready.levels["up_invert"].to_numpy(dtype=float),
+        down_depth_m=down_rim - ready.levels["down_invert"].to_numpy(dtype=float), upstream=up, downstream=down,
+        node_flooding=grade.flood_state == FloodState.FLOODING, geometry=pipes.geometry.to_numpy(), pipe_ids=labels,
+        cleansing=cleansing_criterion(config.rules, flows), evaluated=np.isin(status, ("ok", "above_full_bore", "surcharged")),
+        settings=settings, condition=condition, critical_areas=areas, findings=findings,
+    )  # fmt: skip
+
+
+def _programme_columns(programme: Programme) -> dict[str, object]:
+    """The programme's pipe columns of ``PIPE_COLUMNS`` (its ``rank`` as ``renewal_rank``)."""
+    columns = programme.columns()
+    text = {name: _as_column(pa.array(columns[name].astype(object).tolist(), type=pa.string()))
+            for name in ("remedy", "remedy_kind", "scheme_id", "likelihood_driver", "consequence_driver", "risk_driver")}  # fmt: skip
+    numbers = {name: columns[name].to_numpy() for name in ("remedy_size_m", "remedy_slope", "scheme_position", "likelihood", "consequence", "risk", "review")}
+    return {**text, **numbers, "renewal_rank": programme.rank}
+
+
+def _grade_line_settings(config: Config) -> dict[str, object]:
+    """``[grade_line]`` as used, JSON-safe: boundaries by name, fixed levels as given (the layers' level units)."""
+    settings = config.grade_line
+
+    def boundary(outfall: Outfall) -> object:
+        return outfall.level if outfall.kind == BoundaryKind.FIXED else outfall.kind.label
+
+    return {"outfall": boundary(settings.outfall), "outfalls": {name: boundary(entry) for name, entry in settings.outfalls.items()},
+            "manhole_loss": settings.manhole_loss, "freeboard_m": settings.freeboard_m, "profile_steps": settings.profile_steps}  # fmt: skip

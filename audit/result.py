@@ -51,8 +51,17 @@ PIPE_COLUMNS: dict[str, str] = {
     "hydraulic_status": "ok, above_full_bore, surcharged, or why the hydraulics could not run; pressure_pipe, overflow or "
                         "left_out for a pipe the gravity rules do not judge",
     "pipe_kind": "gravity, private, rising_main, siphon, overflow or abandoned ([pipes.kinds]; gravity where unmapped)",
+    "water_level_up_m": "hydraulic grade line at the upstream end at the design flow [m]: the water level, or the pressure head where full",
+    "water_level_down_m": "hydraulic grade line at the downstream end [m]",
+    "depth_up_m": "water_level_up_m - upstream invert [m]; above the internal height where the pipe runs full there",
+    "depth_down_m": "water_level_down_m - downstream invert [m]",
+    "critical_depth_m": "critical depth at the design flow [m]",
+    "froude": "Froude number at normal depth [-]: above 1 supercritical",
+    "flow_regime": "subcritical, supercritical, free_fall, partly_pressurised, pressurised, above_bank_full, dry or not_evaluated",
+    "full_cause": "why the pipe runs full over some of its length: own_capacity, backwater (held up by the level below), "
+                  "or none",
     "flags": "rule flag codes joined by ';' (empty when none)",
-    "severity": "worst severity among the flags: high, medium, low (empty when none)",
+    "severity": "worst severity among the flags: high, medium, low, or none",
     "reasons": "one reason per flag with the numbers, joined by '; '",
     "from_node_id": "the node the pipe flows from (manhole id, or J<n> for an unnamed junction)",
     "to_node_id": "the node the pipe flows into",
@@ -61,6 +70,20 @@ PIPE_COLUMNS: dict[str, str] = {
     "q_sanitary": "peaked sanitary flow of the design horizon's population plus point loads and manhole inflows [m3/s]; empty for given flows",
     "q_infiltration": "infiltration from the length of sewer and the area upstream [m3/s]",
     "q_storm": "rational-method storm runoff [m3/s], with the rainfall uplift and the urban creep",
+    "remedy": "what to do, in words of the trade, with the numbers; every remedy that applies, joined by '; ' (docs/renewal.md)",
+    "remedy_kind": "the first remedy that applies: verify, capacity, downstream, silting, inspect or other (empty for none)",
+    "remedy_size_m": "the diameter the remedy proposes [m]: the new size of a capacity remedy, the smaller size of a silting one",
+    "remedy_slope": "the slope the remedy proposes [m/m]",
+    "scheme_id": "the scheme of work the pipe belongs to (S001, ...; schemes.csv); empty for none",
+    "scheme_position": "the pipe's place in its scheme, 1 for the downstream pipe (0 for none)",
+    "likelihood": "likelihood of failure, 1 to 5",
+    "consequence": "consequence of failure, 1 to 5",
+    "risk": "likelihood x consequence, 1 to 25",
+    "likelihood_driver": "the part that gives the likelihood",
+    "consequence_driver": "the part that gives the consequence",
+    "risk_driver": "likelihood driver x consequence driver",
+    "review": "1 where the data must be verified before any renewal (a review candidate)",
+    "renewal_rank": "the pipe's place in the renewal programme (candidates.csv), 0 for none",
     "tc_min": "time of concentration at the pipe's upstream end [min]: inlet time plus the longest travel time",
     "population_served": "persons upstream of the pipe [-]",
     "area_served_ha": "catchment area upstream of the pipe [ha]",
@@ -71,6 +94,17 @@ MANHOLE_COLUMNS: dict[str, str] = {
     "pipes_in": "number of pipes flowing into the manhole",
     "pipes_out": "number of pipes flowing out of the manhole",
     "flow_out": "flow leaving the manhole [m3/s]: its own inflow plus everything upstream",
+    "rim_m": "cover (rim) level used [m]",
+    "water_level_m": "water level in the manhole at the design flows [m], from the hydraulic grade line",
+    "freeboard_m": "rim_m - water_level_m [m]; negative where the water stands above the cover",
+    "flood_depth_m": "depth of water above the cover [m]; 0 where it stays below",
+    "flood_state": "below_soffit, surcharged (above the lowest crown at the manhole), flooding (at or above the cover less the "
+                   "freeboard) or not_evaluated (no cover level or no water level)",
+    "boundary": "at an outfall or another end of the grade line: free, normal or fixed, with '(assumed)' where no outfall "
+                "or pump station ends it there; empty elsewhere",
+    "flags": "manhole flag codes joined by ';': flooding, manhole_surcharge",
+    "severity": "worst severity among the manhole's flags: high, medium, low, or none",
+    "reasons": "one reason per flag with the numbers, joined by '; '",
     "findings": "data finding codes about this manhole, joined by ';'",
 }
 """Computed manhole columns, in output order."""
@@ -94,6 +128,10 @@ COLUMN_UNITS: Mapping[str, tuple[str, str]] = MappingProxyType(
         "access_run_m": ("access_run", "length"), "q_sanitary": ("q_sanitary", "flow"), "q_infiltration": ("q_infiltration", "flow"),
         "q_storm": ("q_storm", "flow"), "tc_min": ("tc", "time"), "area_served_ha": ("area_served", "area"),
         "flow_out": ("flow_out", "flow"),
+        "water_level_up_m": ("water_level_up", "level"), "water_level_down_m": ("water_level_down", "level"),
+        "depth_up_m": ("depth_up", "length"), "depth_down_m": ("depth_down", "length"), "critical_depth_m": ("critical_depth", "length"),
+        "rim_m": ("rim", "level"), "water_level_m": ("water_level", "level"), "freeboard_m": ("freeboard", "length"),
+        "flood_depth_m": ("flood_depth", "length"), "remedy_size_m": ("remedy_size", "size"),
     }
 )  # fmt: skip
 """The computed columns that carry a unit: their name without it, and their quantity
@@ -128,6 +166,8 @@ class AuditResult:
     inputs: tuple[Path, ...]  # the input files (never written)
     config_path: Path | None  # the config file the audit ran from
     canonical_pipes: pd.DataFrame | None = None  # the canonical SI pipe columns (DEVELOPERS.md), same order
+    canonical_manholes: pd.DataFrame | None = None  # the canonical SI manhole columns, same order as manholes
+    schemes: pd.DataFrame | None = None  # the renewal programme's schemes of work (audit.renewal.SCHEME_COLUMNS), SI
     computed: pd.DataFrame | None = None  # PIPE_COLUMNS under their documented names, same order
     units: UnitSystem = SI  # the system the outputs are written in ([output] units); values here are SI
 
@@ -157,8 +197,15 @@ def with_columns(original: gpd.GeoDataFrame, computed: pd.DataFrame, findings: F
     return pd.concat([original, computed], axis=1)
 
 
-def manhole_output(layers: Layers, network: Network, node_total: np.ndarray, findings: FindingLog) -> gpd.GeoDataFrame:
-    """The original manholes with pipe counts, the flow leaving each, and their finding codes."""
+def manhole_output(
+    layers: Layers, network: Network, node_total: np.ndarray, findings: FindingLog, *, node_columns: Mapping[str, np.ndarray] | None = None
+) -> gpd.GeoDataFrame:
+    """The original manholes with pipe counts, the flow leaving each, the per-node results and their finding codes.
+
+    ``node_columns`` holds further ``MANHOLE_COLUMNS`` as one value per network node (the grade
+    line's levels, flood state and flags); each manhole takes its node's value, and a manhole
+    the network left out takes NaN or an empty text.
+    """
     assert layers.manholes is not None
     original, canonical = layers.manholes.original, layers.manholes.canonical
     count = len(original)
@@ -170,11 +217,18 @@ def manhole_output(layers: Layers, network: Network, node_total: np.ndarray, fin
     pipes_in[row[is_manhole]] = node_in[is_manhole]
     pipes_out[row[is_manhole]] = node_out[is_manhole]
     total[row[is_manhole]] = node_total[is_manhole]
+    per_manhole = {}
+    for name, values in (node_columns or {}).items():
+        numeric = np.issubdtype(np.asarray(values).dtype, np.number)
+        column = np.full(count, np.nan) if numeric else np.full(count, "", dtype=object)
+        column[row[is_manhole]] = np.asarray(values)[is_manhole]
+        per_manhole[name] = column if numeric else pd.array(column, dtype="str")
     frame = findings.to_frame()
     about = frame[frame["layer"] == "manholes"].groupby("feature")["code"].agg(lambda codes: ";".join(dict.fromkeys(codes)))
     ids = canonical["manhole_id"].astype(str)
     codes = ids.map(about).fillna("").to_numpy(dtype=object)
-    computed = pd.DataFrame({"pipes_in": pipes_in, "pipes_out": pipes_out, "flow_out": total, "findings": codes}, index=canonical.index)
+    columns = {"pipes_in": pipes_in, "pipes_out": pipes_out, "flow_out": total, **per_manhole, "findings": codes}
+    computed = pd.DataFrame({name: columns[name] for name in MANHOLE_COLUMNS if name in columns}, index=canonical.index)
     joined = with_columns(original, computed, findings, layer="manholes")
     return gpd.GeoDataFrame(joined, geometry=original.geometry.name, crs=original.crs)
 
@@ -192,8 +246,11 @@ def finding_points(findings: FindingLog, *, source_crs: pyproj.CRS, target_crs: 
     return gpd.GeoDataFrame(frame[["layer", "feature", "code", "message"]].reset_index(drop=True), geometry=geometry.values, crs=geometry.crs)
 
 
-def network_totals(layers: Layers, network: Network, computed: pd.DataFrame) -> dict[str, Any]:
-    """Counts and lengths of the network, and the share of each pipe attribute that is missing."""
+def network_totals(
+    layers: Layers, network: Network, computed: pd.DataFrame, *, node_columns: Mapping[str, np.ndarray] | None = None
+) -> dict[str, Any]:
+    """Counts and lengths of the network, the share of each pipe attribute that is missing and,
+    with the grade line's ``node_columns``, the manholes per flood state and the pipes per regime."""
     canonical = layers.pipes.canonical
     evaluated = computed["hydraulic_status"].isin(("ok", "above_full_bore", "surcharged")).to_numpy(dtype=bool)
     missing_share = {
@@ -213,4 +270,18 @@ def network_totals(layers: Layers, network: Network, computed: pd.DataFrame) -> 
         "pipes_evaluated": int(np.sum(evaluated)),
         "pipes_not_evaluated": int(np.sum(~evaluated)),
         "missing_share": missing_share,
+        **({} if node_columns is None else {"grade_line": _grade_line_totals(network, computed, node_columns)}),
+    }
+
+
+def _grade_line_totals(network: Network, computed: pd.DataFrame, node_columns: Mapping[str, np.ndarray]) -> dict[str, Any]:
+    """Manholes (nodes of the manhole layer) per flood state, pipes per flow regime and per cause of running full."""
+    manhole = network.nodes["manhole_row"].to_numpy(dtype=np.int64) >= 0
+    states = pd.Series(np.asarray(node_columns["flood_state"], dtype=object)[manhole]).value_counts()
+    regimes = computed["flow_regime"].astype(str).value_counts() if "flow_regime" in computed else pd.Series(dtype=int)
+    causes = computed["full_cause"].astype(str).value_counts() if "full_cause" in computed else pd.Series(dtype=int)
+    return {
+        "manholes_by_flood_state": {state: int(states.get(state, 0)) for state in ("flooding", "surcharged", "below_soffit", "not_evaluated")},
+        "pipes_by_regime": {str(regime): int(count) for regime, count in regimes.items()},
+        "pipes_full_by_cause": {cause: int(causes.get(cause, 0)) for cause in ("own_capacity", "backwater")},
     }

@@ -201,8 +201,22 @@ SYSTEMS: Mapping[str, UnitSystem] = MappingProxyType({"si": SI, "us": US})
 """The unit systems outputs can be written in, by the name ``[output] units`` takes."""
 
 
+OUTPUT_KEYS = ("units", "title")
+"""Keys of ``[output]``."""
+
+
 def parse_output(check: ConfigProblems, data: object) -> UnitSystem:
     """``[output]``: ``units = "si"`` (default: metres, millimetres, l/s, m/s, Pa, ha) or ``"us"``
     (feet, inches, cfs, ft/s, lb/ft^2, acres); every problem goes to ``check``."""
-    table = check.table(data, "output", ("units",))
+    table = check.table(data, "output", OUTPUT_KEYS)
     return SYSTEMS[check.choice(table, "units", "output", tuple(SYSTEMS))]
+
+
+def parse_title(check: ConfigProblems, data: object) -> str:
+    """``[output] title``: the network's name, printed at the top of the report; "" when not given."""
+    table = data if isinstance(data, dict) else {}
+    title = table.get("title", "")
+    if not isinstance(title, str) or len(title) > 200 or any(ord(character) < 32 for character in title):
+        check.fail("output.title", "a line of text (up to 200 characters)", title)
+        return ""
+    return title.strip()

@@ -35,6 +35,7 @@ import pyogrio
 
 sys.path.insert(0, str(Path(__file__).resolve().parent))  # the _sample_town parts beside this script
 
+from _sample_town.assets import inspection_table, rail_corridor
 from _sample_town.layout import build_town
 from _sample_town.plan import CRS, SEED, TIMESTAMP
 from _sample_town.planted import ErrorBook, error_report, network_errors, typing_errors
@@ -42,7 +43,7 @@ from _sample_town.register import catchment_layer, register_tables
 
 
 def write_town(outdir: Path, *, seed: int = SEED) -> None:
-    """Build the town and write ``town.gpkg`` and ``ERRORS.md`` into ``outdir``."""
+    """Build the town and write ``town.gpkg`` (pipes, manholes, catchments, inspections, rail_corridor) and ``ERRORS.md`` into ``outdir``."""
     rng = np.random.default_rng(seed)
     nodes, pipes = build_town(rng)
     book = ErrorBook(rng, len(pipes), len(nodes))
@@ -57,14 +58,22 @@ def write_town(outdir: Path, *, seed: int = SEED) -> None:
         layers[name] = gpd.GeoDataFrame(frame.iloc[perm].reset_index(drop=True), geometry="geometry", crs=CRS)
     refs = {"pipes": table["asset_ref"], "manholes": holes["mh_ref"]}
     layers["catchments"] = catchment_layer(nodes)
+    inspections, notes = inspection_table(table, pipes, rng)
+    layers["rail_corridor"] = gpd.GeoDataFrame({"name": ["Brackenhollow branch line"]}, geometry=[rail_corridor(nodes)], crs=CRS)
     outdir.mkdir(parents=True, exist_ok=True)
     scratch = outdir / "town.partial.gpkg"
     scratch.unlink(missing_ok=True)
     pyogrio.set_gdal_config_options({"OGR_CURRENT_DATE": TIMESTAMP})
     for name, layer in layers.items():
         pyogrio.write_dataframe(layer, scratch, layer=name, driver="GPKG")
+    pyogrio.write_dataframe(inspections, scratch, layer="inspections", driver="GPKG")  # a table without geometry
     os.replace(scratch, outdir / "town.gpkg")
-    (outdir / "ERRORS.md").write_text(error_report(book, order, refs), encoding="utf-8")
+    renewal = ["", "## Renewal inputs (invented)", "",
+               f"Layer `inspections` (a table): CCTV grades of {len(inspections)} pipes, structural and service, 1 (good) to 5",
+               "(worst). Layer `rail_corridor`: one polygon, a railway's strip of land across the town; pipes in it",
+               "or within the buffer take the consequence `town.toml` gives it. Planted:", "",
+               "| ref | detail |", "|---|---|", *(f"| {ref} | {detail} |" for ref, detail in notes)]  # fmt: skip
+    (outdir / "ERRORS.md").write_text(error_report(book, order, refs) + "\n".join(renewal) + "\n", encoding="utf-8")
 
 
 def main(argv: list[str] | None = None) -> int:

@@ -30,13 +30,19 @@ PIPES = [
 ]
 # loads add up down the tree: P5 = F; P1 = A; P2 = A + B + F; P3 = P2 + C; P4 = P3 + D
 DESIGN_FLOW_LS = {"P1": 10.0, "P2": 15.5, "P3": 35.5, "P4": 35.5, "P5": 0.5}
+# The grade line: P3 needs metres of head at 35.5 l/s (load ratio over 7), so C floods and the
+# level carried up from it is its cover, 19.5 m. P2 (300 mm, full) carries it back to B at about
+# 19.5 m, above the crowns of P1 at A (18.00 + 0.30 m) and of P5 at F (18.80 + 0.20 m): both
+# are held up above their crowns at their upstream ends within their capacity, and so is P2.
 EXPECTED_FLAGS = {
-    "P1": set(),
-    "P2": {"reverse_grade"},
+    "P1": {"backwater_surcharge"},
+    "P2": {"reverse_grade", "backwater_surcharge"},
     "P3": {"surcharge", "below_min_diameter", "diameter_decrease"},
     "P4": {"high_velocity"},
-    "P5": {"silting"},
+    "P5": {"silting", "backwater_surcharge"},
 }
+# manholes: C floods (above); A, B and F hold water above the crowns of their pipes, below their covers
+EXPECTED_FLOOD_STATES = {"A": "surcharged", "B": "surcharged", "C": "flooding", "D": "below_soffit", "E": "below_soffit", "F": "surcharged"}
 
 
 def write_town(folder: Path, driver: str, suffix: str) -> Path:

@@ -13,7 +13,7 @@ import numpy as np
 import pandas as pd
 import pytest
 import shapely
-from _small_town import DESIGN_FLOW_LS, EXPECTED_FLAGS, PIPES, N, write_town
+from _small_town import DESIGN_FLOW_LS, EXPECTED_FLAGS, EXPECTED_FLOOD_STATES, PIPES, N, write_town
 from scipy.optimize import brentq
 
 from audit.pipeline import run
@@ -62,13 +62,22 @@ def test_flags_and_numbers_match_an_independent_computation(tmp_path: Path, driv
             assert row["hydraulic_status"] == "nonpositive_slope"
             continue
         expected = independent_hydraulics(diameter_mm / 1000, slope, DESIGN_FLOW_LS[ref] / 1000)
+        if row["flow_regime"] in ("pressurised", "partly_pressurised"):
+            # a pipe running full: shear from the friction slope at full bore, Sf = (Q n / (A R^(2/3)))^2 (Manning)
+            d, q = diameter_mm / 1000, DESIGN_FLOW_LS[ref] / 1000
+            friction_slope = (q * N / (np.pi * d**2 / 4 * (d / 4) ** (2 / 3))) ** 2
+            expected["shear"] = RHO_15C * G * d / 4 * friction_slope
         for name, value in expected.items():
             tolerance = 1e-5 if name == "shear" else 1e-6  # the density above has 5 figures
             assert row[name] == pytest.approx(value, rel=tolerance), (ref, name)
         assert row["load_ratio"] == pytest.approx(DESIGN_FLOW_LS[ref] / 1000 / expected["q_full"], rel=1e-6)
+    regimes = dict(zip(pipes.index, pipes["flow_regime"], strict=True))
+    assert {ref for ref, regime in regimes.items() if regime in ("pressurised", "partly_pressurised")} == {"P1", "P2", "P3", "P5"}
+    states = dict(zip(result.manholes["MH"], result.manholes["flood_state"], strict=True))
+    assert states == EXPECTED_FLOOD_STATES
     assert pipes.loc["P3", "severity"] == "high"
     assert pipes.loc["P2", "severity"] == "high"
-    assert pipes.loc["P1", "severity"] == "none"
+    assert pipes.loc["P1", "severity"] == "medium"  # backwater_surcharge only
     assert result.totals["outfalls"] == 1
     assert result.totals["pipes"] == 5
     # the reasons carry the numbers: P3's load ratio by hand
@@ -102,7 +111,7 @@ def test_a_user_field_named_like_a_result_is_kept_and_the_result_renamed(tmp_pat
     assert "audit_slope" in result.pipes.columns
     assert "audit_flags" in result.pipes.columns
     p2 = result.pipe_results.loc[result.pipes["REF"] == "P2"].iloc[0]
-    assert p2["flags"] == "reverse_grade"
+    assert p2["flags"] == "backwater_surcharge;reverse_grade"  # the flags of tests/_small_town.py, in the fixed order
     assert p2["slope"] < 0
     renamed = result.findings[result.findings["code"] == "field_renamed"]
     assert len(renamed) == 2

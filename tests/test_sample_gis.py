@@ -56,8 +56,8 @@ def _read(folder: Path, layer: str) -> gpd.GeoDataFrame:
 
 
 def _errors(folder: Path) -> pd.DataFrame:
-    rows = [line.strip("|").split("|") for line in (folder / "ERRORS.md").read_text().splitlines()
-            if line.startswith("| ") and not line.startswith("| code")]
+    text = (folder / "ERRORS.md").read_text().split("\n## ")[0]  # the register errors; the renewal inputs follow
+    rows = [line.strip("|").split("|") for line in text.splitlines() if line.startswith("| ") and not line.startswith("| code")]
     cells = [[cell.strip() for cell in row] for row in rows]
     table = pd.DataFrame(cells, columns=["code", "layer", "fid", "ref", "detail"])
     return table.astype({"fid": int})
@@ -323,7 +323,7 @@ def test_ordinary_pipes_run_part_full(hydraulics: pd.DataFrame, errors: pd.DataF
 
 def test_config_parses_and_maps_existing_fields(pipes: gpd.GeoDataFrame, manholes: gpd.GeoDataFrame) -> None:
     config = tomllib.loads((SAMPLE / "town.toml").read_text(encoding="utf-8"))
-    assert set(config) == {"input", "pipes", "manholes", "catchments", "flows", "network", "hydraulics", "rules"}
+    assert set(config) == {"output", "input", "pipes", "manholes", "catchments", "flows", "network", "grade_line", "hydraulics", "rules", "renewal"}
     catchments = _read(SAMPLE, "catchments")
     for name, layer in (("pipes", pipes), ("manholes", manholes), ("catchments", catchments)):
         section = config[name]

@@ -19,7 +19,8 @@ def outputs(tmp_path_factory: pytest.TempPathFactory) -> dict[str, Path]:
     folder = tmp_path_factory.mktemp("us")
     text = TOWN.read_text(encoding="utf-8").replace('path = "town.gpkg"', f'path = "{(TOWN.parent / "town.gpkg").as_posix()}"')
     (folder / "si.toml").write_text(text, encoding="utf-8")
-    (folder / "us.toml").write_text(text + '\n[output]\nunits = "us"\n', encoding="utf-8")
+    assert text.count("[output]\n") == 1
+    (folder / "us.toml").write_text(text.replace("[output]\n", '[output]\nunits = "us"\n'), encoding="utf-8")
     for name in ("si", "us"):
         assert main(["run", str(folder / f"{name}.toml"), "-o", str(folder / name), "-q"]) == 0
     return {"si": folder / "si", "us": folder / "us"}

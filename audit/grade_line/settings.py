@@ -9,7 +9,7 @@ converts them to metres when it builds the per-node ``boundary_level`` array
     [grade_line]
     outfall = "free"          # every outfall without its own entry: "free", "normal" or "fixed"
     outfall_level = 12.5      # only with outfall = "fixed" [level units]
-    manhole_loss = 0.5        # k in k v^2 / 2g [-]
+    manhole_loss = 0.15       # k in k v^2 / 2g [-]
     freeboard_m = 0.0         # a node floods when its level reaches rim - freeboard [m]
     profile_steps = 16        # depth steps of the direct step method per pipe
 
@@ -64,9 +64,12 @@ class GradeLineSettings:
 
     ``outfall`` is the boundary of every outfall without an entry in ``outfalls`` (node id to
     boundary). Levels are raw numbers in the layer's level units, not metres.
-    ``manhole_loss`` [-] is k in the head loss :math:`k v^2 / 2g` at every node; 0.5 is the
-    upper end of 0.1 to 0.5 for a straight-through benched manhole, so that junctions and bends
-    (higher) are not understated much (from memory; local design manuals give tables).
+    ``manhole_loss`` [-] is k in the head loss :math:`k v^2 / 2g` at every node, with v the
+    velocity leaving it; 0.15 is a benched straight-through manhole or a gentle bend, the most
+    common in a register (0.1 to 0.2; a right-angle bend or a junction 0.4 to 1.0; from memory,
+    local design manuals give tables). Set it higher for a network of junctions and bends: with
+    one value for every node, 0.5 would raise the level above every fast outgoing pipe by half
+    its velocity head and drown the outlets of most steep pipes.
     ``freeboard_m`` [m]: a node floods when its level reaches its rim less this; 0 by default
     (flooding means the level reaches the cover). ``profile_steps``: depth steps of the direct
     step method in each pipe (16 keeps the upstream depth within 0.5 % of an accurate
@@ -75,7 +78,7 @@ class GradeLineSettings:
 
     outfall: Outfall = Outfall()
     outfalls: Mapping[str, Outfall] = field(default_factory=lambda: MappingProxyType({}))
-    manhole_loss: float = 0.5
+    manhole_loss: float = 0.15
     freeboard_m: float = 0.0
     profile_steps: int = 16
 

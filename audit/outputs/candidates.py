@@ -1,9 +1,12 @@
-"""candidates.csv: flagged pipes ranked for a closer look.
+"""candidates.csv: the renewal programme's pipes, ranked for a closer look.
 
-A pipe is a candidate when its worst flag is of severity "medium" or "high" ("low" too when
-asked). Candidates are ranked by worst severity (high first), then load ratio (descending,
-unknown last), then the length of network upstream (descending, unknown last); ties keep the
-input order. The ranking is one ``numpy.lexsort`` over all candidates.
+A pipe is a candidate when the renewal programme gives it a remedy and its worst flag is of
+severity "medium" or "high" ("low" too when asked), or its remedy is to inspect it (age or
+condition). Candidates follow the programme's rank: by risk, then worst severity, then scheme;
+review candidates, whose data must be verified before any renewal, after all others
+(docs/renewal.md). A pipes frame without the programme's columns (an audit result built by
+hand) is ranked by worst severity, load ratio and length upstream, with reverse and zero grades
+last, as levels to verify.
 
 Identity and size columns come from the canonical columns ``pipe_id``, ``shape``, ``diameter``,
 ``height``, ``install_year`` and ``material`` when the pipes frame carries them; a frame without
@@ -25,14 +28,15 @@ from audit.units import SI, UnitSystem
 
 #: Columns of candidates.csv, in order.
 CANDIDATE_COLUMNS: tuple[str, ...] = (
-    "rank", "pipe_id", "action", "severity", "flags", "reasons", "load_ratio", "depth_ratio", "v_design", "slope",
-    "diameter_mm", "length_m", "upstream_length_m", "install_year", "material",
+    "rank", "pipe_id", "action", "remedy", "scheme_id", "risk", "likelihood", "consequence", "risk_driver", "severity", "flags",
+    "reasons", "load_ratio", "depth_ratio", "v_design", "slope", "diameter_mm", "length_m", "upstream_length_m", "install_year",
+    "material",
 )  # fmt: skip
 
 #: Decimals kept per numeric column: ratios 3, velocity 2, slope 5, sizes and lengths as below.
 DECIMALS: dict[str, int] = {
     "load_ratio": 3, "depth_ratio": 3, "v_design": 2, "slope": 5, "diameter_mm": 0, "length_m": 2,
-    "upstream_length_m": 1, "install_year": 0,
+    "upstream_length_m": 1, "install_year": 0, "risk": 0, "likelihood": 0, "consequence": 0,
 }  # fmt: skip
 
 
@@ -43,6 +47,10 @@ _SOURCES = ("diameter", "height", "shape")  # canonical columns that diameter_mm
 #: before anything is renewed (docs/rules.md).
 VERIFY_FLAGS = frozenset({"reverse_grade", "zero_grade"})
 ACTIONS = ("consider renewal", "verify levels")
+
+#: The action of a candidate by the kind of its first remedy (``audit.renewal.REMEDY_KINDS``).
+ACTION_OF_REMEDY = {"capacity": "consider renewal", "silting": "consider renewal", "other": "consider renewal",
+                    "downstream": "relieve downstream", "inspect": "inspect", "verify": "verify data first"}  # fmt: skip
 
 
 def rank_candidates(pipes: pd.DataFrame, *, include_low: bool = False) -> pd.DataFrame:
@@ -75,6 +83,8 @@ def candidate_rows(pipes: pd.DataFrame, *, include_low: bool = False) -> tuple[n
     the input order.
     """
     wanted = SEVERITY_ORDER if include_low else SEVERITY_ORDER[1:]
+    if "renewal_rank" in pipes.columns:
+        return _programme_rows(pipes, wanted)
     rank_of = {word: place for place, word in enumerate(SEVERITY_ORDER, start=1)}
     chosen = np.flatnonzero(pipes["severity"].isin(wanted).to_numpy())
     picked = pipes.iloc[chosen]
@@ -87,6 +97,19 @@ def candidate_rows(pipes: pd.DataFrame, *, include_low: bool = False) -> tuple[n
         verify,
     ))  # fmt: skip
     return chosen[order], np.asarray(ACTIONS, dtype=object)[verify[order].astype(int)]
+
+
+def _programme_rows(pipes: pd.DataFrame, wanted: tuple[str, ...]) -> tuple[np.ndarray, np.ndarray]:
+    """The candidates in the renewal programme's order, and their actions (review candidates: verify data first)."""
+    rank = pd.to_numeric(pipes["renewal_rank"], errors="coerce").fillna(0).to_numpy(dtype=np.int64)
+    kind = pipes["remedy_kind"].astype(object).where(pipes["remedy_kind"].notna(), "").astype(str).to_numpy(dtype=object)
+    listed = (rank > 0) & (pipes["severity"].isin(wanted).to_numpy() | (kind == "inspect"))
+    chosen = np.flatnonzero(listed)
+    chosen = chosen[np.argsort(rank[chosen], kind="stable")]
+    review = pd.to_numeric(pipes["review"], errors="coerce").fillna(0).to_numpy(dtype=bool)[chosen] if "review" in pipes else np.zeros(chosen.size, bool)
+    action = pd.Series(kind[chosen], dtype=object).map(ACTION_OF_REMEDY).fillna("consider renewal").to_numpy(dtype=object)
+    action[review] = ACTION_OF_REMEDY["verify"]
+    return chosen, action
 
 
 #: The candidate columns that carry a unit: their name without it, their quantity, and the
@@ -108,17 +131,17 @@ def write_candidates(table: pd.DataFrame, path: Path, *, units: UnitSystem = SI)
         if name in _UNITS and units is not SI:
             base, quantity, to_base = _UNITS[name]
             values = pd.Series(units.convert(values.to_numpy(dtype=float) * to_base, quantity)).round(_US_DECIMALS[quantity])
-            columns[f"{base}_{units.suffix(quantity)}"] = _csv_column(values, whole=False)
+            columns[f"{base}_{units.suffix(quantity)}"] = csv_column(values, whole=False)
             continue
         label = f"{_UNITS[name][0]}_{units.suffix(_UNITS[name][1])}" if name in _UNITS else name
-        columns[label] = _csv_column(values, whole=DECIMALS.get(name) == 0)
+        columns[label] = csv_column(values, whole=DECIMALS.get(name) == 0)
     pacsv.write_csv(pa.table(columns), path, pacsv.WriteOptions(quoting_style="needed"))
 
 
 _US_DECIMALS = {"velocity": 2, "size": 1, "length": 1}
 
 
-def _csv_column(values: pd.Series, *, whole: bool) -> pa.Array:
+def csv_column(values: pd.Series, *, whole: bool) -> pa.Array:
     """One column for the CSV writer; NaN and None become nulls (empty cells)."""
     if pd.api.types.is_float_dtype(values.dtype):
         numbers = values.to_numpy(dtype=float)

@@ -21,7 +21,7 @@ import pandas as pd
 
 from audit.about import CAUTION, __version__
 from audit.result import AuditResult
-from audit.rules import FLAG_CODES, SEVERITY_NONE, SEVERITY_ORDER, DiameterTable, RuleSettings, as_table
+from audit.rules import FLAG_CODES, MANHOLE_FLAG_CODES, SEVERITY_NONE, SEVERITY_OFF, SEVERITY_ORDER, DiameterTable, RuleSettings, as_table
 from audit.units import SI, UNIT_SIZES, UnitSystem
 
 #: Feature ids listed per finding code in summary.json.
@@ -56,6 +56,8 @@ def build_summary(result: AuditResult, *, pipes: pd.DataFrame, findings: pd.Data
         "totals": totals,
         "flags": flags.to_dict(orient="index"),
         "severity": severity_counts(pipes),
+        "manhole_flags": manhole_flag_counts(result),
+        "programme": programme_totals(result),
         "findings": finding_counts(findings),
         "rules": rule_values(result.rules, units),
         "flows": result.settings.get("flows"),
@@ -63,6 +65,32 @@ def build_summary(result: AuditResult, *, pipes: pd.DataFrame, findings: pd.Data
         "missing_fields": result.missing_fields,
     }
     return json_safe(summary)
+
+
+def manhole_flag_counts(result: AuditResult) -> dict[str, dict[str, Any]]:
+    """Per manhole flag code not switched off: its severity and the number of manholes that carry it."""
+    flags = result.manholes["flags"] if result.manholes is not None and "flags" in result.manholes else pd.Series([], dtype=object)
+    codes = flags.fillna("").astype(str).str.split(";").explode()
+    return {code: {"severity": result.rules.severity[code], "manholes": int((codes == code).sum())}
+            for code in MANHOLE_FLAG_CODES if result.rules.severity[code] != SEVERITY_OFF}  # fmt: skip
+
+
+def programme_totals(result: AuditResult) -> dict[str, Any] | None:
+    """The renewal programme in a few numbers: pipes per remedy kind, review candidates, schemes and their cost."""
+    pipes = result.pipe_results
+    if "remedy_kind" not in pipes.columns:
+        return None
+    kinds = pipes["remedy_kind"].astype(object).where(pipes["remedy_kind"].notna(), "").astype(str)
+    schemes = result.schemes if result.schemes is not None else pd.DataFrame()
+    cost = pd.to_numeric(schemes["cost"], errors="coerce") if "cost" in schemes else pd.Series(dtype=float)
+    return {
+        "pipes_with_remedy": int((kinds != "").sum()),
+        "by_remedy": {str(kind): int(count) for kind, count in kinds[kinds != ""].value_counts().items()},
+        "review_candidates": int(pd.to_numeric(pipes["review"], errors="coerce").fillna(0).astype(bool).sum()) if "review" in pipes else 0,
+        "schemes": len(schemes),
+        "cost": None if cost.empty or cost.isna().any() else round(float(cost.sum()), 0),
+        "currency": str(schemes["currency"].iloc[0]) if len(schemes) and "currency" in schemes else "",
+    }
 
 
 def write_summary(summary: Mapping[str, Any], path: Path) -> None:
@@ -171,6 +199,9 @@ def print_summary_table(result: AuditResult, paths: Mapping[str, Path], *, file:
     lines = [f"{'flag':<{width}}  {'severity':<8}  {'pipes':>8}  {'length ' + long_unit:>10}"]
     for code, row in table.iterrows():
         lines.append(f"{code:<{width}}  {row['severity'] or '':<8}  {row['pipes']:>8d}  {row['length_m'] / per_long:>10.3f}")
+    flood = (result.totals.get("grade_line") or {}).get("manholes_by_flood_state")
+    if flood:
+        lines.append(f"manholes flooding: {flood['flooding']}, surcharged: {flood['surcharged']}, not evaluated: {flood['not_evaluated']}")
     lines.append(f"data findings: {len(result.findings)}")
     lines.extend(f"{role}: {path}" for role, path in paths.items())
     lines.append(CAUTION)

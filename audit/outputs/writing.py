@@ -42,7 +42,8 @@ from tqdm import tqdm
 
 from audit.errors import AuditError, OutputExistsError
 from audit.outputs.candidates import rank_candidates, write_candidates
-from audit.outputs.folder import staged_folder
+from audit.outputs.folder import problem, staged_folder
+from audit.outputs.schemes import write_schemes
 from audit.outputs.summary import (
     CAUTION,
     build_summary,
@@ -55,7 +56,7 @@ from audit.units import UnitSystem
 __all__ = ["CAUTION", "OUTPUT_FILES", "print_summary_table", "rank_candidates", "safe_field_names", "write_outputs"]
 
 #: The files the outputs stage writes, by role.
-OUTPUT_FILES: Mapping[str, str] = {"geopackage": "audit.gpkg", "summary": "summary.json", "candidates": "candidates.csv"}
+OUTPUT_FILES: Mapping[str, str] = {"geopackage": "audit.gpkg", "summary": "summary.json", "candidates": "candidates.csv", "schemes": "schemes.csv"}
 
 CANONICAL_FOR_CANDIDATES = ("pipe_id", "shape", "diameter", "height", "install_year", "material")
 _ID_NAMES = ("fid", "gpkg_fid", "feature_fid")
@@ -101,13 +102,14 @@ def write_outputs(
     """
     outdir = Path(outdir)
     targets = {role: outdir / name for role, name in OUTPUT_FILES.items()}
-    _refuse_inputs([*targets.values(), outdir], inputs=(*result.inputs, *_optional(result.config_path)))
+    _refuse_inputs([*targets.values(), outdir], inputs=(*result.inputs, *_optional(result.config_path)))  # before the work; the report is checked once written
     pipes, manholes, findings = _layers_to_write(result)
     later = dict(extra or {})
     steps = 4 + (manholes is not None) + len(later)  # two or three layers, then the files
     written: dict[str, Path] = {}
+    inputs = (*result.inputs, *_optional(result.config_path))
     with tqdm(total=steps, desc="writing outputs", unit="part", file=sys.stderr, disable=not progress) as bar, \
-            staged_folder(outdir, overwrite=overwrite) as stage:  # fmt: skip
+            staged_folder(outdir, overwrite=overwrite, keep=inputs) as stage:  # fmt: skip
         try:
             _write_geopackage(stage / OUTPUT_FILES["geopackage"], pipes=pipes, manholes=manholes, findings=findings, step=bar.update)
             summary = build_summary(result, pipes=result.pipe_results, findings=findings, created=created)
@@ -115,12 +117,13 @@ def write_outputs(
             bar.update()
             write_candidates(rank_candidates(_with_canonical(result), include_low=include_low), stage / OUTPUT_FILES["candidates"],
                              units=result.units)  # fmt: skip
+            write_schemes(result.schemes if result.schemes is not None else pd.DataFrame(), stage / OUTPUT_FILES["schemes"], units=result.units)
             bar.update()
             for role, write in later.items():
                 written[role] = write(stage)
                 bar.update()
         except _WRITE_ERRORS as error:
-            raise AuditError(f"{outdir}: cannot write the outputs: {error}") from error
+            raise AuditError(f"{outdir}: cannot write the outputs: {problem(error, stage)}") from error
     return {**targets, **{role: outdir / path.name for role, path in written.items()}}
 
 
@@ -203,18 +206,21 @@ def in_output_units(frame: gpd.GeoDataFrame, computed: Iterable[str], units: Uni
     """The layer with its computed columns (its last ones, ``computed`` in order) under their output
     names and in ``units`` (``audit.result.output_name``); the original fields untouched.
 
-    A computed column written as ``audit_<name>`` (its name was taken) keeps the prefix.
+    A computed column written as ``audit_<name>`` (its name was taken) keeps the prefix; so does
+    one whose output name an original field holds (a field named ``height_mm``, say), ignoring case.
     """
-    names = list(computed)
     out = frame.copy(deep=False)
     fields = [column for column in out.columns if column != out.geometry.name]
+    present = {str(field).removeprefix(COMPUTED_PREFIX) for field in fields}
+    names = [name for name in computed if name in present]  # a result made without a stage lacks its columns
     columns = fields[len(fields) - len(names):]
+    originals = {str(field).casefold() for field in fields[: len(fields) - len(names)]}
     renames: dict[str, str] = {}
     for column, name in zip(columns, names, strict=True):
         if str(column).removeprefix(COMPUTED_PREFIX) != name:
             continue  # not the computed block this result should end with: leave it as it is
-        prefix = COMPUTED_PREFIX if str(column).startswith(COMPUTED_PREFIX) else ""
-        renames[column] = prefix + output_name(name, units)
+        taken = str(column).startswith(COMPUTED_PREFIX) or output_name(name, units).casefold() in originals
+        renames[column] = (COMPUTED_PREFIX if taken else "") + output_name(name, units)
         if name in COLUMN_UNITS:
             out[column] = units.convert(pd.to_numeric(out[column], errors="coerce").to_numpy(dtype=float), COLUMN_UNITS[name][1])
     return out.rename(columns=renames)

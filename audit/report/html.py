@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import html
 import math
-from collections.abc import Iterable, Sequence
+from collections.abc import Iterable, Mapping, Sequence
 
 from audit.report.svg import element
 
@@ -28,6 +28,8 @@ def cell(value: object, *, digits: int | None = None) -> str:
         shown = round(value, digits) if digits is not None else value
         value = 0.0 if abs(shown) < 1e-9 else value  # no "-0.00" and no rounding residue
         return f"{value:,.{digits}f}" if digits is not None else f"{value:.6g}"
+    if isinstance(value, Mapping):
+        value = tuple(value.items())
     if isinstance(value, tuple | list):
         rows = (row if isinstance(row, tuple | list) else (row,) for row in value)
         return html.escape("; ".join(": ".join(f"{part:g}" if isinstance(part, float) else str(part) for part in row) for row in rows)) or "none"

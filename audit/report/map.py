@@ -17,6 +17,7 @@ import numpy as np
 import pyproj
 import shapely
 
+from audit.layers import MAX_COORDINATE_M
 from audit.report.svg import Array, element, label, line_path_data, rect, svg
 from audit.units import SI, UnitSystem
 
@@ -31,6 +32,8 @@ CLASS_COLOURS: Mapping[str, str] = {
 
 #: Stroke width of each class on the map [px]; the urgent classes are drawn wider and last.
 _STROKE_PX = {"none": 1.0, "low": 1.6, "not_evaluated": 1.8, "medium": 2.2, "high": 2.8}
+
+_SMALLEST_SPAN_M = 1.0  # the extent drawn around a network that is one point [m]
 
 MAP_WIDTH_PX = 960.0
 MAP_MAX_HEIGHT_PX = 720.0
@@ -72,7 +75,18 @@ def _in_metres(crs: pyproj.CRS) -> bool:
     return bool(crs.is_projected and crs.axis_info and crs.axis_info[0].unit_name in ("metre", "meter"))
 
 
-def network_map(geometry: np.ndarray, classes: np.ndarray, *, metres: bool, units: UnitSystem = SI) -> str:
+@dataclass(frozen=True)
+class MapMarks:
+    """Points drawn over the pipes (flooding manholes, numbered candidates), each with an optional label."""
+
+    xy: np.ndarray  # (n, 2) in the map's coordinates [m]
+    colour: str
+    name: str  # the group's data-marks attribute
+    labels: tuple[str, ...] = ()  # text beside each point; none when empty
+    radius_px: float = 4.5
+
+
+def network_map(geometry: np.ndarray, classes: np.ndarray, *, metres: bool, units: UnitSystem = SI, marks: tuple[MapMarks, ...] = ()) -> str:
     """The map as inline SVG.
 
     Parameters
@@ -81,9 +95,14 @@ def network_map(geometry: np.ndarray, classes: np.ndarray, *, metres: bool, unit
     classes : map class of each pipe
     metres : whether the coordinates are known to be metres (else no scale bar)
     units : the scale bar is in m and km (SI) or ft and mi (US)
+    marks : groups of points drawn over the pipes, in the same coordinates; points with a
+        coordinate that is not a number are left out
     """
     parts, pipe_of_part = _single_parts(geometry)
     coords, part_of_vertex = shapely.get_coordinates(parts, return_index=True)
+    with np.errstate(invalid="ignore"):  # a vertex that is not a number, or farther out than any place on Earth, is not drawn
+        placed = (np.abs(coords) <= MAX_COORDINATE_M).all(axis=1)
+    coords, part_of_vertex = coords[placed], part_of_vertex[placed]
     if coords.shape[0] == 0:
         return svg(label(20, 40, "No pipe has a geometry to draw."), width=MAP_WIDTH_PX, height=80, title="Network map")
     frame = _fit(coords)
@@ -96,10 +115,43 @@ def network_map(geometry: np.ndarray, classes: np.ndarray, *, metres: bool, unit
             data = line_path_data(x[chosen], y[chosen], part_of_vertex[chosen])
             layers.append(element("path", d=data, stroke=CLASS_COLOURS[name], stroke_width=_STROKE_PX[name], data_class=name))
     content = element("g", "".join(layers), fill="none", stroke_linecap="round", stroke_linejoin="round")
+    content += "".join(_marks(group, frame) for group in marks)
     content += north_arrow(frame.width - 40.0, 24.0)
     if metres:
         content += scale_bar(frame, x=_MARGIN_PX, y=frame.height - 14.0, units=units)
     return svg(content, width=frame.width, height=frame.height, title="Network map coloured by each pipe's worst flag")
+
+
+def anchor_points(geometry: np.ndarray) -> np.ndarray:
+    """Where a mark goes on each geometry, as (n, 2) coordinates: the middle of a line, a point itself.
+
+    Any other geometry (a polygon, a collection), a missing or empty one, gives not-a-number,
+    which :func:`network_map` leaves out; the middle of a line is half-way along its length.
+    """
+    geometry = np.asarray(geometry, dtype=object).reshape(-1)
+    xy = np.full((geometry.size, 2), np.nan)
+    kind = shapely.get_type_id(geometry)
+    lines = np.isin(kind, (1, 5)) & ~shapely.is_empty(geometry)
+    points = (kind == 0) & ~shapely.is_empty(geometry)
+    with np.errstate(invalid="ignore", over="ignore"):
+        middle = shapely.line_interpolate_point(geometry[lines], 0.5, normalized=True)
+    xy[lines, 0], xy[lines, 1] = shapely.get_x(middle), shapely.get_y(middle)
+    xy[points, 0], xy[points, 1] = shapely.get_x(geometry[points]), shapely.get_y(geometry[points])
+    return xy
+
+
+def _marks(group: MapMarks, frame: Frame) -> str:
+    """One ``<g>`` of circles (and labels) for a group of points; a few hundred at most are expected."""
+    xy = np.asarray(group.xy, dtype=float).reshape(-1, 2)
+    with np.errstate(invalid="ignore"):
+        placed = np.flatnonzero((np.abs(xy) <= MAX_COORDINATE_M).all(axis=1))
+    x, y = frame.to_px(xy[placed, 0], xy[placed, 1])
+    items = []
+    for number, (px, py) in zip(placed, zip(x, y, strict=True), strict=True):  # one element per marked point
+        items.append(element("circle", cx=f"{px:.1f}", cy=f"{py:.1f}", r=f"{group.radius_px:g}", fill=group.colour, stroke="#fff", stroke_width=1))
+        if group.labels:
+            items.append(label(px + group.radius_px + 2, py - group.radius_px, group.labels[number], font_size=11, fill=group.colour, font_weight="bold"))
+    return element("g", "".join(items), data_marks=group.name)
 
 
 def _single_parts(geometry: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
@@ -110,10 +162,14 @@ def _single_parts(geometry: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
 
 
 def _fit(coords: np.ndarray) -> Frame:
-    """Scale the extent of the coordinates to the drawing, keeping the aspect ratio."""
+    """Scale the extent of the coordinates to the drawing, keeping the aspect ratio.
+
+    An extent narrower than :data:`_SMALLEST_SPAN_M` (a network drawn at one point) is drawn at
+    that span, so pixel coordinates stay within what the drawing's integers hold.
+    """
     xmin, ymin = coords[:, :2].min(axis=0)
     xmax, ymax = coords[:, :2].max(axis=0)
-    span_x, span_y = max(xmax - xmin, 1e-9), max(ymax - ymin, 1e-9)
+    span_x, span_y = max(xmax - xmin, _SMALLEST_SPAN_M), max(ymax - ymin, _SMALLEST_SPAN_M)
     inner = MAP_WIDTH_PX - 2 * _MARGIN_PX
     scale = min(inner / span_x, (MAP_MAX_HEIGHT_PX - 2 * _MARGIN_PX) / span_y)
     height = max(span_y * scale + 2 * _MARGIN_PX + 24.0, 120.0)  # room for the scale bar below

@@ -14,14 +14,18 @@ from typing import Any
 
 import numpy as np
 import pandas as pd
+import shapely
 
 from audit.about import __version__
 from audit.outputs import candidate_rows
 from audit.report.charts import flag_bars, part_full_chart, velocity_histogram
 from audit.report.curves import report_curves
+from audit.report.flooding import flooding_section, node_levels
 from audit.report.flows import flows_section
 from audit.report.html import cell, paragraph, percent, plural, section, table
-from audit.report.map import CLASS_COLOURS, metric_geometry, network_map
+from audit.report.long_section import FLOOD_COLOUR
+from audit.report.map import CLASS_COLOURS, MapMarks, anchor_points, metric_geometry, network_map
+from audit.report.programme import programme_labels, programme_of, programme_section
 from audit.report.svg import element
 from audit.report.tables import (
     MAP_CLASSES,
@@ -31,6 +35,7 @@ from audit.report.tables import (
     flag_totals,
     map_classes,
     numeric,
+    pipe_labels,
     pipes_flags,
     renewal_candidates,
     texts,
@@ -44,6 +49,9 @@ CAUTION_WORDS = (
     "rules that the user can configure. It does not replace a calibrated hydraulic model of the "
     "network. Local codes and the judgement of a licensed engineer govern every decision taken on it."
 )
+
+#: The colour of the programme's numbers on the map.
+PROGRAMME_COLOUR = "#222222"
 
 #: Candidates listed in the report.
 CANDIDATE_ROWS = 20
@@ -62,6 +70,7 @@ th{background:#f2f2f2}
 svg{max-width:100%;height:auto;display:block}
 .legend{list-style:none;padding:0;display:flex;flex-wrap:wrap;gap:6px 22px;font-size:.9em}
 .swatch{display:inline-block;width:22px;height:6px;margin-right:6px;vertical-align:middle;border-radius:2px}
+.swatch.dot{width:10px;height:10px;border-radius:50%}
 .note{color:#555;font-size:.85em}
 #candidate-table td:nth-child(2),#candidate-table td:nth-child(3){white-space:nowrap}
 .title-block{max-width:1040px;margin:0 auto;padding:0 20px;color:#444;font-size:.9em}
@@ -95,10 +104,12 @@ def render_page(result: AuditResult, *, id_field: str | None, created: datetime)
             section("summary", "Summary", paragraph(_summary_words(result, pipes), class_="summary")),
             section("totals", "Network totals", _totals(result.totals, result.units)),
             section("map", "Map of the network by worst flag", _map(result, pipes, classes, totals)),
+            section("flooding", "Water levels and flooding", flooding_section(result, pipes)),
             section("flags", "Flags: pipes and length", _flags(totals, len(pipes), result.units)),
             section("part-full", "Load ratio against depth ratio", _part_full(pipes, classes, result.canonical_pipes)),
             section("velocity", "Velocity at design flow", _velocity(pipes, result.rules, result.units)),
             section("candidates", f"Top {CANDIDATE_ROWS} renewal candidates", _candidates(pipes, id_field=id_field, units=result.units), long=True),
+            _programme(result, pipes, id_field=id_field),
             section("findings", "Data findings", _findings(result.findings), long=True),
             section("flows", "Design flows at the outfalls", flows_section(pipes, result.settings.get("flows"), units=result.units), long=True),
             section("rules", "Rules and run", _rules(result, created=created), long=True),
@@ -144,15 +155,26 @@ def _summary_words(result: AuditResult, pipes: pd.DataFrame) -> str:
         amount = _long(float(np.nansum(length[chosen])), result.units)[0] or 0.0
         parts.append(f"{amount:,.2f} {unit} ({plural(int(np.count_nonzero(chosen)), 'pipe')}) of {word} severity")
     action = candidate_rows(pipes)[1]
-    renew, verify = int(np.count_nonzero(action == "consider renewal")), int(np.count_nonzero(action == "verify levels"))
+    verify = int(np.count_nonzero(np.isin(action, ("verify data first", "verify levels"))))
+    inspect = int(np.count_nonzero(action == "inspect"))
+    renew = action.size - verify - inspect
     unevaluated = int(np.count_nonzero(~evaluated(pipes)))
     return (
         f"Of {total or 0.0:,.2f} {unit} of pipe in {plural(len(pipes), 'pipe')}, the worst flag puts "
         + ", ".join(parts[:-1]) + f" and {parts[-1]}. "
-        + f"{plural(renew, 'pipe')} {'is a candidate' if renew == 1 else 'are candidates'} for renewal and "
-        + f"{plural(verify, 'pipe')} {'needs its' if verify == 1 else 'need their'} levels verified first; "
+        + f"{plural(renew, 'pipe')} {'is a candidate' if renew == 1 else 'are candidates'} for renewal, {inspect:,} to inspect and "
+        + f"{verify:,} {'needs its' if verify == 1 else 'need their'} data verified first; "
         + f"the hydraulics of {plural(unevaluated, 'pipe')} could not run for want of data."
+        + _flooding_words(result)
     )
+
+
+def _flooding_words(result: AuditResult) -> str:
+    nodes = node_levels(result)
+    if nodes is None:
+        return ""
+    flooding = int((nodes["state"] == "flooding").sum())
+    return f" At the design flows the water comes out of {plural(flooding, 'manhole')} (the grade line reaches the cover)."
 
 
 def analysis_frame(result: AuditResult) -> pd.DataFrame:
@@ -194,7 +216,8 @@ def _totals(totals: Mapping[str, Any], units: UnitSystem) -> str:
 
 def _map(result: AuditResult, pipes: pd.DataFrame, classes: np.ndarray, totals: pd.DataFrame) -> str:
     geometry, metres = metric_geometry(result.pipes, working_crs=result.settings.get("working_crs"))
-    drawing = network_map(geometry, classes, metres=metres, units=result.units)
+    marks = _flooding_marks(result) + _programme_marks(result, geometry)
+    drawing = network_map(geometry, classes, metres=metres, units=result.units, marks=marks)
     counts = class_counts(classes)
     flags_of = pipes_flags(pipes)
     order = {flag: place for place, flag in enumerate(totals["flag"])}
@@ -211,8 +234,46 @@ def _map(result: AuditResult, pipes: pd.DataFrame, classes: np.ndarray, totals: 
             detail = f" ({', '.join(flags)})" if flags else ""
         swatch = element("span", "", class_="swatch", style=f"background:{CLASS_COLOURS[name]}")
         items.append(element("li", swatch + html.escape(f"{words}: {plural(counts[name], 'pipe')}{detail}"), data_class=name))
+    for group in marks:
+        swatch = element("span", "", class_="swatch dot", style=f"background:{group.colour}")
+        words = (f"Flooding manhole: {plural(len(group.labels), 'manhole')}" if group.name == "flooding"
+                 else "Renewal programme: S1, S2, ... the schemes, 1, 2, ... the riskiest other pipes, as numbered in its tables")  # fmt: skip
+        items.append(element("li", swatch + html.escape(words), data_class=group.name))
     note = "North is up (grid north of the map's coordinate system)." + ("" if metres else " The unit of the coordinates is unknown: no scale bar.")
     return drawing + element("ul", "".join(items), class_="legend") + paragraph(note, class_="note")
+
+
+def _flooding_marks(result: AuditResult) -> tuple[MapMarks, ...]:
+    """The flooding manholes as marks on the map, labelled with their ids (none when no manhole floods)."""
+    manholes = result.manholes
+    if manholes is None or "flood_state" not in manholes.columns or result.canonical_manholes is None:
+        return ()
+    chosen = np.flatnonzero(manholes["flood_state"].astype(str).to_numpy() == "flooding")
+    if not chosen.size:
+        return ()
+    points, _ = metric_geometry(manholes.iloc[chosen], working_crs=result.settings.get("working_crs"))
+    xy = anchor_points(points)
+    ids = result.canonical_manholes["manhole_id"].astype(str).to_numpy()[chosen]
+    return (MapMarks(xy, FLOOD_COLOUR, "flooding", labels=tuple(ids)),)
+
+
+def _programme_marks(result: AuditResult, geometry: np.ndarray) -> tuple[MapMarks, ...]:
+    """The numbers of the programme's top schemes and pipes, where the map draws them."""
+    programme = programme_of(result)
+    if programme is None:
+        return ()
+    labels = programme_labels(programme, geometry)
+    if labels.empty:
+        return ()
+    return (MapMarks(labels[["x", "y"]].to_numpy(dtype=float), PROGRAMME_COLOUR, "programme", labels=tuple(labels["label"].astype(str)), radius_px=3.5),)
+
+
+def _programme(result: AuditResult, pipes: pd.DataFrame, *, id_field: str | None) -> str:
+    programme = programme_of(result)
+    if programme is None:
+        return ""
+    ids = pipe_labels(pipes, np.arange(len(pipes)), id_field=id_field)
+    return programme_section(programme, pipe_ids=ids, units=result.units)
 
 
 def _flags(totals: pd.DataFrame, pipe_count: int, units: UnitSystem) -> str:
@@ -279,8 +340,8 @@ def _candidates(pipes: pd.DataFrame, *, id_field: str | None, units: UnitSystem)
     ]  # fmt: skip
     headers = ("#", "Pipe", "From \u2192 to", "Action", "Severity", "Load ratio", f"Height [{units.unit('size')}]", f"Length [{units.unit('length')}]",
                f"Upstream [{units.unit('length')}]", "Reasons")  # fmt: skip
-    note = paragraph("The first rows of candidates.csv: pipes whose worst flag is medium or high, those to renew before those "
-                     "whose levels to verify, then by worst severity, load ratio and length of network upstream.", class_="note")
+    note = paragraph("The first rows of candidates.csv: the renewal programme's pipes ranked by risk (docs/renewal.md), "
+                     "review candidates, whose data must be verified first, after all others.", class_="note")
     return table(headers, rows, numeric=(True, False, False, False, False, True, True, True, True, False), id="candidate-table") + note
 
 
@@ -322,7 +383,7 @@ def _rules(result: AuditResult, *, created: datetime) -> str:
     rules = [(element("code", cell(key)), cell(_rule_unit(key)), cell(_rule_value(key, value))) for key, value in as_table(result.rules, result.units).items()]
     settings = [
         (element("code", cell(f"{group}.{key}")), "", cell(value))
-        for group in ("hydraulics", "network")
+        for group in ("hydraulics", "network", "grade_line")
         for key, value in (result.settings.get(group) or {}).items()
         if not (group == "hydraulics" and key in _UNUSED_BY_FORMULA.get(str((result.settings.get(group) or {}).get("formula")), ()))
     ]

@@ -19,14 +19,15 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 import pyarrow as pa
+import pyarrow.compute as pc
 
 from audit.errors import ConfigError
 from audit.layers import OPEN_SHAPES
 from audit.rules.access import access_runs, run_totals
 from audit.rules.settings import (
     FLAG_CODES,
-    SEVERITY_OFF,
     SEVERITY_NONE,
+    SEVERITY_OFF,
     SEVERITY_ORDER,
     RuleSettings,
 )
@@ -97,6 +98,7 @@ def check_pipes(
         **_capacity_hits(columns, settings=settings),
         **_velocity_hits(columns, settings=settings, units=units),
         **_grade_hits(columns, size=size, settings=settings),
+        **_grade_line_hits(columns, settings=settings, units=units),
         "long_spacing": _spacing_hit(size, run, run_length, run_pipes, settings=settings, units=units),
         "below_min_diameter": _diameter_hit(columns, size=size, settings=settings, units=units),
         "diameter_decrease": _decrease_hit(columns, size, upstream, downstream, nodes=len(node_access), units=units),
@@ -149,7 +151,11 @@ def _columns(metrics: pd.DataFrame) -> dict[str, np.ndarray]:
         raise ValueError(f"rules: metrics frame lacks column(s) {', '.join(missing)}")
     texts = ("pipe_id", "shape", "hydraulic_status", "flow_status")
     columns = {name: _text_column(metrics[name]) for name in texts}
-    for name in (*METRIC_COLUMNS, "upstream_invert", "downstream_invert", "full_area", "v_cleansing", "shear_cleansing", "population_served"):
+    for name in GRADE_LINE_TEXTS:
+        if name in metrics.columns:
+            columns[name] = _text_column(metrics[name])
+    for name in (*METRIC_COLUMNS, "upstream_invert", "downstream_invert", "full_area", "v_cleansing", "shear_cleansing", "population_served",
+                 *GRADE_LINE_NUMBERS):  # fmt: skip
         if name not in texts and name in metrics.columns:
             columns[name] = metrics[name].to_numpy(dtype=float, na_value=np.nan)
     return columns
@@ -221,11 +227,67 @@ def _limit(value: float, quantity: str, units: UnitSystem) -> str:
 def _velocity_hits(columns: dict[str, np.ndarray], *, settings: RuleSettings, units: UnitSystem) -> dict[str, Hit]:
     flowing = columns["slope"] > 0
     velocity = columns["v_design"]
-    fast = flowing & (velocity > settings.max_velocity)
+    fast = flowing & _free_surface(columns) & (velocity > settings.max_velocity)
     return {
         "silting": _silting_hit(columns, settings=settings, units=units),
         "high_velocity": (fast, concat("velocity ", _amount(velocity[fast], "velocity", units), " > ", _limit(settings.max_velocity, "velocity", units))),
     }
+
+
+#: The optional metric columns of the grade line (text, then numbers); without them its rules do not run.
+GRADE_LINE_TEXTS = ("flow_regime", "full_cause")
+GRADE_LINE_NUMBERS = ("froude", "jump", "depth_up", "depth_down", "height")
+
+#: Regimes in which a pipe runs full over some of its length (``audit.grade_line.PipeRegime`` labels).
+FULL_REGIMES = ("partly_pressurised", "pressurised", "above_bank_full")
+
+
+def _free_surface(columns: dict[str, np.ndarray]) -> np.ndarray:
+    """True where the flow has a free surface: every pipe without a grade line; with one, those not running full."""
+    if "flow_regime" not in columns:
+        return np.ones(len(columns["slope"]), dtype=bool)
+    return ~np.isin(columns["flow_regime"], FULL_REGIMES)
+
+
+def _grade_line_hits(columns: dict[str, np.ndarray], *, settings: RuleSettings, units: UnitSystem) -> dict[str, Hit]:
+    """``backwater_surcharge``, ``hydraulic_jump`` and ``near_critical`` from the grade line's columns.
+
+    * ``backwater_surcharge``: a pipe within its own capacity held up by the level below so that
+      the water stands above its crown at its upstream end: the manhole above it surcharges. A
+      pipe whose outlet only is drowned (a smaller pipe into a larger one with matched inverts)
+      runs partly full, which ``flow_regime`` and ``full_cause`` say, without a flag.
+    * ``hydraulic_jump``: a supercritical flow drowned by the level below, where the water after
+      the jump reaches the crown at the outlet: the jump fills the pipe, with surging and trapped
+      air. A jump that stays below the crown is ordinary in a steep sewer and is not flagged.
+    * ``near_critical``: a free-surface flow whose Froude number at normal depth lies within
+      ``near_critical_band`` of 1, where the surface is unstable and waves form.
+
+    Common practice, no source.
+    """
+    count = len(columns["slope"])
+    if "full_cause" not in columns:
+        none = np.zeros(count, dtype=bool)
+        return {"backwater_surcharge": (none, ""), "hydraulic_jump": (none, ""), "near_critical": (none, "")}
+    height = columns["height"]
+    above = columns["depth_up"] - height
+    held = (columns["full_cause"] == "backwater") & (above > 0)
+    ratio = _load_ratio(columns)
+    froude = columns["froude"]
+    filling = (columns["jump"] > 0) & (columns["depth_down"] >= height)
+    near = _free_surface(columns) & (np.abs(froude - 1.0) < settings.near_critical_band) & (columns["q_design"] > 0)
+    return {
+        "backwater_surcharge": (held, concat("held up by the level below", _within_capacity(ratio[held]), ": water ",
+                                             _amount(above[held], "length", units), " above the crown at its upstream end")),
+        "hydraulic_jump": (filling, concat("supercritical flow (Froude ", fixed(froude[filling], 2), ") drowned by the level below: "
+                                           "a hydraulic jump that fills the pipe")),
+        "near_critical": (near, concat("Froude number ", fixed(froude[near], 2), f" within {settings.near_critical_band:g} of 1: an unstable, wavy surface")),
+    }  # fmt: skip
+
+
+def _within_capacity(ratio: np.ndarray) -> pa.Array:
+    """`` within its capacity (load ratio 0.62)`` where the load ratio is known, else nothing."""
+    words = concat(" within its capacity (load ratio ", fixed(ratio, 2), ")")
+    return pc.if_else(pa.array(np.isfinite(ratio)), words, "")
 
 
 def _silting_hit(columns: dict[str, np.ndarray], *, settings: RuleSettings, units: UnitSystem) -> Hit:

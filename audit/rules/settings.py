@@ -32,9 +32,12 @@ SEVERITY_OFF = "off"
 DEFAULT_SEVERITY: Mapping[str, str] = MappingProxyType(
     {
         "surcharge": "high",
+        "backwater_surcharge": "medium",
         "near_capacity": "low",
         "silting": "medium",
         "high_velocity": "medium",
+        "hydraulic_jump": "low",
+        "near_critical": "low",
         "reverse_grade": "high",
         "zero_grade": "medium",
         "flat_grade": "medium",
@@ -47,6 +50,14 @@ DEFAULT_SEVERITY: Mapping[str, str] = MappingProxyType(
 )
 
 FLAG_CODES: tuple[str, ...] = tuple(DEFAULT_SEVERITY)
+
+#: Manhole flag codes, from the hydraulic grade line, with their default severity: ``flooding``
+#: where the water level reaches the cover less the freeboard, ``manhole_surcharge`` where it
+#: stands above the lowest crown at the manhole but below flooding. ``[rules.severity]`` sets
+#: them as it sets the pipe flags.
+MANHOLE_SEVERITY: Mapping[str, str] = MappingProxyType({"flooding": "high", "manhole_surcharge": "low"})
+
+MANHOLE_FLAG_CODES: tuple[str, ...] = tuple(MANHOLE_SEVERITY)
 
 
 @dataclass(frozen=True)
@@ -124,7 +135,7 @@ DRY_WEATHER: tuple[str, ...] = ("peak", "average")
 
 
 def _default_severity() -> Mapping[str, str]:
-    return MappingProxyType(dict(DEFAULT_SEVERITY))
+    return MappingProxyType({**DEFAULT_SEVERITY, **MANHOLE_SEVERITY})
 
 
 @dataclass(frozen=True)
@@ -141,7 +152,10 @@ class RuleSettings:
     cleansing_fraction : the share of the design flow ``fraction_velocity`` judges at [-]
     dry_weather : ``peak`` (the daily peak) or ``average`` dry-weather flow
     exempt_population : pipes serving fewer persons are not judged for silting [-]
-    max_velocity : greatest velocity at design flow against scour [m/s]
+    max_velocity : greatest velocity at design flow against scour [m/s], judged where the flow
+        has a free surface (a pipe running full is judged by the grade line)
+    near_critical_band : a free-surface pipe whose Froude number at normal depth lies within this
+        of 1 is flagged ``near_critical`` [-]
     min_slope : least slope by diameter [m/m]; None: only a zero slope is flagged
     min_diameter_mm : least internal size of a public gravity sewer [mm]
     min_cover_m : least cover over the pipe at either end [m]
@@ -158,6 +172,7 @@ class RuleSettings:
     dry_weather: str = "peak"
     exempt_population: float = 0.0
     max_velocity: float = 3.0  # common practice, no source
+    near_critical_band: float = 0.2  # |Fr - 1| below which the surface is unstable: Fr 0.8 to 1.2, common practice, no source
     min_slope: DiameterTable | None = None
     min_diameter_mm: float = 200.0  # 8 in in many codes, from memory
     min_cover_m: float = 0.9  # common practice, no source
@@ -261,10 +276,10 @@ def _severity(raw: object, *, source: str, key: str) -> Mapping[str, str]:
     if not isinstance(raw, Mapping):
         raise ConfigError(f"{source}: {key}: expected a table of flag = severity, got {_kind(raw)}")
     words = (*SEVERITY_ORDER, SEVERITY_OFF)
-    merged = dict(DEFAULT_SEVERITY)
+    merged = dict(_default_severity())
     for flag, word in raw.items():
-        if flag not in DEFAULT_SEVERITY:
-            raise ConfigError(f"{source}: {key}.{flag}: unknown flag{_did_you_mean(str(flag), FLAG_CODES)}")
+        if flag not in merged:
+            raise ConfigError(f"{source}: {key}.{flag}: unknown flag{_did_you_mean(str(flag), FLAG_CODES + MANHOLE_FLAG_CODES)}")
         if word not in words:
             raise ConfigError(f"{source}: {key}.{flag}: expected one of {', '.join(words)}, got {_kind(word)}")
         merged[flag] = str(word)
@@ -281,6 +296,7 @@ _PARSERS = {
     "dry_weather": lambda raw, *, source, key: _choice(raw, DRY_WEATHER, source=source, key=key),
     "exempt_population": _non_negative,
     "max_velocity": _positive,
+    "near_critical_band": _non_negative,
     "min_slope": _by_diameter,
     "min_diameter_mm": _non_negative,
     "min_cover_m": _non_negative,
@@ -385,6 +401,7 @@ USUAL_RANGES: Mapping[str, tuple[float, float, str]] = MappingProxyType(
         "near_capacity_ratio": (0.5, 1.0, "a ratio of design flow to full-bore capacity, such as 0.8"),
         "min_velocity": (0.2, 1.5, "m/s (2 ft/s is 0.61 m/s)"),
         "max_velocity": (1.5, 10.0, "m/s (10 ft/s is 3.05 m/s)"),
+        "near_critical_band": (0.05, 0.5, "a band of Froude numbers around 1, such as 0.2 for 0.8 to 1.2"),
         "min_shear": (0.2, 8.0, "Pa"),
         "min_slope": (0.0001, 0.05, "m/m (0.4 % is 0.004)"),
         "min_diameter_mm": (50.0, 600.0, "mm (8 in is 200 mm)"),

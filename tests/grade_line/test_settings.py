@@ -25,7 +25,7 @@ def test_an_empty_table_gives_the_defaults() -> None:
     assert settings == GradeLineSettings()
     assert settings.outfall == Outfall(BoundaryKind.FREE)
     assert math.isnan(settings.outfall.level)
-    assert (settings.manhole_loss, settings.freeboard_m, settings.profile_steps) == (0.5, 0.0, 16)
+    assert (settings.manhole_loss, settings.freeboard_m, settings.profile_steps) == (0.15, 0.0, 16)
 
 
 def test_every_key_is_read() -> None:

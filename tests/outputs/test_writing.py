@@ -16,8 +16,8 @@ from audit.about import CAUTION
 from audit.errors import AuditError, OutputExistsError
 from audit.outputs import print_summary_table, rank_candidates, write_outputs
 from audit.outputs import writing as outputs
-from audit.result import COLUMN_UNITS, FINDING_COLUMNS, MANHOLE_COLUMNS, PIPE_COLUMNS, AuditResult, output_name
-from audit.rules import RuleSettings
+from audit.result import COLUMN_UNITS, FINDING_COLUMNS, PIPE_COLUMNS, AuditResult, output_name
+from audit.rules import FLAG_CODES, RuleSettings
 from audit.units import SI
 
 CRS = "EPSG:27700"
@@ -46,6 +46,11 @@ def _pipes() -> gpd.GeoDataFrame:
         "reasons": ["load ratio 1.20 > 1.00; velocity 0.40 < 0.60", "", "no flow", "v 0.5; slope 0"],
         "from_node_id": ["M1", "M2", "J1", "M4"],
         "to_node_id": ["M2", "M3", "M3", "M5"],
+        # the renewal programme: the surcharged pipe first, then the silting one
+        "remedy": ["capacity: upsize", "", "", "silting: re-lay"], "remedy_kind": ["capacity", "", "", "silting"],
+        "scheme_id": ["S001", "", "", ""], "likelihood": [5.0, np.nan, np.nan, 3.0], "consequence": [3.0, np.nan, np.nan, 2.0],
+        "risk": [15.0, np.nan, np.nan, 6.0], "risk_driver": ["load ratio x depth", "", "", "load ratio x size"],
+        "review": [0.0, 0.0, 0.0, 0.0], "renewal_rank": [1, 0, 0, 2],
     })  # fmt: skip
     geometry = shapely.linestrings([[[0, 0], [40, 0]], [[40, 0], [100, 0]], [[0, 5], [0, 9]], [[9, 9], [9, 34]]])
     return gpd.GeoDataFrame({**original, **computed}, geometry=geometry, crs=CRS)
@@ -88,10 +93,10 @@ def _listing(folder: Path) -> list[str]:
     return sorted(path.name for path in folder.iterdir())
 
 
-def test_writes_the_three_files_and_nothing_else(tmp_path: Path) -> None:
+def test_writes_the_four_files_and_nothing_else(tmp_path: Path) -> None:
     paths = _written(tmp_path)
-    assert _listing(tmp_path / "out") == ["audit.gpkg", "candidates.csv", "summary.json"]
-    assert set(paths) == {"geopackage", "summary", "candidates"}
+    assert _listing(tmp_path / "out") == ["audit.gpkg", "candidates.csv", "schemes.csv", "summary.json"]
+    assert set(paths) == {"geopackage", "summary", "candidates", "schemes"}
     assert all(path.parent == tmp_path / "out" for path in paths.values())
 
 
@@ -115,7 +120,7 @@ def test_pipes_round_trip_keeps_every_original_field_and_the_computed_columns(tm
 def test_manholes_and_findings_layers(tmp_path: Path) -> None:
     path = _written(tmp_path)["geopackage"]
     manholes = gpd.read_file(path, layer="manholes", engine="pyogrio")
-    assert list(manholes.columns) == ["MH_REF", "Cover Level", *(output_name(name, SI) for name in MANHOLE_COLUMNS), "geometry"]
+    assert list(manholes.columns) == ["MH_REF", "Cover Level", *(output_name(name, SI) for name in ("pipes_in", "pipes_out", "flow_out", "findings")), "geometry"]
     assert manholes["flow_out_l_s"].tolist()[0] == pytest.approx(10.0)  # 0.01 m3/s written in l/s
     assert manholes["flow_out_l_s"].isna().tolist() == [False, True]
     findings = gpd.read_file(path, layer="findings", engine="pyogrio")
@@ -167,7 +172,7 @@ def test_overwrite_replaces_our_files_and_leaves_others_alone(tmp_path: Path) ->
     write_outputs(_result(tmp_path), out, overwrite=True)
     assert (out / "notes.txt").read_text(encoding="utf-8") == "mine"
     assert json.loads((out / "summary.json").read_text(encoding="utf-8"))["tool"] == "sewer-audit"
-    assert _listing(out) == ["audit.gpkg", "candidates.csv", "notes.txt", "summary.json"]
+    assert _listing(out) == ["audit.gpkg", "candidates.csv", "notes.txt", "schemes.csv", "summary.json"]
 
 
 def test_a_target_that_is_an_input_is_refused_even_with_overwrite(tmp_path: Path) -> None:
@@ -297,9 +302,12 @@ def test_candidates_file(tmp_path: Path) -> None:
     with _written(tmp_path)["candidates"].open(encoding="utf-8", newline="") as handle:
         rows = list(csv.DictReader(handle))
     assert list(rows[0]) == [
-        "rank", "pipe_id", "action", "severity", "flags", "reasons", "load_ratio", "depth_ratio", "v_design_m_s", "slope",
-        "diameter_mm", "length_m", "upstream_length_m", "install_year", "material",
+        "rank", "pipe_id", "action", "remedy", "scheme_id", "risk", "likelihood", "consequence", "risk_driver", "severity", "flags",
+        "reasons", "load_ratio", "depth_ratio", "v_design_m_s", "slope", "diameter_mm", "length_m", "upstream_length_m",
+        "install_year", "material",
     ]  # fmt: skip
+    assert [row["action"] for row in rows] == ["consider renewal", "consider renewal"]
+    assert [row["scheme_id"] for row in rows] == ["S001", ""]
     assert [row["severity"] for row in rows] == ["high", "medium"]
     assert rows[0]["reasons"] == "load ratio 1.20 > 1.00; velocity 0.40 < 0.60"
     assert rows[0]["pipe_id"] == "#0"  # the test frame has no canonical pipe_id column
@@ -326,7 +334,10 @@ def test_summary_table() -> None:
     print_summary_table(result, {"geopackage": Path("out/audit.gpkg")}, file=stream)
     lines = stream.getvalue().splitlines()
     assert lines[0].split() == ["flag", "severity", "pipes", "length", "km"]
-    assert lines[3].split() == ["silting", "medium", "2", "0.065"]
+    assert next(line for line in lines if line.startswith("silting ")).split() == ["silting", "medium", "2", "0.065"]
+    codes = [line.split()[0] for line in lines[1 : lines.index("data findings: 9")]]
+    assert set(codes) <= set(FLAG_CODES)
+    assert codes == [code for code in FLAG_CODES if code in codes]  # the fixed order of docs/rules.md
     assert "data findings: 9" in lines
     assert "geopackage: out/audit.gpkg" in lines
     assert lines[-1] == CAUTION

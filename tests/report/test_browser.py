@@ -22,7 +22,7 @@ from audit.report import write_report
 
 CHROMIUM = Path("/usr/bin/chromium")
 TOWN = Path(__file__).resolve().parents[2] / "sample_gis" / "town.toml"
-SECTIONS = ("caution", "summary", "totals", "map", "flags", "part-full", "velocity", "candidates", "findings", "flows", "rules")
+SECTIONS = ("caution", "summary", "totals", "map", "flooding", "flags", "part-full", "velocity", "candidates", "programme", "findings", "flows", "rules")
 WINDOW = (1280, 3000)
 
 pytestmark = pytest.mark.skipif(not CHROMIUM.exists(), reason="needs /usr/bin/chromium; .ci/run installs it with apt-get")
@@ -53,7 +53,7 @@ def test_rendered_dom_holds_every_section_and_no_console_line(report: Path, tmp_
     assert done.returncode == 0, done.stderr[-2000:]
     for name in SECTIONS:
         assert f'<section id="{name}"' in done.stdout, name
-    assert done.stdout.count("<svg") == 4  # map, flag bars, part-full chart, velocity histogram
+    assert done.stdout.count("<svg") == 6  # map, long section, flag bars, part-full chart, velocity histogram, risk matrix
     assert page_faults(done.stderr) == []
 
 
@@ -114,8 +114,8 @@ def test_printed_report_keeps_sections_off_the_foot_of_a_page(report: Path, tmp_
     width, height = PAPERS[paper]
     assert all(abs(float(page.mediabox.width) - width) < 1 and abs(float(page.mediabox.height) - height) < 1 for page in reader.pages)
     assert 3 <= len(reader.pages) <= 12  # the demo town: a map, three charts and a few tables
-    titles = {"Caution", "Summary", "Network totals", "Map of the network by worst flag", "Flags: pipes and length",
-              "Load ratio against depth ratio", "Velocity at design flow", "Top 20 renewal candidates", "Data findings",
+    titles = {"Caution", "Summary", "Network totals", "Map of the network by worst flag", "Water levels and flooding", "Flags: pipes and length",
+              "Load ratio against depth ratio", "Velocity at design flow", "Top 20 renewal candidates", "Renewal programme", "Data findings",
               "Design flows at the outfalls", "Rules and run"}  # fmt: skip
     lines: dict[tuple[int, float], str] = {}  # text runs joined by page and baseline
     for number, page in enumerate(reader.pages):

@@ -26,7 +26,7 @@ from audit.result import PIPE_COLUMNS, AuditResult
 from audit.rules import RuleSettings
 
 TOWN = Path(__file__).resolve().parents[2] / "sample_gis" / "town.toml"
-SECTION_ORDER = ["caution", "summary", "totals", "map", "flags", "part-full", "velocity", "candidates", "findings", "flows", "rules"]
+SECTION_ORDER = ["caution", "summary", "totals", "map", "flooding", "flags", "part-full", "velocity", "candidates", "programme", "findings", "flows", "rules"]
 VOID = {"meta", "br", "img", "link", "input", "hr"}
 
 
@@ -128,9 +128,14 @@ def test_the_summary_gives_the_length_per_severity_and_what_to_do_first(town: Au
         count = int(chosen.sum())
         assert f"{km:,.2f} km ({count} pipe{'' if count == 1 else 's'}) of {word} severity" in words
     assert f"Of {pipes['length_m'].sum() / 1000.0:,.2f} km of pipe in {len(pipes)} pipes" in words
-    # the errors planted in the demo (sample_gis/ERRORS.md): 4 overloaded laterals, a silting spur, a steep
-    # pipe and a size step to renew (7); a reverse and a zero grade to verify (2)
-    assert "7 pipes are candidates for renewal and 2 pipes need their levels verified first" in words
+    # the counts of candidates.csv's actions, from the programme's columns
+    pipes = town.pipes
+    listed = pipes[(pipes["renewal_rank"] > 0) & (pipes["severity"].isin(["medium", "high"]) | (pipes["remedy_kind"] == "inspect"))]
+    review = listed["review"] > 0
+    inspect = ~review & (listed["remedy_kind"] == "inspect")
+    renew = ~review & ~inspect
+    assert f"{int(renew.sum())} pipes are candidates for renewal, {int(inspect.sum())} to inspect and {int(review.sum())} need their data verified first" in words
+    assert int(review.sum()) == 2  # the demo's reverse and zero grades (sample_gis/ERRORS.md) list as verify first
 
 
 def test_the_title_block_names_the_network_run_and_design_storm(town: AuditResult, town_page: Page) -> None:
@@ -158,13 +163,34 @@ def test_every_flag_appears_in_legend_and_table_with_its_count(town: AuditResult
 
 
 def test_legend_counts_add_up_to_every_pipe(town: AuditResult, town_page: Page) -> None:
-    items = town_page.section("map").find_all("li")
-    counts = {item.attrs["data-class"]: int(re.search(r": ([\d,]+) pipes", item.text()).group(1).replace(",", "")) for item in items}
+    items = [item for item in town_page.section("map").find_all("li") if item.attrs["data-class"] not in ("flooding", "programme")]
+    counts = {item.attrs["data-class"]: int(re.search(r": ([\d,]+) pipes?", item.text()).group(1).replace(",", "")) for item in items}
     assert sum(counts.values()) == len(town.pipes)
     severity = town.pipes["severity"].fillna("")
     assert counts["high"] == int((severity == "high").sum())
     assert counts["medium"] == int((severity == "medium").sum())
     assert counts["none"] == int(((severity == "none") & town.pipes["hydraulic_status"].isin(["ok", "above_full_bore", "surcharged"])).sum())
+
+
+def test_the_flooding_manholes_are_marked_listed_and_drawn_in_the_long_section(town: AuditResult, town_page: Page) -> None:
+    manholes = town.manholes
+    flooding = set(manholes.loc[manholes["flood_state"] == "flooding", "mh_ref"])
+    # the demo's four overloaded 225 mm laterals (sample_gis/ERRORS.md) lose metres of head at their design flow
+    # in manholes about 2 m deep: the manholes at their upstream ends flood
+    assert flooding == {"W079", "W080", "W081", "W082"}
+    (drawing,) = town_page.section("map").find_all("svg")
+    (group,) = drawing.find_all("g", **{"data-marks": "flooding"})
+    assert {node.text() for node in group.find_all("text")} == flooding
+    rows = town_page.table_rows("flooding-table")
+    assert {row[0] for row in rows} == flooding
+    depths = [float(row[3]) for row in rows]
+    assert depths == sorted(depths, reverse=True)
+    for row in rows:  # the level above the cover is the level needed less the cover
+        assert float(row[2]) - float(row[1]) == pytest.approx(float(row[3]), abs=0.011)
+    (section,) = town_page.section("flooding").find_all("svg")
+    marked = {node.attrs["data-flooding"] for node in section.find_all("circle") if "data-flooding" in node.attrs}
+    assert marked == flooding  # the section starts at the top of the run, so all four lie on it
+    assert "W082 to W000" in section.text()
 
 
 def test_map_draws_one_path_per_class_with_scale_bar_and_north_arrow(town_page: Page) -> None:
@@ -209,22 +235,14 @@ def test_findings_by_code_with_counts_and_three_examples(town: AuditResult, town
 
 def test_candidates_are_the_first_rows_of_the_csv_ranking(town: AuditResult, town_page: Page) -> None:
     rows = town_page.table_rows("candidate-table")
-    # the CSV lists medium and high pipes only (docs/outputs.md); the report shows its first 20
-    listed = town.pipes[town.pipes["severity"].isin(["medium", "high"])]
-    assert len(rows) == min(20, len(listed))
-    assert {row[4] for row in rows} <= {"medium", "high"}
-    # pipes listed only for reverse or zero grades come last, as 'verify levels'
-    flags = listed["flags"].str.split(";").map(set)
-    verify = flags.map(lambda codes: not (codes & {"surcharge", "silting", "high_velocity", "flat_grade", "diameter_decrease"}))
-    actions = [row[3] for row in rows]
-    assert actions == sorted(actions)  # 'consider renewal' < 'verify levels'
-    assert actions.count("consider renewal") == min(20, int((~verify).sum()))
-    rank = {"high": 3, "medium": 2}
-    renew = [(rank[row[4]], float(row[5]) if row[5] != "\u2013" else -np.inf) for row in rows if row[3] == "consider renewal"]
-    assert renew == sorted(renew, reverse=True)
-    worst = town.pipes[town.pipes["severity"] == "high"]
-    top = worst.loc[worst["load_ratio"].fillna(-np.inf).idxmax(), "asset_ref"]
-    assert rows[0][1] == top
+    # candidates.csv (docs/outputs.md): the programme's pipes with a medium or high flag or an inspection remedy, by renewal rank
+    pipes = town.pipes
+    listed = pipes[(pipes["renewal_rank"] > 0) & (pipes["severity"].isin(["medium", "high"]) | (pipes["remedy_kind"] == "inspect"))]
+    expected = listed.sort_values("renewal_rank")["asset_ref"].head(20).tolist()
+    assert [row[1] for row in rows] == expected
+    actions = {row[1]: row[3] for row in rows}
+    kinds = dict(zip(listed["asset_ref"], listed["remedy_kind"], strict=True))
+    assert all(actions[ref] == {"inspect": "inspect", "downstream": "relieve downstream"}.get(kinds[ref], "consider renewal") for ref in actions)
 
 
 def test_velocity_limits_and_rules_are_shown(town: AuditResult, town_page: Page) -> None:
