@@ -1,6 +1,6 @@
 """Copy the demo town and apply a few invented survey corrections, for ``sewer-audit compare`` to find.
 
-Writes ``town.gpkg`` (the demo town's three layers, corrected), ``town.toml`` (the demo's config,
+Writes ``town.gpkg`` (the demo town's layers, pipes, manholes and catchments corrected), ``town.toml`` (the demo's config,
 which maps the same fields, beside it) and ``CORRECTIONS.md`` (what was changed, by id) into the
 folder given. The corrections are invented, as the town is:
 
@@ -145,8 +145,9 @@ def make_corrections(outdir: Path, *, sample: Path = SAMPLE) -> Book:
     pipes = delete_flattest(pipes, book)
     pipes, manholes, catchments = add_branch(pipes, manholes, layers["catchments"], book)
     target = outdir / "town.gpkg"
-    for number, (name, frame) in enumerate((("pipes", pipes), ("manholes", manholes), ("catchments", catchments))):
-        pyogrio.write_dataframe(frame, target, layer=name, driver="GPKG", append=number > 0)
+    shutil.copyfile(sample / "town.gpkg", target)  # every other layer (inspections, rail corridor) as it was
+    for name, frame in (("pipes", pipes), ("manholes", manholes), ("catchments", catchments)):
+        pyogrio.write_dataframe(frame, target, layer=name, driver="GPKG")  # replaces that layer only
     shutil.copyfile(sample / "town.toml", outdir / "town.toml")  # its paths are relative: town.gpkg beside it
     (outdir / "CORRECTIONS.md").write_text(book.markdown(), encoding="utf-8")
     return book

@@ -5,7 +5,8 @@ and returns a :class:`Comparison`: for the pipes and the manholes a change table
 (:mod:`audit.compare.differences`) with the geometry of each row (the later audit's, or the
 earlier one's for a removed feature, in the later audit's CRS), the settings that differ
 (:mod:`audit.compare.provenance`), notes on how the two were put side by side, and the totals
-before and after per flag and per severity (:mod:`audit.compare.totals`).
+before and after per flag and per severity, of the pipes and of the manholes, and per flood state
+(:mod:`audit.compare.totals`).
 
 Coordinates are matched in one frame: the earlier audit's CRS when it is projected, else its
 working CRS (summary.json ``settings.working_crs``) or a UTM zone that fits; the later audit's
@@ -30,7 +31,8 @@ from audit.compare.differences import LayerChanges, Sides, layer_changes
 from audit.compare.matching import Matches, end_points, match_features, plain_text
 from audit.compare.provenance import settings_differ
 from audit.compare.reading import MANHOLES, PIPES, AuditLayer, AuditOutput, LayerKind
-from audit.compare.totals import flag_movement, severity_map, severity_movement
+from audit.compare.totals import flag_movement, flood_states, severity_map, severity_movement
+from audit.result import output_name
 from audit.units import UNIT_SIZES
 
 DEFAULT_TOLERANCE_M = 0.5  # common practice, no source: survey-grade ends agree well within half a metre
@@ -66,8 +68,10 @@ class Comparison:
     manholes: LayerComparison | None  # None when neither audit has manholes
     settings_differ: list[dict[str, Any]]  # {"key", "old", "new"} per setting that differs
     notes: list[str]  # how the two audits were put side by side
-    flags: pd.DataFrame  # per flag code, totals before and after (audit.compare.totals.flag_movement)
+    flags: pd.DataFrame  # per pipe flag code, totals before and after (audit.compare.totals.flag_movement)
     severity: dict[str, dict[str, int]]  # pipes per worst severity before and after
+    manhole_flags: pd.DataFrame | None  # per manhole flag code, the same; None unless both audits' manholes have flags
+    flood_states: dict[str, dict[str, int]] | None  # manholes per flood state before and after; None unless both audits have them
 
     def layers(self) -> list[LayerComparison]:
         """The pipes, then the manholes when there are any."""
@@ -102,10 +106,14 @@ def compare_audits(old: AuditOutput, new: AuditOutput, *, tolerance: float | Non
         notes += [f"{audit.label} {kind.name}: no id field ({source}); matched by geometry only"
                   for audit, field, source in zip((old, new), compared[kind.name].id_fields, compared[kind.name].id_sources, strict=True)
                   if field is None and len(audit.layer(kind) or ())]  # fmt: skip
-        notes += _field_notes(old, new, before, after)
+        notes += _field_notes(old, new, before, after) + _status_notes(old, new, before, after)
     flags, severity = flag_movement(old, new, compared["pipes"].table), severity_movement(old, new)
-    return Comparison(_provenance(old), _provenance(new), tolerance, compared["pipes"], compared.get("manholes"), settings_differ(old, new),
-                      notes, flags, severity)  # fmt: skip
+    manholes = compared.get("manholes")
+    status = set(manholes.table.columns) if manholes is not None else set()
+    manhole_flags = flag_movement(old, new, manholes.table, kind=MANHOLES) if manholes is not None and "flags_gained" in status else None
+    states = flood_states(old, new) if manholes is not None and "flood_state_old" in status else None
+    return Comparison(_provenance(old), _provenance(new), tolerance, compared["pipes"], manholes, settings_differ(old, new),
+                      notes, flags, severity, manhole_flags, states)  # fmt: skip
 
 
 def _field_notes(old: AuditOutput, new: AuditOutput, before: AuditLayer, after: AuditLayer) -> list[str]:
@@ -115,6 +123,18 @@ def _field_notes(old: AuditOutput, new: AuditOutput, before: AuditLayer, after: 
         only = [name for name in mine.register if name not in other.register]
         if only:
             notes.append(f"{mine.kind.name}: register fields only {audit.label} holds, not compared: {', '.join(only)}")
+    return notes
+
+
+def _status_notes(old: AuditOutput, new: AuditOutput, before: AuditLayer, after: AuditLayer) -> list[str]:
+    """A note for each of the flags, severity and flood state that only one audit's layer has (an audit made by an earlier version)."""
+    notes = []
+    for name in ("flags", "severity", "flood_state"):
+        if name not in before.kind.columns or (name in before.computed) == (name in after.computed):
+            continue
+        lacking = old if name not in before.computed else new
+        notes.append(f"{lacking.label} {before.kind.name}: no {output_name(name, lacking.units)} field (an audit made by an earlier version): "
+                     f"{before.kind.name.removesuffix('s')} {name.replace('_', ' ')} not compared")  # fmt: skip
     return notes
 
 

@@ -12,12 +12,21 @@ Over all matched pairs at once (a loop per field, never per feature):
   ``RESULT_ATOL + RESULT_RTOL * max(|a|, |b|)``; text exactly, except that a junction the audit
   named ``J<n>`` equals any other such junction (the numbering shifts when pipes are added).
   ``reasons`` is not compared: it restates the flags and their numbers in the audit's own units.
-* **Codes** (the pipes' flags, the manholes' data findings): the codes gained and cleared. An
-  added feature gains all its codes, a removed one clears all of its.
-* **Severity** (pipes): before, after, ``up`` or ``down``, the worst severity among the flags
-  gained (as the later audit's rules rate them), and the outcome: ``worse`` (severity up, or the
-  same with flags gained and none cleared), ``better`` (the mirror), ``mixed`` (the same
-  severity, flags both gained and cleared).
+* **Codes** (the flags of pipes and manholes, the manholes' data findings): the codes gained and
+  cleared, compared as sets. An added feature gains all its codes, a removed one clears all of
+  its.
+* **Severity** (pipes, and manholes where both audits rate them): before, after, ``up`` or
+  ``down``, the worst severity among the flags gained (as the later audit's rules rate them),
+  and the outcome: ``worse`` (severity up, or the same with flags gained and none cleared),
+  ``better`` (the mirror), ``mixed`` (the same severity, flags both gained and cleared). A
+  manhole's data findings take no part in its severity or outcome.
+
+**The kind of change.** A matched feature is ``changed`` when a register field or its geometry
+changed, or when its codes (flags; a manhole's data findings), its severity or its flood state
+changed; else ``unchanged``. A result that moved is listed in ``results_moved`` all the same, but
+a number that moved alone (a water level, a load ratio, a flow) leaves the feature unchanged: a
+resized pipe moves the grade line of every pipe above it, and a comparison of two years must
+not list them all.
 """
 
 from __future__ import annotations
@@ -31,7 +40,8 @@ import pandas as pd
 from numpy.typing import NDArray
 
 from audit.compare.matching import AMBIGUOUS, BY_GEOMETRY, BY_ID, Matches, plain_text
-from audit.compare.reading import NOT_COMPARED, PIPES, AuditLayer
+from audit.compare.reading import NOT_COMPARED, AuditLayer
+from audit.grade_line import FloodState
 from audit.result import COLUMN_UNITS, output_name
 from audit.rules import SEVERITY_NONE, SEVERITY_ORDER
 from audit.units import UNIT_SIZES, UnitSystem
@@ -39,8 +49,11 @@ from audit.units import UNIT_SIZES, UnitSystem
 REGISTER_RTOL, REGISTER_ATOL = 1e-6, 1e-9  # common practice, no source: well above float noise, well below any survey's precision
 RESULT_RTOL, RESULT_ATOL = 1e-6, 1e-9  # common practice, no source
 
-#: Results shown before and after in columns of their own, where both audits have them.
-BEFORE_AFTER = ("load_ratio", "flood_state", "flow_out")
+#: Results shown before and after in columns of their own, where the layer and both audits have them.
+BEFORE_AFTER = ("load_ratio", "flow_out", "water_level_m", "freeboard_m", "flood_state")
+
+#: The flood state a manhole is in when the water reaches its cover (``audit.grade_line.FloodState``).
+FLOODING = FloodState.FLOODING.label
 
 #: The kinds of change, as written in the ``change`` column.
 ADDED, REMOVED, CHANGED, UNCHANGED = "added", "removed", "changed", "unchanged"
@@ -89,26 +102,38 @@ def layer_changes(sides: Sides) -> LayerChanges:
     old_row, new_row, pair = old_row[order], new_row[order], pair[order]
     matched = pair >= 0
     fields = _by_pair(_changed_names(sides, register=True), pair)
-    results = _by_pair(_changed_names(sides, register=False), pair)
-    change = np.select([new_row < 0, old_row < 0, (fields.codes > 0) | (results.codes > 0)], [1, 0, 2], 3)
     how = pd.Categorical(m.how, categories=MATCHED_BY)
     table: dict[str, object] = {
-        "change": pd.Categorical.from_codes(change, categories=[ADDED, REMOVED, CHANGED, UNCHANGED]),
+        "change": None,  # filled in below, once the codes, the severity and the flood state are compared
         "id_old": _take(sides.old_ids, old_row),
         "id_new": _take(sides.new_ids, new_row),
         "fid_old": _feature_ids(sides.old, old_row),
         "fid_new": _feature_ids(sides.new, new_row),
         "matched_by": _by_pair(how, pair),
         "fields_changed": fields,
-        "results_moved": results,
+        "results_moved": _by_pair(_changed_names(sides, register=False), pair),
     }
-    codes = sides.old.kind.codes
-    gained, cleared = code_moves(_texts(sides.old, codes, old_row).fillna(""), _texts(sides.new, codes, new_row).fillna(""))
-    table |= {f"{codes}_gained": gained, f"{codes}_cleared": cleared}
-    if sides.old.kind is PIPES:
-        table |= _severity_columns(sides, old_row, new_row, matched=matched, gained=gained, cleared=cleared)
+    status_moved = np.zeros(old_row.size, dtype=bool)
+    moves = {}
+    for codes in both_have(sides, sides.old.kind.codes):
+        moves[codes] = code_moves(_texts(sides.old, codes, old_row).fillna(""), _texts(sides.new, codes, new_row).fillna(""))
+        table |= {f"{codes}_gained": moves[codes][0], f"{codes}_cleared": moves[codes][1]}
+        status_moved |= np.asarray(moves[codes][0] != "") | np.asarray(moves[codes][1] != "")
+    if "flags" in moves and both_have(sides, ("severity",)):
+        severity = _severity_columns(sides, old_row, new_row, matched=matched, gained=moves["flags"][0], cleared=moves["flags"][1])
+        table |= severity
+        status_moved |= np.asarray(severity["severity_move"] != "")
+    for name in both_have(sides, ("flood_state",)):
+        status_moved |= values_differ(_texts(sides.old, name, old_row), _texts(sides.new, name, new_row), rtol=RESULT_RTOL, atol=RESULT_ATOL)
+    changed = matched & ((fields.codes > 0) | status_moved)
+    table["change"] = pd.Categorical.from_codes(np.select([new_row < 0, old_row < 0, changed], [1, 0, 2], 3), categories=[ADDED, REMOVED, CHANGED, UNCHANGED])
     table |= _before_after(sides, old_row, new_row)
     return LayerChanges(pd.DataFrame(table), old_row, new_row)
+
+
+def both_have(sides: Sides, names: tuple[str, ...]) -> list[str]:
+    """Those of the computed columns ``names`` that both audits' layers have (and the layer's kind documents), in the given order."""
+    return [name for name in names if name in sides.old.kind.columns and name in sides.old.computed and name in sides.new.computed]
 
 
 def _by_pair(words: pd.Categorical, pair: NDArray[np.int64]) -> pd.Categorical:

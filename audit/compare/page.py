@@ -2,8 +2,9 @@
 
 Order: the settings-differ warning (only when the audits' settings or tool versions differ), the
 caution, notes on how the audits were put side by side, the counts of change, a map of what got
-worse and what got better, the flags and severities before and after, the pipes that got worse
-and better, and the two audits. The page reuses the report's style sheet, tables, escaping and
+worse and what got better, the flags of pipes and manholes and the pipes' severities before and
+after, the manholes that started or stopped flooding, the pipes that got worse and better, and
+the two audits. The page reuses the report's style sheet, tables, escaping and
 map (:mod:`audit.report`): inline CSS and SVG only, no script, no font, no outside address, every
 user string escaped.
 
@@ -24,13 +25,14 @@ import shapely
 
 from audit.about import CAUTION, TOOL, __version__
 from audit.compare.comparison import Comparison
-from audit.compare.differences import ADDED, CHANGED, REMOVED, UNCHANGED, severity_rank
+from audit.compare.differences import ADDED, CHANGED, FLOODING, REMOVED, UNCHANGED, severity_rank
 from audit.compare.summary import warning
 from audit.compare.totals import OUTCOMES, change_counts
+from audit.report import STYLE_SHEET as REPORT_CSS  # the report's style sheet, so both pages look alike
 from audit.report.html import cell, paragraph, section, table
 from audit.report.map import CLASS_COLOURS, metric_geometry, network_map
-from audit.report.page import _CSS as REPORT_CSS  # the report's style sheet, so both pages look alike
 from audit.report.svg import element
+from audit.result import output_name
 
 #: Map classes, from the most to the least urgent, with the legend's words and colours.
 MAP_CLASSES: dict[str, tuple[str, str]] = {
@@ -60,6 +62,7 @@ def render_comparison_page(comparison: Comparison, *, created: datetime) -> str:
         section("map", "Map of what got worse and what got better", _map(comparison)),
         section("flags", "Flags before and after", _flags(comparison)),
         section("severity", "Pipes by worst severity", _severity(comparison)),
+        section("flooding", "Manholes that started or stopped flooding", _flooding(comparison)),
         section("worse", "Pipes that got worse", _pipes(comparison, "worse")),
         section("better", "Pipes that got better", _pipes(comparison, "better")),
         section("audits", "The two audits", _audits(comparison, created)),
@@ -85,8 +88,9 @@ def _changes(comparison: Comparison) -> str:
         counts = change_counts(layer.table)
         rows.append((cell(layer.kind.name), *(cell(counts[word]) for word in (ADDED, REMOVED, CHANGED, UNCHANGED)),
                      *(cell(counts.get(word)) for word in OUTCOMES)))  # fmt: skip
-    note = paragraph("A feature is changed when a register field or the geometry of its ends changed, or a result moved; "
-                     "worse and better count the pipes whose flags moved (docs/compare.md).", class_="note")  # fmt: skip
+    note = paragraph("A feature is changed when a register field or the geometry of its ends changed, or its flags, severity or flood "
+                     "state changed; a number that moved alone (a water level, a load ratio) leaves it unchanged and is listed in "
+                     "changes.csv. Worse and better count the features whose flags moved (docs/compare.md).", class_="note")  # fmt: skip
     return table(headers, rows, numeric=(False, *([True] * (len(headers) - 1))), id="change-table") + note
 
 
@@ -127,9 +131,16 @@ def _flags(comparison: Comparison) -> str:
     ]  # fmt: skip
     unit_words = comparison.old.units.unit("length")
     headers = ("Flag", "Severity", f"Pipes {old}", f"Pipes {new}", "Gained", "Cleared", f"Length {old} [{unit_words}]", f"Length {new} [{unit_words}]")
-    note = paragraph("Gained counts the pipes that carry the flag now and did not before (an added pipe gains all its flags); "
-                     "cleared, the mirror (a removed pipe clears all of its).", class_="note")  # fmt: skip
-    return table(headers, rows, numeric=(False, False, True, True, True, True, True, True), id="flag-table") + note
+    note = paragraph("Gained counts the features that carry the flag now and did not before (an added one gains all its flags); "
+                     "cleared, the mirror (a removed one clears all of its).", class_="note")  # fmt: skip
+    pipes = table(headers, rows, numeric=(False, False, True, True, True, True, True, True), id="flag-table")
+    if comparison.manhole_flags is None:
+        return pipes + note
+    manhole_rows = [(element("code", cell(code)), cell(row["severity_new"] or row["severity_old"]), cell(int(row["manholes_old"])),
+                     cell(int(row["manholes_new"])), cell(int(row["gained"])), cell(int(row["cleared"])))
+                    for code, row in comparison.manhole_flags.iterrows()]  # fmt: skip
+    manhole_headers = ("Manhole flag", "Severity", f"Manholes {old}", f"Manholes {new}", "Gained", "Cleared")
+    return pipes + table(manhole_headers, manhole_rows, numeric=(False, False, True, True, True, True), id="manhole-flag-table") + note
 
 
 def _severity(comparison: Comparison) -> str:
@@ -160,6 +171,45 @@ def _pipes(comparison: Comparison, outcome: str) -> str:
     order = "severity now, then severity before" if outcome == "worse" else "severity before, then severity now"
     note = paragraph(f"Ranked by {order}, then load ratio now (highest first).{more}", class_="note")
     return table(headers, rows, numeric=(False, False, False, False, True, True, False), id=f"{outcome}-table") + note
+
+
+def flood_moves(frame: pd.DataFrame) -> np.ndarray:
+    """Per row of the manholes' change table: ``started`` (flooding now, not before), ``stopped`` (the reverse) or "" (neither, or not matched)."""
+    if "flood_state_old" not in frame:
+        return np.full(len(frame), "", dtype=object)
+    matched = frame["change"].isin([CHANGED, UNCHANGED]).to_numpy(dtype=bool)
+    before, after = ((frame[f"flood_state_{side}"].astype("string") == FLOODING).fillna(False).to_numpy(dtype=bool) for side in ("old", "new"))
+    return np.select([matched & after & ~before, matched & before & ~after], ["started", "stopped"], "").astype(object)
+
+
+def _flooding(comparison: Comparison) -> str:
+    manholes = comparison.manholes
+    if manholes is None or "flood_state_old" not in manholes.table:
+        return paragraph("The audits do not both give the manholes a flood state (an audit made before the hydraulic grade line).")
+    frame = manholes.table
+    moves = flood_moves(frame)
+    chosen = frame[moves != ""].assign(move=moves[moves != ""])
+    if chosen.empty:
+        return paragraph("No manhole started or stopped flooding.")
+    units = comparison.old.units
+    level, freeboard = output_name("water_level_m", units), output_name("freeboard_m", units)
+    listed = chosen.iloc[np.argsort(chosen["move"].to_numpy(dtype=object) != "started", kind="stable")[:LISTED]]  # those that started first
+    digits = 2 if units.unit("length") == "m" else 1
+    rows = [
+        (cell(row["id_new"] if pd.notna(row["id_new"]) else row["id_old"]), cell(row["move"]), cell(row["flood_state_old"]), cell(row["flood_state_new"]),
+         cell(row.get(f"{level}_old"), digits=digits), cell(row.get(f"{level}_new"), digits=digits), cell(row.get(f"{freeboard}_new"), digits=digits),
+         cell(row["fields_changed"]))
+        for _, row in listed.iterrows()
+    ]  # fmt: skip
+    old, new, unit = comparison.old.label, comparison.new.label, units.unit("length")
+    headers = ("Manhole", "Flooding", f"Flood state {old}", f"Flood state {new}", f"Water level {old} [{unit}]", f"Water level {new} [{unit}]",
+               f"Freeboard {new} [{unit}]", "Register fields changed")  # fmt: skip
+    started = int(np.count_nonzero(moves == "started"))
+    more = f" The first {LISTED} of {len(chosen):,}; changes.csv lists them all." if len(chosen) > LISTED else ""
+    note = paragraph(f"{started:,} started and {len(chosen) - started:,} stopped flooding: the water level at the design flows reaches the "
+                     f"cover (less the freeboard) in one audit and not in the other. The freeboard is the cover less the water level, "
+                     f"negative where the water stands above the cover. Added and removed manholes are in changes.csv.{more}", class_="note")  # fmt: skip
+    return table(headers, rows, numeric=(False, False, False, False, True, True, True, False), id="flooding-table") + note
 
 
 def _audits(comparison: Comparison, created: datetime) -> str:

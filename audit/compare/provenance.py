@@ -24,7 +24,7 @@ from typing import Any
 
 from audit.compare.reading import AuditOutput
 from audit.errors import ConfigError
-from audit.outputs.summary import json_safe
+from audit.outputs import json_safe
 from audit.rules import RuleSettings, as_table
 from audit.units import UnitSystem
 

@@ -55,12 +55,14 @@ class LayerKind:
 
     name: str  # the layer in audit.gpkg, and the config table that maps it
     columns: Mapping[str, str]  # the computed columns of ``audit.result``, by documented name
-    codes: str  # the computed column of codes joined by ";" (flags, data findings)
+    codes: tuple[str, ...]  # the computed columns of codes joined by ";", compared as sets: the flags, then any data findings
+    needed: tuple[str, ...]  # the computed columns without which a layer is not an audit's output
     required: bool  # an audit always has this layer
 
 
-PIPES = LayerKind("pipes", PIPE_COLUMNS, "flags", required=True)
-MANHOLES = LayerKind("manholes", MANHOLE_COLUMNS, "findings", required=False)
+PIPES = LayerKind("pipes", PIPE_COLUMNS, ("flags",), ("flags", "severity"), required=True)
+#: A manhole layer of an audit made before the hydraulic grade line has its findings but no flags, severity or flood state.
+MANHOLES = LayerKind("manholes", MANHOLE_COLUMNS, ("flags", "findings"), ("findings",), required=False)
 
 
 @dataclass(frozen=True, eq=False)
@@ -217,7 +219,7 @@ def _read_layer(geopackage: Path, kind: LayerKind, *, units: UnitSystem, id_fiel
         wkb = pa.nulls(table.num_rows, type=pa.binary())
     fields = table.to_pandas()
     computed = computed_fields(list(fields.columns), kind.columns, units)
-    for name in (kind.codes, "severity") if kind is PIPES else (kind.codes,):
+    for name in kind.needed:
         if name not in computed:
             raise InputError(f"{geopackage}: layer {kind.name}: no field '{output_name(name, units)}'; not the output of an audit")
     register = register_fields(list(fields.columns), kind.columns, computed)

@@ -4,8 +4,9 @@ compare.json opens with ``warning`` (null when both audits were made with the sa
 tool version) and ``settings_differ``, because a changed rule rather than a changed network may
 explain what follows. Then: the tool, the caution, the unit system of every number (the earlier
 audit's), notes on how the two audits were put side by side, both audits' provenance, the
-matching, the counts of each kind of change, and per flag code and per severity the totals
-before and after with the pipes that gained and cleared it. Keys: docs/compare.md.
+matching, the counts of each kind of change, per flag code (of the pipes, then of the manholes)
+and per severity the totals before and after with the features that gained and cleared it, and
+the manholes per flood state. Keys: docs/compare.md.
 """
 
 from __future__ import annotations
@@ -23,7 +24,7 @@ from audit.compare.differences import ADDED, CHANGED, REMOVED, UNCHANGED
 from audit.compare.matching import AMBIGUOUS, BY_GEOMETRY, BY_ID
 from audit.compare.provenance import audit_record
 from audit.compare.totals import OUTCOMES, change_counts, code_movement
-from audit.outputs.summary import json_safe
+from audit.outputs import json_safe
 
 
 def warning(comparison: Comparison) -> str | None:
@@ -55,6 +56,10 @@ def build_comparison(comparison: Comparison, *, created: datetime | None = None)
         "flags": comparison.flags.to_dict(orient="index"),
         "severity": comparison.severity,
     }
+    if comparison.manhole_flags is not None:
+        content["manhole_flags"] = comparison.manhole_flags.to_dict(orient="index")
+    if comparison.flood_states is not None:
+        content["flood_states"] = comparison.flood_states
     if comparison.manholes is not None:
         content["manhole_findings"] = code_movement(comparison.manholes.table, "findings").to_dict(orient="index")
     return json_safe(content)
@@ -78,16 +83,23 @@ def print_comparison(comparison: Comparison, paths: Mapping[str, Path], *, file:
         text = ", ".join(f"{counts[word]:,} {word}" for word in (ADDED, REMOVED, CHANGED, UNCHANGED))
         extra = f" ({', '.join(f'{counts[word]:,} {word}' for word in OUTCOMES)})" if "worse" in counts else ""
         lines.append(f"{layer.kind.name}: {text}{extra}")
-    flags = comparison.flags
-    flags = flags[(flags["pipes_old"] != flags["pipes_new"]) | (flags["gained"] > 0) | (flags["cleared"] > 0)]
-    if len(flags):
-        width = max(len("flag"), *map(len, flags.index))
-        lines.append(f"{'flag':<{width}}  {'severity':<8}  {'before':>8}  {'after':>8}  {'gained':>8}  {'cleared':>8}")
-        lines += [f"{code:<{width}}  {row.severity_new or row.severity_old:<8}  {row.pipes_old:>8,}  {row.pipes_new:>8,}  {row.gained:>8,}  {row.cleared:>8,}"
-                  for code, row in flags.iterrows()]  # fmt: skip
-    else:
-        lines.append("no flag moved")
+    lines += _flag_lines(comparison.flags, "flag", "pipes")
+    if comparison.manhole_flags is not None:
+        lines += _flag_lines(comparison.manhole_flags, "manhole flag", "manholes")
     lines += [f"note: {note}" for note in comparison.notes]
     lines += [f"{role}: {path}" for role, path in paths.items()]
     lines.append(CAUTION)
     print("\n".join(lines), file=file)
+
+
+def _flag_lines(flags: pd.DataFrame, heading: str, layer: str) -> list[str]:
+    """The terminal table of the flags that moved: severity, features before and after, gained, cleared; or one line saying none moved."""
+    flags = flags[(flags[f"{layer}_old"] != flags[f"{layer}_new"]) | (flags["gained"] > 0) | (flags["cleared"] > 0)]
+    if not len(flags):
+        return [f"no {heading} moved"]
+    width = max(len(heading), *map(len, flags.index))
+    lines = [f"{heading:<{width}}  {'severity':<8}  {'before':>8}  {'after':>8}  {'gained':>8}  {'cleared':>8}"]
+    for code, row in flags.iterrows():  # one line per flag code that moved
+        severity = row["severity_new"] or row["severity_old"]
+        lines.append(f"{code:<{width}}  {severity:<8}  {row[f'{layer}_old']:>8,}  {row[f'{layer}_new']:>8,}  {row['gained']:>8,}  {row['cleared']:>8,}")
+    return lines

@@ -17,6 +17,7 @@ from audit.outputs.candidates import (
 from audit.outputs.summary import (
     build_summary,
     code_totals,
+    json_safe,
     print_summary_table,
     write_summary,
 )
@@ -28,6 +29,7 @@ __all__ = [
     "build_summary",
     "candidate_rows",
     "code_totals",
+    "json_safe",
     "print_summary_table",
     "rank_candidates",
     "safe_field_names",

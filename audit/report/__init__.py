@@ -15,7 +15,7 @@ from pathlib import Path
 
 from audit.errors import AuditError, OutputExistsError
 from audit.report.curves import part_full_curve, report_curves
-from audit.report.page import CAUTION_WORDS, render_page
+from audit.report.page import CAUTION_WORDS, STYLE_SHEET, render_page
 from audit.report.tables import (
     MAP_CLASSES,
     check_columns,
@@ -29,6 +29,7 @@ __all__ = [
     "CAUTION_WORDS",
     "MAP_CLASSES",
     "REPORT_NAME",
+    "STYLE_SHEET",
     "flag_totals",
     "map_classes",
     "part_full_curve",

@@ -14,7 +14,6 @@ from typing import Any
 
 import numpy as np
 import pandas as pd
-import shapely
 
 from audit.about import __version__
 from audit.outputs import candidate_rows
@@ -56,7 +55,7 @@ PROGRAMME_COLOUR = "#222222"
 #: Candidates listed in the report.
 CANDIDATE_ROWS = 20
 
-_CSS = """
+STYLE_SHEET = """
 body{font-family:system-ui,-apple-system,"Segoe UI",Roboto,Arial,sans-serif;color:#222;margin:0;background:#fafafa}
 main{max-width:1040px;margin:0 auto;padding:0 20px 40px}
 h1{font-size:1.6em;margin:24px auto 8px;max-width:1040px;padding:0 20px}
@@ -115,7 +114,7 @@ def render_page(result: AuditResult, *, id_field: str | None, created: datetime)
             section("rules", "Rules and run", _rules(result, created=created), long=True),
         )
     )
-    head = element("head", '<meta charset="utf-8"><meta name="viewport" content="width=device-width, initial-scale=1">' + element("title", "Sewer audit report") + element("style", _CSS))
+    head = element("head", '<meta charset="utf-8"><meta name="viewport" content="width=device-width, initial-scale=1">' + element("title", "Sewer audit report") + element("style", STYLE_SHEET))
     heading = element("h1", html.escape(f"Sewer audit report: {network_name(result)}"))
     return "<!DOCTYPE html>\n" + element("html", head + element("body", heading + _title_block(result, created=created) + element("main", body)), lang="en")
 

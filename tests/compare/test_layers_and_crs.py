@@ -49,5 +49,5 @@ def test_a_manhole_layer_only_one_audit_has_is_all_removed(audits: dict[str, Pat
     code, out = compare(audits["before"], pipes_only)
     assert code == 0
     summary = json.loads((out / "compare.json").read_text(encoding="utf-8"))
-    assert summary["changes"]["manholes"] == {"added": 0, "removed": 5, "changed": 0, "unchanged": 0}
+    assert summary["changes"]["manholes"] == {"added": 0, "removed": 5, "changed": 0, "unchanged": 0, "worse": 0, "better": 0, "mixed": 0}
     assert summary["changes"]["pipes"]["unchanged"] == 4

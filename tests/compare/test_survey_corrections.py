@@ -8,6 +8,7 @@ import json
 import math
 from collections.abc import Callable
 from pathlib import Path
+from typing import Any
 
 import pandas as pd
 import pyogrio
@@ -46,12 +47,8 @@ def test_the_closed_form_behind_the_expected_flags() -> None:
 
 
 @pytest.fixture(scope="module")
-def result(audits: dict[str, Path], tmp_path_factory: pytest.TempPathFactory) -> Path:
-    from audit.cli import main
-
-    out = tmp_path_factory.mktemp("survey") / "changes"
-    assert main(["compare", str(audits["before"]), str(audits["after"]), "-o", str(out), "-q"]) == 0
-    return out
+def result(survey: Path) -> Path:
+    return survey
 
 
 def _pipes(result: Path) -> dict[tuple[object, object], pd.Series]:
@@ -80,7 +77,8 @@ def test_the_register_fields_that_changed_are_exactly_those_corrected(result: Pa
     assert pipes[("P2", "P2")]["fields_changed"] == "DS_IL"
     assert pipes[("P3", "P3")]["fields_changed"] == "DIA"
     assert pipes[("P1", "P1")]["fields_changed"] in ("", None)
-    assert pipes[("P1", "P1")]["results_moved"] in ("", None)
+    # P1 carries A's 10 l/s in both audits: none of its uniform-flow results moved (its grade line did, test_flood_state.py)
+    assert not {"q_design_l_s", "load_ratio", "q_full_l_s", "v_design_m_s", "depth_ratio"} & set((pipes[("P1", "P1")]["results_moved"] or "").split(";"))
     assert pipes[("P1", "P1")]["matched_by"] == "geometry"
     assert pipes[("P2", "P2")]["matched_by"] == "id"
 
@@ -115,16 +113,30 @@ def test_the_load_ratios_before_and_after_follow_manning(result: Path) -> None:
     assert pipes[("P1", "P1")]["load_ratio_new"] == pytest.approx(10.0 * L_S / full_bore(0.300, 0.3 / 60.0), rel=1e-6)
 
 
-def test_manholes_are_compared_by_id(result: Path) -> None:
+def test_manholes_are_compared_by_id(result: Path, levels: dict[str, Any]) -> None:
     table = pyogrio.read_dataframe(result / "compare.gpkg", layer="manholes")
     change = {(_none(row.id_old), _none(row.id_new)): row.change for row in table.itertuples()}
-    assert change == {("A", "A"): "unchanged", ("B", "B"): "changed", ("C", "C"): "changed", ("D", "D"): "changed",
+    # no cover moved and every manhole is surcharged and flagged manhole_surcharge in both audits (conftest.py):
+    # what moved at A, B, C and D are numbers alone, which leave a manhole unchanged
+    assert change == {("A", "A"): "unchanged", ("B", "B"): "unchanged", ("C", "C"): "unchanged", ("D", "D"): "unchanged",
                       ("E", None): "removed", (None, "F"): "added", (None, "G"): "added"}  # fmt: skip
     by_id = table.set_index("id_old")
-    assert by_id.loc["B", "results_moved"] == "pipes_in;flow_out_l_s"  # E's pipe no longer arrives
-    assert by_id.loc["C", "results_moved"] == "pipes_in;flow_out_l_s"  # the branch arrives
+    # A, B and C stand above P3, whose full-bore loss fell from 0.36 m to 0.02 m (test_flood_state.py): their levels moved;
+    # D's is the fixed outfall level in both audits
+    assert by_id.loc["A", "results_moved"] == "water_level_m;freeboard_m"
+    assert by_id.loc["B", "results_moved"] == "pipes_in;flow_out_l_s;water_level_m;freeboard_m"  # E's pipe no longer arrives
+    assert by_id.loc["C", "results_moved"] == "pipes_in;flow_out_l_s;water_level_m;freeboard_m"  # the branch arrives
     assert by_id.loc["D", "results_moved"] == "flow_out_l_s"
     assert (by_id.loc["D", "flow_out_l_s_old"], by_id.loc["D", "flow_out_l_s_new"]) == (pytest.approx(35.0), pytest.approx(29.0))
+    tailwater = levels["tailwater"]
+    assert (by_id.loc["D", "water_level_m_old"], by_id.loc["D", "water_level_m_new"]) == (pytest.approx(tailwater), pytest.approx(tailwater))
+    assert by_id.loc["D", "freeboard_m_new"] == pytest.approx(levels["rim"] - tailwater)  # freeboard: cover less water level
+    assert set(table["flood_state_old"].dropna()) == set(table["flood_state_new"].dropna()) == {"surcharged"}
+    matched = by_id.loc[["A", "B", "C", "D"]]
+    assert (matched["flags_gained"].fillna("") + matched["flags_cleared"].fillna("") + matched["outcome"].fillna("")).eq("").all()
+    added = table[table["change"] == "added"]
+    assert (added["flags_gained"] + "/" + added["gained_severity"]).tolist() == ["manhole_surcharge/low"] * 2
+    assert by_id.loc["E", "flags_cleared"] == "manhole_surcharge"
 
 
 def test_a_removed_pipe_keeps_its_old_geometry(result: Path) -> None:
@@ -145,7 +157,11 @@ def test_the_totals_move_as_the_flags_do(result: Path) -> None:
     assert summary["severity"] == {"high": {"old": 2, "new": 0}, "medium": {"old": 0, "new": 0}, "low": {"old": 0, "new": 2},
                                    "none": {"old": 2, "new": 3}}  # fmt: skip
     assert summary["changes"]["pipes"] == {"added": 2, "removed": 1, "changed": 2, "unchanged": 1, "worse": 0, "better": 2, "mixed": 0}
-    assert summary["changes"]["manholes"] == {"added": 2, "removed": 1, "changed": 3, "unchanged": 1}
+    assert summary["changes"]["manholes"] == {"added": 2, "removed": 1, "changed": 0, "unchanged": 4, "worse": 0, "better": 0, "mixed": 0}
+    manhole_flags = {code: (row["manholes_old"], row["manholes_new"], row["gained"], row["cleared"]) for code, row in summary["manhole_flags"].items()}
+    assert manhole_flags == {"flooding": (0, 0, 0, 0), "manhole_surcharge": (5, 6, 2, 1)}  # E removed, F and G added, all surcharged
+    assert summary["flood_states"] == {"flooding": {"old": 0, "new": 0}, "surcharged": {"old": 5, "new": 6},
+                                       "below_soffit": {"old": 0, "new": 0}, "not_evaluated": {"old": 0, "new": 0}}  # fmt: skip
     assert summary["matching"]["pipes"]["id_field_old"] == "REF"
     assert (summary["matching"]["pipes"]["by_id"], summary["matching"]["pipes"]["by_geometry"]) == (2, 1)
     assert "licensed engineer" in summary["caution"]
@@ -154,8 +170,7 @@ def test_the_totals_move_as_the_flags_do(result: Path) -> None:
 def test_changes_csv_lists_every_feature_that_is_not_unchanged(result: Path) -> None:
     table = pd.read_csv(result / "changes.csv")
     assert sorted(zip(table["layer"], table["change"], strict=True)) == sorted(
-        [("pipes", "changed")] * 2 + [("pipes", "added")] * 2 + [("pipes", "removed")]
-        + [("manholes", "changed")] * 3 + [("manholes", "added")] * 2 + [("manholes", "removed")]
+        [("pipes", "changed")] * 2 + [("pipes", "added")] * 2 + [("pipes", "removed")] + [("manholes", "added")] * 2 + [("manholes", "removed")]
     )  # fmt: skip
 
 
@@ -165,6 +180,7 @@ def test_the_page_opens_with_the_caution_and_maps_what_got_better(result: Path) 
     assert page.index('id="caution"') < page.index('id="changes"') < page.index('id="map"')
     assert 'data-class="better"' in page
     assert "Better: severity down, or flags cleared and none gained (2)" in page
+    assert "No manhole started or stopped flooding." in page  # every manhole is surcharged in both audits (conftest.py)
     assert "http" not in page.lower().replace("http-equiv", "")  # self-contained: no outside address
 
 
@@ -179,4 +195,4 @@ def test_an_audit_compared_with_itself_is_unchanged(audits: dict[str, Path], com
     assert code == 0
     summary = json.loads((out / "compare.json").read_text(encoding="utf-8"))
     assert summary["changes"] == {"pipes": {"added": 0, "removed": 0, "changed": 0, "unchanged": 4, "worse": 0, "better": 0, "mixed": 0},
-                                  "manholes": {"added": 0, "removed": 0, "changed": 0, "unchanged": 5}}  # fmt: skip
+                                  "manholes": {"added": 0, "removed": 0, "changed": 0, "unchanged": 5, "worse": 0, "better": 0, "mixed": 0}}  # fmt: skip
