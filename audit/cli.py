@@ -261,7 +261,7 @@ def _audit_command(args: argparse.Namespace) -> int:
     """``run`` and ``demo``: audit, write the outputs, print the table, pick the exit code."""
     from audit.outputs import print_summary_table, write_outputs
     from audit.pipeline import run
-    from audit.report import write_report
+    from audit.report import REPORT_NAME, write_report
     from audit.rules import worst_severity_at_least
 
     config = Path(args.config) if args.command == "run" else DEMO_CONFIG
@@ -271,7 +271,7 @@ def _audit_command(args: argparse.Namespace) -> int:
     result = run(config, progress=show)
     created = datetime.now(UTC)  # one time stamp for every output of the run
     paths = write_outputs(result, Path(args.output), overwrite=args.overwrite, progress=show, created=created,
-                          extra={"report": lambda folder: write_report(result, folder, created=created)})  # fmt: skip
+                          extra={"report": (REPORT_NAME, lambda folder: write_report(result, folder, created=created))})  # fmt: skip
     if not args.quiet:
         print_summary_table(result, paths, file=sys.stdout)
     if args.fail_on and worst_severity_at_least(result.pipe_results["severity"].to_numpy(dtype=object), args.fail_on).any():

@@ -66,7 +66,10 @@ def test_exit_codes_for_scripts(tmp_path: Path, capsys: pytest.CaptureFixture[st
     # the folder now holds our files: refused without --overwrite, nothing replaced
     stamp = (out / "summary.json").stat().st_mtime_ns
     assert cli.main(["run", str(config), "-o", str(out), "-q"]) == cli.EXIT_USAGE
-    assert "--overwrite" in capsys.readouterr().err
+    refusal = capsys.readouterr().err
+    assert "--overwrite" in refusal
+    listed = refusal.split("replace the outputs (")[1].split(")")[0].split(", ")
+    assert sorted(listed) == sorted(path.name for path in out.iterdir())  # every file the run wrote, report.html too
     assert (out / "summary.json").stat().st_mtime_ns == stamp
     assert cli.main(["run", str(config), "-o", str(out), "-q", "--overwrite"]) == cli.EXIT_OK
     # a bad config: exit 1 with the file and key named, no traceback

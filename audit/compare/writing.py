@@ -67,7 +67,7 @@ def write_comparison(comparison: Comparison, outdir: Path, *, overwrite: bool = 
         if outdir.resolve() == audit.folder.resolve():
             raise OutputExistsError(f"{outdir}: is the folder of the audit {audit.label}; choose another output folder for the comparison")
     created = created or datetime.now(UTC)
-    with staged_folder(outdir, overwrite=overwrite) as stage:
+    with staged_folder(outdir, overwrite=overwrite, names=COMPARE_FILES.values()) as stage:
         try:
             path = stage / COMPARE_FILES["geopackage"]
             for number, layer in enumerate(comparison.layers()):

@@ -36,8 +36,11 @@ _AT_FDCWD = -100
 
 
 @contextlib.contextmanager
-def staged_folder(outdir: Path, *, overwrite: bool, keep: Iterable[Path] = ()) -> Iterator[Path]:
+def staged_folder(outdir: Path, *, overwrite: bool, keep: Iterable[Path] = (), names: Iterable[str] = ()) -> Iterator[Path]:
     """A fresh folder beside ``outdir`` to write the outputs into; it becomes ``outdir`` when the block ends well.
+
+    ``names`` are the files the block will write, listed in the message when ``outdir`` already
+    holds files and ``overwrite`` is not given.
 
     ``keep`` are files no output may replace (the run's inputs): where the block wrote a file
     under the name of one of them inside ``outdir``, nothing is moved into place.
@@ -58,7 +61,7 @@ def staged_folder(outdir: Path, *, overwrite: bool, keep: Iterable[Path] = ()) -
         recover_leftovers(outdir)
     except OSError as error:
         raise AuditError(f"{outdir}: cannot create the output folder: {problem(error, outdir.parent)}") from error
-    _check_target(outdir, overwrite=overwrite)
+    _check_target(outdir, overwrite=overwrite, names=tuple(names))
     try:
         stage = _sibling(outdir, _PARTIAL)
         stage.mkdir()
@@ -128,10 +131,11 @@ def recover_leftovers(outdir: Path) -> None:
         shutil.rmtree(leftover, ignore_errors=True)
 
 
-def _check_target(outdir: Path, *, overwrite: bool) -> None:
+def _check_target(outdir: Path, *, overwrite: bool, names: tuple[str, ...]) -> None:
     if outdir.is_dir() and any(outdir.iterdir()) and not overwrite:
+        listed = f" ({', '.join(names)})" if names else ""
         raise OutputExistsError(
-            f"{outdir}: the output folder already holds files; pass --overwrite to replace the audit's outputs "
+            f"{outdir}: the output folder already holds files; pass --overwrite to replace the outputs{listed} "
             "(other files are left alone) or choose an empty folder"
         )
 

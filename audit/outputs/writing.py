@@ -68,7 +68,7 @@ _WRITE_ERRORS = (OSError, pyogrio.errors.DataSourceError, pyogrio.errors.DataLay
 
 def write_outputs(
     result: AuditResult, outdir: Path, *, overwrite: bool = False, progress: bool = False,
-    include_low: bool = False, extra: Mapping[str, Callable[[Path], Path]] | None = None, created: datetime | None = None,
+    include_low: bool = False, extra: Mapping[str, tuple[str, Callable[[Path], Path]]] | None = None, created: datetime | None = None,
 ) -> dict[str, Path]:  # fmt: skip
     """Write the GeoPackage, the summary, the candidate list and any ``extra`` files into ``outdir``, all at once.
 
@@ -83,8 +83,8 @@ def write_outputs(
     overwrite : replace the outputs in a folder that already holds files (other files stay)
     progress : show a progress bar over the layers and files written, on stderr
     include_low : list pipes whose worst flag is of low severity in candidates.csv too
-    extra : more files, by role: a function that writes the file into the folder it is given and
-        returns its path (the report, written by ``audit.report``)
+    extra : more files, by role: the file's name and a function that writes it into the folder it
+        is given and returns its path (the report, written by ``audit.report``)
     created : the run's time stamp, recorded in summary.json (give the report the same); None: now
 
     Returns
@@ -109,7 +109,7 @@ def write_outputs(
     written: dict[str, Path] = {}
     inputs = (*result.inputs, *_optional(result.config_path))
     with tqdm(total=steps, desc="writing outputs", unit="part", file=sys.stderr, disable=not progress) as bar, \
-            staged_folder(outdir, overwrite=overwrite, keep=inputs) as stage:  # fmt: skip
+            staged_folder(outdir, overwrite=overwrite, keep=inputs, names=[*OUTPUT_FILES.values(), *(name for name, _ in later.values())]) as stage:  # fmt: skip
         try:
             _write_geopackage(stage / OUTPUT_FILES["geopackage"], pipes=pipes, manholes=manholes, findings=findings, step=bar.update)
             summary = build_summary(result, pipes=result.pipe_results, findings=findings, created=created)
@@ -119,7 +119,7 @@ def write_outputs(
                              units=result.units)  # fmt: skip
             write_schemes(result.schemes if result.schemes is not None else pd.DataFrame(), stage / OUTPUT_FILES["schemes"], units=result.units)
             bar.update()
-            for role, write in later.items():
+            for role, (_, write) in later.items():
                 written[role] = write(stage)
                 bar.update()
         except _WRITE_ERRORS as error:

@@ -154,7 +154,8 @@ def test_an_existing_folder_with_files_is_refused(tmp_path: Path) -> None:
     out = tmp_path / "out"
     out.mkdir()
     (out / "notes.txt").write_text("mine", encoding="utf-8")
-    with pytest.raises(OutputExistsError, match=r"out: the output folder already holds files; pass --overwrite"):
+    with pytest.raises(OutputExistsError, match=r"out: the output folder already holds files; pass --overwrite to replace the outputs "
+                       r"\(audit\.gpkg, summary\.json, candidates\.csv, schemes\.csv\)"):
         write_outputs(_result(tmp_path), out)
     assert _listing(out) == ["notes.txt"]
 
