@@ -39,6 +39,7 @@ from audit.renewal import Programme, cleansing_criterion, read_condition, read_c
 from audit.result import (
     PIPE_COLUMNS,
     AuditResult,
+    finding_codes,
     finding_points,
     manhole_output,
     network_totals,
@@ -430,7 +431,7 @@ def _result(ready: Prepared, flows: DesignFlows, computed: pd.DataFrame, *, grad
     """Put the computed columns beside the original features and gather the totals."""
     layers, config = ready.layers, ready.config
     crs = layers.pipes.original.crs or config.pipes.crs
-    computed = computed[list(PIPE_COLUMNS)]
+    computed = computed.assign(findings=finding_codes(ready.findings, "pipes", layers.pipes.canonical["pipe_id"]))[list(PIPE_COLUMNS)]
     pipes = with_columns(layers.pipes.original, computed, ready.findings, layer="pipes")
     node_columns = _node_columns(ready, grade)
     manholes = manhole_output(layers, ready.network, flows.node_total, ready.findings, node_columns=node_columns) if layers.manholes is not None else None

@@ -8,7 +8,7 @@ put the computed columns beside the original features and gather the network's t
 
 from __future__ import annotations
 
-from collections.abc import Mapping
+from collections.abc import Iterable, Mapping
 from dataclasses import dataclass
 from pathlib import Path
 from types import MappingProxyType
@@ -63,6 +63,7 @@ PIPE_COLUMNS: dict[str, str] = {
     "flags": "rule flag codes joined by ';' (empty when none)",
     "severity": "worst severity among the flags: high, medium, low, or none",
     "reasons": "one reason per flag with the numbers, joined by '; '",
+    "findings": "data finding codes about this pipe, joined by ';' (the findings layer has their messages)",
     "from_node_id": "the node the pipe flows from (manhole id, or J<n> for an unnamed junction)",
     "to_node_id": "the node the pipe flows into",
     "upstream_length_m": "total length of this pipe and every pipe upstream of it [m]",
@@ -152,6 +153,16 @@ def output_name(name: str, units: UnitSystem) -> str:
     return f"{base}_{units.suffix(quantity)}"
 
 
+def written_name(fields: Iterable[object], name: str) -> str | None:
+    """The field a computed column was written under: ``audit_<name>`` where an original field took the name, else ``name``; None when absent.
+
+    >>> written_name(["severity", "audit_severity"], "severity"), written_name(["flags"], "flags"), written_name([], "flags")
+    ('audit_severity', 'flags', None)
+    """
+    present = {str(field) for field in fields}
+    return next((field for field in (COMPUTED_PREFIX + name, name) if field in present), None)
+
+
 @dataclass(frozen=True)
 class AuditResult:
     """Everything an audit produced, ready to write or to use in Python."""
@@ -197,6 +208,17 @@ def with_columns(original: gpd.GeoDataFrame, computed: pd.DataFrame, findings: F
     return pd.concat([original, computed], axis=1)
 
 
+def finding_codes(findings: FindingLog, layer: str, ids: pd.Series) -> np.ndarray:
+    """The codes of the data findings about each feature of ``layer``, joined by ';' in the order found (empty for none).
+
+    Findings name a feature by its id, so features that share an id share their codes.
+    """
+    frame = findings.to_frame()
+    about = frame[frame["layer"] == layer].groupby("feature")["code"].agg(lambda codes: ";".join(dict.fromkeys(codes)))
+    codes = ids.astype(str).map(about.astype(object)).astype(object)
+    return codes.where(codes.notna(), "").to_numpy(dtype=object)
+
+
 def manhole_output(
     layers: Layers, network: Network, node_total: np.ndarray, findings: FindingLog, *, node_columns: Mapping[str, np.ndarray] | None = None
 ) -> gpd.GeoDataFrame:
@@ -223,10 +245,7 @@ def manhole_output(
         column = np.full(count, np.nan) if numeric else np.full(count, "", dtype=object)
         column[row[is_manhole]] = np.asarray(values)[is_manhole]
         per_manhole[name] = column if numeric else pd.array(column, dtype="str")
-    frame = findings.to_frame()
-    about = frame[frame["layer"] == "manholes"].groupby("feature")["code"].agg(lambda codes: ";".join(dict.fromkeys(codes)))
-    ids = canonical["manhole_id"].astype(str)
-    codes = ids.map(about).fillna("").to_numpy(dtype=object)
+    codes = finding_codes(findings, "manholes", canonical["manhole_id"])
     columns = {"pipes_in": pipes_in, "pipes_out": pipes_out, "flow_out": total, **per_manhole, "findings": codes}
     computed = pd.DataFrame({name: columns[name] for name in MANHOLE_COLUMNS if name in columns}, index=canonical.index)
     joined = with_columns(original, computed, findings, layer="manholes")

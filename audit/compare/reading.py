@@ -37,7 +37,9 @@ import pyogrio
 import pyogrio.errors
 
 from audit.errors import InputError
+from audit.outputs import FLAG_PREFIX
 from audit.result import COMPUTED_PREFIX, MANHOLE_COLUMNS, PIPE_COLUMNS, output_name
+from audit.rules import FLAG_CODES, MANHOLE_FLAG_CODES
 from audit.units import SYSTEMS, UnitSystem
 
 #: Computed columns compare does not read: ``reasons`` restates the flags and their numbers, in the audit's units.
@@ -251,6 +253,10 @@ def computed_fields(columns: list[str], documented: Mapping[str, str], units: Un
     return found
 
 
+#: The yes/no column of each flag (``audit.outputs.flag_columns``), under either name it may have.
+FLAG_COLUMNS = frozenset(prefix + FLAG_PREFIX + code for code in (*FLAG_CODES, *MANHOLE_FLAG_CODES) for prefix in ("", COMPUTED_PREFIX))
+
+
 def register_fields(columns: list[str], documented: Mapping[str, str], computed: Mapping[str, str]) -> tuple[str, ...]:
     """The register fields: neither a computed column's name in either unit system nor a computed field found.
 
@@ -261,7 +267,7 @@ def register_fields(columns: list[str], documented: Mapping[str, str], computed:
     """
     names = {output_name(name, system) for name in documented for system in SYSTEMS.values()}
     bare = {field.removeprefix(COMPUTED_PREFIX) for field in computed.values() if field.startswith(COMPUTED_PREFIX)}
-    taken = (names - bare) | set(computed.values())
+    taken = (names - bare) | set(computed.values()) | FLAG_COLUMNS  # the yes/no flag columns repeat the flags: never register fields
     return tuple(column for column in columns if column not in taken)
 
 

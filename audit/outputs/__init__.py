@@ -14,6 +14,7 @@ from audit.outputs.candidates import (
     rank_candidates,
     write_candidates,
 )
+from audit.outputs.descriptions import FLAG_PREFIX
 from audit.outputs.summary import (
     build_summary,
     code_totals,
@@ -25,6 +26,7 @@ from audit.outputs.writing import OUTPUT_FILES, safe_field_names, write_outputs
 
 __all__ = [
     "CANDIDATE_COLUMNS",
+    "FLAG_PREFIX",
     "OUTPUT_FILES",
     "build_summary",
     "candidate_rows",

@@ -26,6 +26,7 @@ Finding codes emitted: ``field_renamed`` (a field written under a new name, see 
 from __future__ import annotations
 
 import os
+import sqlite3
 import sys
 from collections.abc import Callable, Hashable, Iterable, Mapping
 from datetime import datetime
@@ -42,15 +43,19 @@ from tqdm import tqdm
 
 from audit.errors import AuditError, OutputExistsError
 from audit.outputs.candidates import rank_candidates, write_candidates
+from audit.outputs.descriptions import FLAG_PREFIX, layer_texts, write_descriptions
+from audit.outputs.flag_columns import with_flag_columns
 from audit.outputs.folder import problem, staged_folder
 from audit.outputs.schemes import write_schemes
+from audit.outputs.styles import finding_style, manhole_style, pipe_style, write_styles
 from audit.outputs.summary import (
     CAUTION,
     build_summary,
     print_summary_table,
     write_summary,
 )
-from audit.result import COLUMN_UNITS, COMPUTED_PREFIX, MANHOLE_COLUMNS, PIPE_COLUMNS, AuditResult, output_name
+from audit.result import COLUMN_UNITS, COMPUTED_PREFIX, MANHOLE_COLUMNS, PIPE_COLUMNS, AuditResult, output_name, written_name
+from audit.rules import FLAG_CODES, MANHOLE_FLAG_CODES
 from audit.units import UnitSystem
 
 __all__ = ["CAUTION", "OUTPUT_FILES", "print_summary_table", "rank_candidates", "safe_field_names", "write_outputs"]
@@ -62,7 +67,7 @@ CANONICAL_FOR_CANDIDATES = ("pipe_id", "shape", "diameter", "height", "install_y
 _ID_NAMES = ("fid", "gpkg_fid", "feature_fid")
 _GEOMETRY_NAMES = ("geom", "geometry", "feature_geom")
 _ARROW_ERRORS = (pa.ArrowException, TypeError)
-_WRITE_ERRORS = (OSError, pyogrio.errors.DataSourceError, pyogrio.errors.DataLayerError,
+_WRITE_ERRORS = (OSError, sqlite3.Error, pyogrio.errors.DataSourceError, pyogrio.errors.DataLayerError,
                  pyogrio.errors.FieldError, pyogrio.errors.GeometryError)  # fmt: skip
 
 
@@ -103,7 +108,7 @@ def write_outputs(
     outdir = Path(outdir)
     targets = {role: outdir / name for role, name in OUTPUT_FILES.items()}
     _refuse_inputs([*targets.values(), outdir], inputs=(*result.inputs, *_optional(result.config_path)))  # before the work; the report is checked once written
-    pipes, manholes, findings = _layers_to_write(result)
+    pipes, manholes, findings, texts = _layers_to_write(result)
     later = dict(extra or {})
     steps = 4 + (manholes is not None) + len(later)  # two or three layers, then the files
     written: dict[str, Path] = {}
@@ -112,6 +117,7 @@ def write_outputs(
             staged_folder(outdir, overwrite=overwrite, keep=inputs, names=[*OUTPUT_FILES.values(), *(name for name, _ in later.values())]) as stage:  # fmt: skip
         try:
             _write_geopackage(stage / OUTPUT_FILES["geopackage"], pipes=pipes, manholes=manholes, findings=findings, step=bar.update)
+            _describe_geopackage(stage / OUTPUT_FILES["geopackage"], pipes=pipes, manholes=manholes, texts=texts, units=result.units)
             summary = build_summary(result, pipes=result.pipe_results, findings=findings, created=created)
             write_summary(summary, stage / OUTPUT_FILES["summary"])
             bar.update()
@@ -188,18 +194,45 @@ def _refuse_inputs(targets: Iterable[Path], *, inputs: tuple[Path, ...]) -> None
                 )
 
 
-def _layers_to_write(result: AuditResult) -> tuple[gpd.GeoDataFrame, gpd.GeoDataFrame | None, gpd.GeoDataFrame]:
-    """The three layers with safe field names, and the renames added to the findings."""
+def _layers_to_write(result: AuditResult) -> tuple[gpd.GeoDataFrame, gpd.GeoDataFrame | None, gpd.GeoDataFrame, dict[str, dict[str, tuple[str, str]]]]:
+    """The three layers with safe field names and a yes/no column per flag, the renames added to
+    the findings, and the title and description of each computed field by layer."""
     extra: list[gpd.GeoDataFrame] = []
-    pipes = _renamed(in_output_units(result.pipes, PIPE_COLUMNS, result.units), layer="pipes", notes=extra, crs=result.findings.crs)
+    texts: dict[str, dict[str, tuple[str, str]]] = {}
+    pipes = in_output_units(result.pipes, PIPE_COLUMNS, result.units)
+    pipes, flag_names = with_flag_columns(pipes, written_name(pipes.columns, "flags"), FLAG_CODES)
+    texts["pipes"] = _described(pipes, layer_texts("pipes", result.units, FLAG_CODES), flag_names)
+    pipes = _renamed(pipes, layer="pipes", notes=extra, crs=result.findings.crs)
     manholes = None
     if result.manholes is not None:
         manholes = in_output_units(result.manholes, MANHOLE_COLUMNS, result.units)
+        manholes, flag_names = with_flag_columns(manholes, written_name(manholes.columns, "flags"), MANHOLE_FLAG_CODES)
+        texts["manholes"] = _described(manholes, layer_texts("manholes", result.units, MANHOLE_FLAG_CODES), flag_names)
         manholes = _renamed(manholes, layer="manholes", notes=extra, crs=result.findings.crs)
     findings = result.findings
     if extra:
         findings = pd.concat([findings, *extra], ignore_index=True)
-    return pipes, manholes, _point_geometry(gpd.GeoDataFrame(findings, geometry=findings.geometry.name))
+    texts["findings"] = layer_texts("findings", result.units, ())
+    return pipes, manholes, _point_geometry(gpd.GeoDataFrame(findings, geometry=findings.geometry.name)), texts
+
+
+def _described(frame: gpd.GeoDataFrame, texts: Mapping[str, tuple[str, str]], flag_names: Mapping[str, str]) -> dict[str, tuple[str, str]]:
+    """The texts of the computed block at the end of the layer's fields, by written name.
+
+    The block is read from the last field back while each field (without ``audit_``) has a text
+    and has not been seen, so an original field that happens to share a computed name is never
+    described as ours.
+    """
+    texts = {**texts, **{written: texts[FLAG_PREFIX + code] for code, written in flag_names.items()}}
+    described: dict[str, tuple[str, str]] = {}
+    seen: set[str] = set()
+    for field in reversed([str(column) for column in frame.columns if column != frame.geometry.name]):
+        name = field if field in texts else field.removeprefix(COMPUTED_PREFIX)
+        if name not in texts or name in seen:
+            break
+        seen.add(name)
+        described[field] = texts[name]
+    return described
 
 
 def in_output_units(frame: gpd.GeoDataFrame, computed: Iterable[str], units: UnitSystem) -> gpd.GeoDataFrame:
@@ -266,6 +299,14 @@ def _write_geopackage(path: Path, *, pipes: gpd.GeoDataFrame, manholes: gpd.GeoD
         if frame is not None:
             _write_layer(frame, path, layer=layer, geometry_type=geometry_type)
             step()
+
+
+def _describe_geopackage(path: Path, *, pipes: gpd.GeoDataFrame, manholes: gpd.GeoDataFrame | None,
+                         texts: Mapping[str, Mapping[str, tuple[str, str]]], units: UnitSystem) -> None:  # fmt: skip
+    """The default style of each layer (``layer_styles``) and what each computed field means (``gpkg_data_columns``)."""
+    styles = [pipe_style(list(pipes.columns), units), manhole_style(list(manholes.columns)) if manholes is not None else None, finding_style()]
+    write_styles(path, [style for style in styles if style is not None])
+    write_descriptions(path, texts)
 
 
 def _write_layer(frame: gpd.GeoDataFrame, path: Path, *, layer: str, geometry_type: str | None) -> None:

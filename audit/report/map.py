@@ -18,16 +18,18 @@ import pyproj
 import shapely
 
 from audit.layers import MAX_COORDINATE_M
+from audit.outputs.styles import NOT_EVALUATED_COLOUR, SEVERITY_COLOURS
 from audit.report.svg import Array, element, label, line_path_data, rect, svg
 from audit.units import SI, UnitSystem
 
-#: Colour of each map class (see ``_tables.MAP_CLASSES``).
+#: Colour of each map class (see ``tables.MAP_CLASSES``): the palette of the GIS styles in
+#: audit.gpkg (``audit.outputs.styles``), so the page and the layers read alike.
 CLASS_COLOURS: Mapping[str, str] = {
-    "high": "#c0392b",
-    "medium": "#e67e22",
-    "not_evaluated": "#7d3c98",
-    "low": "#d4ac0d",
-    "none": "#a6a6a6",
+    "high": SEVERITY_COLOURS["high"],
+    "medium": SEVERITY_COLOURS["medium"],
+    "not_evaluated": NOT_EVALUATED_COLOUR,
+    "low": SEVERITY_COLOURS["low"],
+    "none": SEVERITY_COLOURS["none"],
 }
 
 #: Stroke width of each class on the map [px]; the urgent classes are drawn wider and last.
@@ -149,8 +151,11 @@ def _marks(group: MapMarks, frame: Frame) -> str:
     items = []
     for number, (px, py) in zip(placed, zip(x, y, strict=True), strict=True):  # one element per marked point
         items.append(element("circle", cx=f"{px:.1f}", cy=f"{py:.1f}", r=f"{group.radius_px:g}", fill=group.colour, stroke="#fff", stroke_width=1))
-        if group.labels:
-            items.append(label(px + group.radius_px + 2, py - group.radius_px, group.labels[number], font_size=11, fill=group.colour, font_weight="bold"))
+        if group.labels:  # beside the point, on its left near the right edge so the text stays on the map
+            left = px > frame.width - 80.0
+            x_text = px - group.radius_px - 2 if left else px + group.radius_px + 2
+            items.append(label(x_text, py - group.radius_px, group.labels[number], font_size=11, fill=group.colour, font_weight="bold",
+                               text_anchor="end" if left else None))  # fmt: skip
     return element("g", "".join(items), data_marks=group.name)
 
 

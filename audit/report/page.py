@@ -14,13 +14,14 @@ from typing import Any
 
 import numpy as np
 import pandas as pd
+import shapely
 
 from audit.about import __version__
 from audit.outputs import candidate_rows
 from audit.report.charts import flag_bars, part_full_chart, velocity_histogram
 from audit.report.curves import report_curves
 from audit.report.flooding import flooding_section, node_levels
-from audit.report.flows import flows_section
+from audit.report.flows import flows_section, outfall_pipes
 from audit.report.html import cell, paragraph, percent, plural, section, table
 from audit.report.long_section import FLOOD_COLOUR
 from audit.report.map import CLASS_COLOURS, MapMarks, anchor_points, metric_geometry, network_map
@@ -51,6 +52,10 @@ CAUTION_WORDS = (
 
 #: The colour of the programme's numbers on the map.
 PROGRAMME_COLOUR = "#222222"
+
+#: The colour of the outfalls on the map, and how many of them (the largest by design flow) it labels.
+OUTFALL_COLOUR = "#009e73"
+OUTFALLS_LABELLED = 20
 
 #: Candidates listed in the report.
 CANDIDATE_ROWS = 20
@@ -215,7 +220,7 @@ def _totals(totals: Mapping[str, Any], units: UnitSystem) -> str:
 
 def _map(result: AuditResult, pipes: pd.DataFrame, classes: np.ndarray, totals: pd.DataFrame) -> str:
     geometry, metres = metric_geometry(result.pipes, working_crs=result.settings.get("working_crs"))
-    marks = _flooding_marks(result) + _programme_marks(result, geometry)
+    marks = _outfall_marks(result, pipes, geometry) + _flooding_marks(result) + _programme_marks(result, geometry)
     drawing = network_map(geometry, classes, metres=metres, units=result.units, marks=marks)
     counts = class_counts(classes)
     flags_of = pipes_flags(pipes)
@@ -235,11 +240,39 @@ def _map(result: AuditResult, pipes: pd.DataFrame, classes: np.ndarray, totals: 
         items.append(element("li", swatch + html.escape(f"{words}: {plural(counts[name], 'pipe')}{detail}"), data_class=name))
     for group in marks:
         swatch = element("span", "", class_="swatch dot", style=f"background:{group.colour}")
-        words = (f"Flooding manhole: {plural(len(group.labels), 'manhole')}" if group.name == "flooding"
-                 else "Renewal programme: S1, S2, ... the schemes, 1, 2, ... the riskiest other pipes, as numbered in its tables")  # fmt: skip
+        words = {"flooding": f"Flooding manhole: {plural(len(group.labels), 'manhole')}",
+                 "outfall": f"Outfall: {plural(len(group.labels), 'outfall')}" + ("" if len(group.labels) < OUTFALLS_LABELLED
+                            else f", those with the {OUTFALLS_LABELLED} largest design flows"),
+                 "programme": "Renewal programme: S1, S2, ... the schemes, 1, 2, ... the riskiest other pipes, as numbered in its tables"}[group.name]  # fmt: skip
         items.append(element("li", swatch + html.escape(words), data_class=group.name))
     note = "North is up (grid north of the map's coordinate system)." + ("" if metres else " The unit of the coordinates is unknown: no scale bar.")
     return drawing + element("ul", "".join(items), class_="legend") + paragraph(note, class_="note")
+
+
+def _outfall_marks(result: AuditResult, pipes: pd.DataFrame, geometry: np.ndarray) -> tuple[MapMarks, ...]:
+    """The outfalls with the largest design flows, labelled with their node, at their manhole (else at the end of the pipe into them)."""
+    into = outfall_pipes(pipes)
+    if not into.size:
+        return ()
+    flow = pd.to_numeric(pipes["q_design"].iloc[into], errors="coerce").fillna(-1.0).to_numpy(dtype=float)
+    node = pipes["to_node_id"].iloc[into].astype(str).to_numpy(dtype=object)
+    largest = pd.Series(flow).groupby(node).max().sort_values(ascending=False, kind="stable").index[:OUTFALLS_LABELLED]  # several pipes may end at one
+    first = {name: place for place, name in reversed(list(enumerate(node)))}
+    ends = np.asarray(geometry, dtype=object)[into[[first[name] for name in largest]]]
+    xy = np.full((len(ends), 2), np.nan)
+    lines = shapely.get_type_id(ends) == 1
+    last = shapely.get_point(ends[lines], -1)
+    xy[lines, 0], xy[lines, 1] = shapely.get_x(last), shapely.get_y(last)
+    if result.manholes is not None and result.canonical_manholes is not None:
+        ids = result.canonical_manholes["manhole_id"].astype(str).to_numpy(dtype=object)
+        row = {name: place for place, name in reversed(list(enumerate(ids)))}
+        known = np.array([name in row for name in largest], dtype=bool)
+        if known.any():
+            points, _ = metric_geometry(result.manholes.iloc[[row[name] for name in largest[known]]], working_crs=result.settings.get("working_crs"))
+            at = anchor_points(points)
+            found = np.isfinite(at).all(axis=1)
+            xy[np.flatnonzero(known)[found]] = at[found]
+    return (MapMarks(xy, OUTFALL_COLOUR, "outfall", labels=tuple(str(name) for name in largest), radius_px=5.0),)
 
 
 def _flooding_marks(result: AuditResult) -> tuple[MapMarks, ...]:

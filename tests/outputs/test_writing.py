@@ -103,7 +103,14 @@ def test_writes_the_four_files_and_nothing_else(tmp_path: Path) -> None:
 def test_pipes_round_trip_keeps_every_original_field_and_the_computed_columns(tmp_path: Path) -> None:
     back = gpd.read_file(_written(tmp_path)["geopackage"], layer="pipes", engine="pyogrio")
     sent = _pipes()
-    assert list(back.columns) == [*ORIGINAL, *(output_name(name, SI) for name in PIPE_COLUMNS), "geometry"]
+    flag_columns = [f"flag_{code}" for code in FLAG_CODES]
+    assert list(back.columns) == [*ORIGINAL, *(output_name(name, SI) for name in PIPE_COLUMNS), *flag_columns, "geometry"]
+    # one yes/no column per flag, read back as booleans, true exactly where the joined text holds the code
+    assert back["flag_surcharge"].tolist() == [True, False, False, False]
+    assert back["flag_silting"].tolist() == [True, False, False, True]
+    assert back["flag_missing_data"].tolist() == [False, False, True, False]
+    assert back[flag_columns].to_numpy().sum() == 5
+    assert back["flag_silting"].dtype == bool
     assert back["DIAM_MM_10"].dtype == np.int64
     assert back["isPublic"].dtype == bool
     for name in [*ORIGINAL, *PIPE_COLUMNS]:
@@ -120,7 +127,8 @@ def test_pipes_round_trip_keeps_every_original_field_and_the_computed_columns(tm
 def test_manholes_and_findings_layers(tmp_path: Path) -> None:
     path = _written(tmp_path)["geopackage"]
     manholes = gpd.read_file(path, layer="manholes", engine="pyogrio")
-    assert list(manholes.columns) == ["MH_REF", "Cover Level", *(output_name(name, SI) for name in ("pipes_in", "pipes_out", "flow_out", "findings")), "geometry"]
+    assert list(manholes.columns) == ["MH_REF", "Cover Level", *(output_name(name, SI) for name in ("pipes_in", "pipes_out", "flow_out", "findings")),
+                                      "geometry"]  # fmt: skip
     assert manholes["flow_out_l_s"].tolist()[0] == pytest.approx(10.0)  # 0.01 m3/s written in l/s
     assert manholes["flow_out_l_s"].isna().tolist() == [False, True]
     findings = gpd.read_file(path, layer="findings", engine="pyogrio")
@@ -133,7 +141,7 @@ def test_no_manhole_layer_when_there_are_no_manholes(tmp_path: Path) -> None:
     import pyogrio
 
     layers = pyogrio.list_layers(_written(tmp_path, manholes=None)["geopackage"])[:, 0].tolist()
-    assert layers == ["pipes", "findings"]
+    assert layers == ["pipes", "findings", "layer_styles"]  # the styles table, without geometry
 
 
 def test_names_equal_but_for_case_are_renamed_and_reported(tmp_path: Path) -> None:

@@ -163,7 +163,7 @@ def test_every_flag_appears_in_legend_and_table_with_its_count(town: AuditResult
 
 
 def test_legend_counts_add_up_to_every_pipe(town: AuditResult, town_page: Page) -> None:
-    items = [item for item in town_page.section("map").find_all("li") if item.attrs["data-class"] not in ("flooding", "programme")]
+    items = [item for item in town_page.section("map").find_all("li") if item.attrs["data-class"] not in ("flooding", "programme", "outfall")]
     counts = {item.attrs["data-class"]: int(re.search(r": ([\d,]+) pipes?", item.text()).group(1).replace(",", "")) for item in items}
     assert sum(counts.values()) == len(town.pipes)
     severity = town.pipes["severity"].fillna("")
@@ -191,6 +191,22 @@ def test_the_flooding_manholes_are_marked_listed_and_drawn_in_the_long_section(t
     marked = {node.attrs["data-flooding"] for node in section.find_all("circle") if "data-flooding" in node.attrs}
     assert marked == flooding  # the section starts at the top of the run, so all four lie on it
     assert "W082 to W000" in section.text()
+
+
+def test_the_outfalls_are_marked_at_their_manholes_and_labelled(town: AuditResult, town_page: Page) -> None:
+    # the outfalls: nodes that pipes flow into and none flows out of, found here from the node columns
+    pipes = town.pipe_results
+    outfalls = set(pipes["to_node_id"]) - set(pipes["from_node_id"])
+    assert outfalls == {"W000", "E000"}  # the demo town's two outfalls (sample_gis/ERRORS.md)
+    (drawing,) = town_page.section("map").find_all("svg")
+    (group,) = drawing.find_all("g", **{"data-marks": "outfall"})
+    assert {node.text() for node in group.find_all("text")} == outfalls
+    circles = group.find_all("circle")
+    assert len(circles) == 2
+    width = float(drawing.attrs["width"])
+    assert all(0 <= float(circle.attrs["cx"]) <= width for circle in circles)
+    (legend,) = [item for item in town_page.section("map").find_all("li") if item.attrs["data-class"] == "outfall"]
+    assert "Outfall: 2 outfalls" in legend.text()
 
 
 def test_map_draws_one_path_per_class_with_scale_bar_and_north_arrow(town_page: Page) -> None:
