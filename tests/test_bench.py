@@ -5,30 +5,21 @@ register errors reach the audit, and that the printed table has a row per size a
 per pipeline stage.
 """
 
-import importlib.util
-import sys
 from pathlib import Path
 from types import ModuleType
 
 import numpy as np
 import pyogrio
 import pytest
+from _scripts import load_script
 
 import audit
 from audit.pipeline import STAGES
 
-SCRIPT = Path(__file__).resolve().parent.parent / "scripts" / "bench.py"
-
 
 @pytest.fixture(scope="module")
 def bench() -> ModuleType:
-    spec = importlib.util.spec_from_file_location("bench_script", SCRIPT)
-    assert spec is not None
-    assert spec.loader is not None
-    module = importlib.util.module_from_spec(spec)
-    sys.modules[spec.name] = module
-    spec.loader.exec_module(module)
-    return module
+    return load_script("bench")
 
 
 def test_the_synthetic_network_is_a_tree_of_n_pipes_over_n_plus_one_manholes(bench: ModuleType) -> None:

@@ -6,7 +6,6 @@ command line. The harness's own judgement is tested first, on outcomes made to f
 its zeros mean something.
 """
 
-import importlib.util
 import os
 import signal
 import sys
@@ -17,21 +16,15 @@ from types import ModuleType
 import geopandas as gpd
 import pytest
 import shapely
+from _scripts import load_script
 
-SCRIPT = Path(__file__).resolve().parent.parent / "scripts" / "fuzz.py"
 SEED = 16
 CASES = 300
 
 
 @pytest.fixture(scope="module")
 def fuzz() -> ModuleType:
-    spec = importlib.util.spec_from_file_location("fuzz_script", SCRIPT)
-    assert spec is not None
-    assert spec.loader is not None
-    module = importlib.util.module_from_spec(spec)
-    sys.modules[spec.name] = module
-    spec.loader.exec_module(module)
-    return module
+    return load_script("fuzz")
 
 
 @pytest.fixture

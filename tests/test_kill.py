@@ -4,25 +4,16 @@ A seeded subset of scripts/kill_test.py (which kills 60 runs of a 200,000-pipe a
 is in docs/reliability.md): a few runs of a small network, killed at moments spread over a run.
 """
 
-import importlib.util
-import sys
 from pathlib import Path
 from types import ModuleType
 
 import pytest
-
-SCRIPT = Path(__file__).resolve().parent.parent / "scripts" / "kill_test.py"
+from _scripts import load_script
 
 
 @pytest.fixture(scope="module")
 def kill_test() -> ModuleType:
-    spec = importlib.util.spec_from_file_location("kill_test_script", SCRIPT)
-    assert spec is not None
-    assert spec.loader is not None
-    module = importlib.util.module_from_spec(spec)
-    sys.modules[spec.name] = module
-    spec.loader.exec_module(module)
-    return module
+    return load_script("kill_test")
 
 
 def test_killed_runs_never_leave_a_mixture_or_a_partial_set(kill_test: ModuleType, tmp_path: Path) -> None:

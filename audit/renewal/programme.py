@@ -8,7 +8,7 @@ a pipe that cannot be sized or scored gets NaN and its remedy says why.
 from __future__ import annotations
 
 from collections.abc import Iterable
-from dataclasses import dataclass
+from dataclasses import dataclass, fields
 from datetime import UTC, datetime
 
 import numpy as np
@@ -47,8 +47,9 @@ PROGRAMME_COLUMNS: dict[str, str] = {
 }
 
 @dataclass(frozen=True)
-class Programme:
-    """Per pipe, the columns of ``PROGRAMME_COLUMNS`` (SI); ``schemes``, the table of schemes
+class Programme(Scores):
+    """Per pipe, the columns of ``PROGRAMME_COLUMNS`` (SI): the risk scores of :class:`Scores`
+    and the remedies, schemes and rank; ``schemes``, the table of schemes
     (``audit.renewal.schemes.SCHEME_COLUMNS``), by scheme id."""
 
     remedy: NDArray[np.object_]
@@ -57,12 +58,6 @@ class Programme:
     remedy_slope: Array
     scheme_id: NDArray[np.object_]
     scheme_position: NDArray[np.intp]
-    likelihood: Array
-    consequence: Array
-    risk: Array
-    likelihood_driver: NDArray[np.object_]
-    consequence_driver: NDArray[np.object_]
-    risk_driver: NDArray[np.object_]
     review: Mask
     rank: NDArray[np.intp]
     schemes: pd.DataFrame
@@ -143,9 +138,8 @@ def renewal_programme(
     )  # fmt: skip
     return Programme(
         remedy=remedies.text, remedy_kind=remedies.kind, remedy_size_m=remedies.size_m, remedy_slope=remedies.slope,
-        scheme_id=schemes.ids, scheme_position=schemes.position, likelihood=scores.likelihood, consequence=scores.consequence,
-        risk=scores.risk, likelihood_driver=scores.likelihood_driver, consequence_driver=scores.consequence_driver,
-        risk_driver=scores.risk_driver, review=remedies.review, schemes=schemes.table,
+        scheme_id=schemes.ids, scheme_position=schemes.position, **{field.name: getattr(scores, field.name) for field in fields(Scores)},
+        review=remedies.review, schemes=schemes.table,
         rank=_rank(remedies.kind != "", review=remedies.review, risk=scores.risk, severity=severity, flags=flag_sets, scheme=schemes.number,
                    position=schemes.position),
     )  # fmt: skip

@@ -163,7 +163,9 @@ def programme_of(result: AuditResult) -> Programme | None:
         remedy=text("remedy"), remedy_kind=text("remedy_kind"), remedy_size_m=number("remedy_size_m"), remedy_slope=number("remedy_slope"),
         scheme_id=text("scheme_id"), scheme_position=np.nan_to_num(number("scheme_position")).astype(np.intp), likelihood=number("likelihood"),
         consequence=number("consequence"), risk=number("risk"), likelihood_driver=text("likelihood_driver"),
-        consequence_driver=text("consequence_driver"), risk_driver=text("risk_driver"), review=np.nan_to_num(number("review")) > 0,
+        consequence_driver=text("consequence_driver"), risk_driver=text("risk_driver"),
+        unscored=np.isnan(number("likelihood")).astype(np.intp) + 2 * np.isnan(number("consequence")).astype(np.intp),
+        review=np.nan_to_num(number("review")) > 0,
         rank=np.nan_to_num(number("renewal_rank")).astype(np.intp), schemes=result.schemes,
     )  # fmt: skip
 
