@@ -168,7 +168,8 @@ class UnitSystem:
 
     def convert(self, values: npt.ArrayLike, quantity: str) -> npt.NDArray[np.float64]:
         """Values given in the SI base unit of ``quantity`` (``SI_BASE``), in this system's unit."""
-        return np.asarray(values, dtype=float) / UNIT_SIZES[quantity][self.units[quantity]]
+        with np.errstate(over="ignore"):  # a value at the edge of floating point (1e308 m) becomes inf, not a warning
+            return np.asarray(values, dtype=float) / UNIT_SIZES[quantity][self.units[quantity]]
 
 
 #: The SI base of each quantity inside the audit, in which ``UnitSystem.convert`` takes values.

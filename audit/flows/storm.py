@@ -80,7 +80,8 @@ def rational_discharge(runoff_area_ha: ArrayLike, intensity_mm_h: ArrayLike) -> 
     runoff_area_ha : :math:`\sum C A`, runoff coefficient times area [ha]
     intensity_mm_h : rainfall intensity [mm/h]
     """
-    return np.asarray(runoff_area_ha, dtype=float) * np.asarray(intensity_mm_h, dtype=float) / RATIONAL_DIVISOR
+    with np.errstate(over="ignore", invalid="ignore"):  # an area or intensity at the edge of floating point gives inf, judged later
+        return np.asarray(runoff_area_ha, dtype=float) * np.asarray(intensity_mm_h, dtype=float) / RATIONAL_DIVISOR
 
 
 def runoff_coefficients(catchments: pd.DataFrame, *, options: FlowOptions, findings: FindingLog) -> Array:

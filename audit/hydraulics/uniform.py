@@ -245,8 +245,9 @@ def normal_depth(
     area, perimeter, _ = sections.elements(eta)
     area = np.where(surcharged, full_area, area)
     perimeter = np.where(surcharged, full_perimeter, perimeter)
-    velocity = q / area
-    shear = water_density(temperature_c) * GRAVITY * area / perimeter * s
+    with np.errstate(over="ignore", invalid="ignore", divide="ignore"):  # extreme or missing inputs give inf or NaN, as their status says
+        velocity = q / area
+        shear = water_density(temperature_c) * GRAVITY * area / perimeter * s
     return FlowState(q_full, v_full, q_max, eta * sections.height, eta, area, velocity, shear, status)
 
 

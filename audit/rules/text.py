@@ -19,11 +19,12 @@ def fixed(values: np.ndarray, decimals: int) -> pa.Array:
 
     Examples
     --------
-    >>> fixed(np.array([1.344, -0.5, 7.0, np.inf]), 2).to_pylist()
-    ['1.34', '-0.50', '7.00', 'inf']
+    >>> fixed(np.array([1.344, -0.5, 7.0, np.inf, 1e308]), 2).to_pylist()
+    ['1.34', '-0.50', '7.00', 'inf', '1e+308']
     """
     values = np.asarray(values, dtype=float)
-    finite = np.isfinite(values)
+    # beyond 1e15 the fixed digits would overflow an int64: such a value is written as Arrow prints it (1e+308)
+    finite = np.isfinite(values) & (np.abs(values) < 1e15)
     scaled = np.round(np.where(finite, values, 0.0) * 10**decimals).astype(np.int64)
     magnitude = np.abs(scaled)
     text = pc.cast(pa.array(magnitude // 10**decimals), pa.string())
