@@ -479,7 +479,7 @@ def _programme(ready: Prepared, flows: DesignFlows, computed: pd.DataFrame, hydr
         down_depth_m=down_rim - ready.levels["down_invert"].to_numpy(dtype=float), upstream=up, downstream=down,
         node_flooding=grade.flood_state == FloodState.FLOODING, geometry=pipes.geometry.to_numpy(), pipe_ids=labels,
         cleansing=cleansing_criterion(config.rules, flows), evaluated=np.isin(status, ("ok", "above_full_bore", "surcharged")),
-        settings=settings, condition=condition, critical_areas=areas, findings=findings,
+        settings=settings, condition=condition, critical_areas=areas, findings=findings, max_velocity=config.rules.max_velocity,
     )  # fmt: skip
 
 

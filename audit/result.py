@@ -98,8 +98,8 @@ MANHOLE_COLUMNS: dict[str, str] = {
     "rim_m": "cover (rim) level used [m]",
     "water_level_m": "water level in the manhole at the design flows [m], from the hydraulic grade line",
     "freeboard_m": "rim_m - water_level_m [m]; negative where the water stands above the cover",
-    "flood_depth_m": "depth of water above the cover [m]; 0 where it stays below",
-    "flood_state": "below_soffit, surcharged (above the lowest crown at the manhole), flooding (at or above the cover less the "
+    "flood_depth_m": "head above the cover [m]: how far the grade line stands above it (not a depth of water on the street); 0 where it stays below",
+    "flood_state": "below_soffit, surcharged (above the soffit of the pipe leaving the manhole), flooding (at or above the cover less the "
                    "freeboard) or not_evaluated (no cover level or no water level)",
     "boundary": "at an outfall or another end of the grade line: free, normal or fixed, with '(assumed)' where no outfall "
                 "or pump station ends it there; empty elsewhere",

@@ -1,9 +1,13 @@
 """Flood screening at the nodes: how far the water level is below the cover, or above it.
 
 A node *floods* when its water level reaches its rim (cover) level less a freeboard; it is
-*surcharged* when the level is above the soffit of the lowest crown among the pipes at the node
-but below flooding; else the water stays *below the soffit*. A node without a rim level, or
-without a level, is *not evaluated*: a missing cover is never reported as safe.
+*surcharged* when the level is above the soffit of the pipe leaving it (the highest crown of the
+pipes leaving it, which then run full from their inlets; at a node no pipe leaves, an outfall,
+the highest crown of the pipes arriving) but below flooding; else the water stays *below the
+soffit*. A smaller pipe joining invert to invert under a higher water level is drowned at its
+outlet, but the manhole is not surcharged while the pipe leaving it still runs part full. A node
+without a rim level, or without a level, is *not evaluated*: a missing cover is never reported
+as safe.
 """
 
 from __future__ import annotations
@@ -19,8 +23,8 @@ Array = NDArray[np.float64]
 class FloodState(IntEnum):
     """The flood screening result of one node."""
 
-    BELOW_SOFFIT = 0  # the level is at or below the lowest crown at the node
-    SURCHARGED = 1  # above the lowest crown, below rim - freeboard
+    BELOW_SOFFIT = 0  # the level is at or below the soffit of the pipe leaving the node
+    SURCHARGED = 1  # above that soffit, below rim - freeboard
     FLOODING = 2  # at or above rim - freeboard
     NOT_EVALUATED = 3  # no rim level, or no water level (no evaluated pipe at the node)
 
@@ -30,14 +34,14 @@ class FloodState(IntEnum):
         return self.name.lower()
 
 
-def flood_screen(level: Array, rim: Array, lowest_crown: Array, *, freeboard_m: float) -> tuple[Array, Array, NDArray[np.int8]]:
+def flood_screen(level: Array, rim: Array, soffit: Array, *, freeboard_m: float) -> tuple[Array, Array, NDArray[np.int8]]:
     """Freeboard, flood depth and :class:`FloodState` of every node.
 
     Parameters
     ----------
     level : water level per node [m]; NaN where not computed
     rim : cover level per node [m]; NaN where unknown
-    lowest_crown : the lowest crown (soffit) level of the pipes at each node [m]; NaN where none
+    soffit : the soffit level that surcharges each node [m] (:func:`node_soffits`); inf where none
     freeboard_m : a node floods when its level reaches ``rim - freeboard_m`` [m]
 
     Returns
@@ -54,8 +58,22 @@ def flood_screen(level: Array, rim: Array, lowest_crown: Array, *, freeboard_m: 
     freeboard = rim - level
     flood_depth = np.maximum(level - rim, 0.0)
     state = np.select(
-        [~(np.isfinite(level) & np.isfinite(rim)), level >= rim - freeboard_m, level > lowest_crown],
+        [~(np.isfinite(level) & np.isfinite(rim)), level >= rim - freeboard_m, level > soffit],
         [FloodState.NOT_EVALUATED, FloodState.FLOODING, FloodState.SURCHARGED],
         FloodState.BELOW_SOFFIT,
     ).astype(np.int8)
     return freeboard, flood_depth, state
+
+
+def node_soffits(node_count: int, *, up_node: NDArray[np.intp], down_node: NDArray[np.intp], up_crown: Array, down_crown: Array) -> Array:
+    """The level above which each node is surcharged [m]: the highest crown of the pipes leaving it,
+    else (no pipe leaves) of the pipes arriving; inf where it has no pipe with a known crown.
+
+    >>> node_soffits(3, up_node=np.array([1, 2]), down_node=np.array([0, 1]), up_crown=np.array([10.5, 11.2]),
+    ...              down_crown=np.array([10.3, 11.0])).tolist()
+    [10.3, 10.5, 11.2]
+    """
+    leaving, arriving = np.full(node_count, np.nan), np.full(node_count, np.nan)
+    np.fmax.at(leaving, up_node, up_crown)
+    np.fmax.at(arriving, down_node, down_crown)
+    return np.where(np.isfinite(leaving), leaving, np.where(np.isfinite(arriving), arriving, np.inf))

@@ -62,7 +62,7 @@ import numpy as np
 from numpy.typing import NDArray
 
 from audit.grade_line.critical import critical_depth, froude_number, sequent_depth
-from audit.grade_line.flooding import flood_screen
+from audit.grade_line.flooding import flood_screen, node_soffits
 from audit.grade_line.order import SweepOrder, sweep_order
 from audit.grade_line.profile import direct_step, full_bore_slope
 from audit.grade_line.settings import BoundaryKind, GradeLineSettings
@@ -493,10 +493,8 @@ def _assemble(
     node_sorted = np.where(terminal & ~np.isfinite(fixed), arrival, np.maximum(need, fixed))
     node_level = np.full(node_count, np.nan)
     node_level[order.nodes] = node_sorted
-    crown = np.full(node_count, np.inf)
-    ends = order.nodes[np.concatenate([t.up, t.down])]
-    np.minimum.at(crown, ends, np.concatenate([t.up_invert, t.down_invert]) + np.tile(t.height, 2))
-    freeboard, flood_depth, state = flood_screen(node_level, rim, crown, freeboard_m=settings.freeboard_m)
+    soffit = node_soffits(node_count, up_node=order.nodes[t.up], down_node=order.nodes[t.down], up_crown=t.up_invert + t.height, down_crown=t.down_invert + t.height)
+    freeboard, flood_depth, state = flood_screen(node_level, rim, soffit, freeboard_m=settings.freeboard_m)
     known = np.isin(code, [BoundaryKind.FREE, BoundaryKind.NORMAL]) | np.isfinite(fixed)
     assumed = np.zeros(node_count, dtype=bool)
     assumed[order.nodes] = terminal & ~known

@@ -1,12 +1,12 @@
 """candidates.csv: the renewal programme's pipes, ranked for a closer look.
 
-A pipe is a candidate when the renewal programme gives it a remedy and its worst flag is of
-severity "medium" or "high" ("low" too when asked), or its remedy is to inspect it (age or
-condition). Candidates follow the programme's rank: by risk, then worst severity, then scheme;
-review candidates, whose data must be verified before any renewal, after all others
-(docs/renewal.md). A pipes frame without the programme's columns (an audit result built by
-hand) is ranked by worst severity, load ratio and length upstream, with reverse and zero grades
-last, as levels to verify.
+A pipe is a candidate when the renewal programme gives it a remedy, whatever the severity of its
+flags; row k is the pipe whose ``renewal_rank`` is k. Candidates follow the programme's rank: by
+risk (a scheme's pipes together, at its gravest pipe), then worst severity, then scheme; review
+candidates, whose data must be verified before any renewal, after all others (docs/renewal.md).
+A pipes frame without the programme's columns (an audit result built by hand) is ranked by worst
+severity ("medium" and "high", "low" too when asked), load ratio and length upstream, with
+reverse and zero grades last, as levels to verify.
 
 Identity and size columns come from the canonical columns ``pipe_id``, ``shape``, ``diameter``,
 ``height``, ``install_year`` and ``material`` when the pipes frame carries them; a frame without
@@ -49,7 +49,7 @@ VERIFY_FLAGS = frozenset({"reverse_grade", "zero_grade"})
 ACTIONS = ("consider renewal", "verify levels")
 
 #: The action of a candidate by the kind of its first remedy (``audit.renewal.REMEDY_KINDS``).
-ACTION_OF_REMEDY = {"capacity": "consider renewal", "silting": "consider renewal", "other": "consider renewal",
+ACTION_OF_REMEDY = {"capacity": "consider renewal", "silting": "consider renewal", "other": "see remedy",
                     "downstream": "relieve downstream", "inspect": "inspect", "verify": "verify data first"}  # fmt: skip
 
 
@@ -77,14 +77,15 @@ def rank_candidates(pipes: pd.DataFrame, *, include_low: bool = False) -> pd.Dat
 def candidate_rows(pipes: pd.DataFrame, *, include_low: bool = False) -> tuple[np.ndarray, np.ndarray]:
     """Row positions of the candidates in ``pipes``, best first, and the action of each.
 
-    The one ranking behind candidates.csv and the report's table: pipes whose worst flag is
-    medium or high (low too with ``include_low``); ``consider renewal`` before ``verify levels``;
+    The one ranking behind candidates.csv and the report's table: the renewal programme's order
+    where the pipes carry it (every pipe with a ``renewal_rank``); else pipes whose worst flag is
+    medium or high (low too with ``include_low``), ``consider renewal`` before ``verify levels``,
     then worst severity, load ratio and upstream length (descending, unknown last); ties keep
     the input order.
     """
     wanted = SEVERITY_ORDER if include_low else SEVERITY_ORDER[1:]
     if "renewal_rank" in pipes.columns:
-        return _programme_rows(pipes, wanted)
+        return _programme_rows(pipes)
     rank_of = {word: place for place, word in enumerate(SEVERITY_ORDER, start=1)}
     chosen = np.flatnonzero(pipes["severity"].isin(wanted).to_numpy())
     picked = pipes.iloc[chosen]
@@ -99,15 +100,18 @@ def candidate_rows(pipes: pd.DataFrame, *, include_low: bool = False) -> tuple[n
     return chosen[order], np.asarray(ACTIONS, dtype=object)[verify[order].astype(int)]
 
 
-def _programme_rows(pipes: pd.DataFrame, wanted: tuple[str, ...]) -> tuple[np.ndarray, np.ndarray]:
-    """The candidates in the renewal programme's order, and their actions (review candidates: verify data first)."""
+def _programme_rows(pipes: pd.DataFrame) -> tuple[np.ndarray, np.ndarray]:
+    """Every pipe of the renewal programme in its order (row k is ``renewal_rank`` k), and their actions (review candidates: verify data first).
+
+    Whatever its severity: a low-severity pipe whose size is unknown still has to go back to the
+    survey, and a GIS filter on ``renewal_rank`` must give the same list as this file.
+    """
     rank = pd.to_numeric(pipes["renewal_rank"], errors="coerce").fillna(0).to_numpy(dtype=np.int64)
     kind = pipes["remedy_kind"].astype(object).where(pipes["remedy_kind"].notna(), "").astype(str).to_numpy(dtype=object)
-    listed = (rank > 0) & (pipes["severity"].isin(wanted).to_numpy() | (kind == "inspect"))
-    chosen = np.flatnonzero(listed)
+    chosen = np.flatnonzero(rank > 0)
     chosen = chosen[np.argsort(rank[chosen], kind="stable")]
     review = pd.to_numeric(pipes["review"], errors="coerce").fillna(0).to_numpy(dtype=bool)[chosen] if "review" in pipes else np.zeros(chosen.size, bool)
-    action = pd.Series(kind[chosen], dtype=object).map(ACTION_OF_REMEDY).fillna("consider renewal").to_numpy(dtype=object)
+    action = pd.Series(kind[chosen], dtype=object).map(ACTION_OF_REMEDY).fillna("see remedy").to_numpy(dtype=object)
     action[review] = ACTION_OF_REMEDY["verify"]
     return chosen, action
 

@@ -4,7 +4,8 @@ The GeoPackage schema extension (OGC 12-128r18, GeoPackage 1.3, section F.9 "Sch
 every column a title and a description; a desktop GIS shows them beside the field. Each computed
 column gets a short title with its unit (``Design flow [l/s]``) and the description of
 docs/outputs.md, with the unit of the system it is written in; each ``flag_<code>`` column says
-which flag it marks. The user's own fields are left undescribed: their meaning is theirs.
+which flag it marks. The user's own fields are left undescribed: their meaning is theirs. Each
+layer's description in ``gpkg_contents`` is the caution: the results are a screening aid.
 """
 
 from __future__ import annotations
@@ -77,4 +78,11 @@ def write_descriptions(path: Path, layers: Mapping[str, Mapping[str, tuple[str, 
             connection.execute("INSERT INTO gpkg_extensions VALUES (?, NULL, 'gpkg_schema', ?, 'read-write')", (table, _EXTENSION))
         rows = [(layer, field, field, title, description) for layer, texts in layers.items() for field, (title, description) in texts.items()]
         connection.executemany("INSERT OR REPLACE INTO gpkg_data_columns (table_name, column_name, name, title, description) VALUES (?, ?, ?, ?, ?)", rows)
+    connection.close()
+
+
+def write_caution(path: Path, caution: str, layers: Sequence[str]) -> None:
+    """Put the caution in each layer's ``gpkg_contents.description``, which a GIS shows with the layer's properties."""
+    with sqlite3.connect(path) as connection:
+        connection.executemany("UPDATE gpkg_contents SET description = ? WHERE table_name = ?", [(caution, layer) for layer in layers])
     connection.close()

@@ -43,7 +43,7 @@ from tqdm import tqdm
 
 from audit.errors import AuditError, OutputExistsError
 from audit.outputs.candidates import rank_candidates, write_candidates
-from audit.outputs.descriptions import FLAG_PREFIX, layer_texts, write_descriptions
+from audit.outputs.descriptions import FLAG_PREFIX, layer_texts, write_caution, write_descriptions
 from audit.outputs.flag_columns import with_flag_columns
 from audit.outputs.folder import problem, staged_folder
 from audit.outputs.schemes import write_schemes
@@ -307,6 +307,7 @@ def _describe_geopackage(path: Path, *, pipes: gpd.GeoDataFrame, manholes: gpd.G
     styles = [pipe_style(list(pipes.columns), units), manhole_style(list(manholes.columns)) if manholes is not None else None, finding_style()]
     write_styles(path, [style for style in styles if style is not None])
     write_descriptions(path, texts)
+    write_caution(path, CAUTION, ["pipes", "findings"] if manholes is None else ["pipes", "manholes", "findings"])
 
 
 def _write_layer(frame: gpd.GeoDataFrame, path: Path, *, layer: str, geometry_type: str | None) -> None:

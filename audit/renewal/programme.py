@@ -19,7 +19,7 @@ from audit.findings import FindingLog
 from audit.hydraulics import PipeHydraulics
 from audit.renewal.inputs import Condition, CriticalAreas, condition_grades
 from audit.renewal.remedies import VERIFY_FINDINGS, CleansingCriterion, FlagSets, PipeFacts, plan_remedies
-from audit.renewal.risk import UNSCORED_WORDS, Scores, hydraulic_part, near_areas, risk_scores
+from audit.renewal.risk import FLOODING_CONSEQUENCE, UNSCORED_WORDS, Scores, hydraulic_part, near_areas, risk_scores
 from audit.renewal.schemes import Schemes, build_schemes
 from audit.renewal.settings import RenewalSettings
 from audit.rules import SEVERITY_ORDER
@@ -92,7 +92,7 @@ def renewal_programme(
     population_served: Array, install_year: Array, material: NDArray[np.object_], up_depth_m: Array, down_depth_m: Array,
     upstream: NDArray[np.intp], downstream: NDArray[np.intp], node_flooding: Mask, geometry: NDArray[np.object_],
     pipe_ids: NDArray[np.object_], cleansing: CleansingCriterion, evaluated: Mask, settings: RenewalSettings,
-    condition: Condition | None, critical_areas: CriticalAreas | None, findings: FindingLog,
+    condition: Condition | None, critical_areas: CriticalAreas | None, findings: FindingLog, max_velocity: float = np.inf,
 ) -> Programme:  # fmt: skip
     """Remedies, risk and schemes for every pipe.
 
@@ -110,6 +110,7 @@ def renewal_programme(
     evaluated : the hydraulics ran for the pipe
     settings : ``[renewal]``; condition, critical_areas : the parsed optional inputs, or None
     findings : the log; rows of the condition table that name no pipe are added to it
+    max_velocity : [m/s] the rules' scour limit: a steeper re-lay that would run faster is not offered
 
     Returns
     -------
@@ -118,19 +119,22 @@ def renewal_programme(
     count = q_design.size
     flag_sets = FlagSets.of(np.asarray(flags, dtype=object))
     below = np.asarray(downstream)
-    floods_below = np.zeros(count, dtype=bool)
+    floods_below, floods_above = np.zeros(count, dtype=bool), np.zeros(count, dtype=bool)
     if np.asarray(node_flooding).size:
-        floods_below = (below >= 0) & np.asarray(node_flooding, dtype=bool)[np.maximum(below, 0)]
+        flooding, above = np.asarray(node_flooding, dtype=bool), np.asarray(upstream)
+        floods_below = (below >= 0) & flooding[np.maximum(below, 0)]
+        floods_above = (above >= 0) & flooding[np.maximum(above, 0)]
     structural, service = condition_grades(condition, pipe_ids, findings=findings)
     year = settings.assessment_year or datetime.now(UTC).year
     age = np.where(np.isfinite(install_year), np.maximum(year - np.asarray(install_year, dtype=float), 0.0), np.nan)
     dated = np.flatnonzero(np.isfinite(age))  # a service life is needed only where the age is known
     life = np.full(count, np.nan)
     life[dated] = settings.service_life(np.asarray(material, dtype=object)[dated])
-    facts = PipeFacts(flag_sets, finding_masks(findings, pipe_ids, VERIFY_FINDINGS), np.asarray(q_design, dtype=float), np.asarray(evaluated, dtype=bool), floods_below, age, life, structural, service)
+    facts = PipeFacts(flag_sets, finding_masks(findings, pipe_ids, VERIFY_FINDINGS), np.asarray(q_design, dtype=float), np.asarray(evaluated, dtype=bool), floods_below, floods_above, age, life, structural, service)
     scores = _scores(facts, load_ratio=load_ratio, population=population_served, height=pipes.sections.height, depth=np.fmax(up_depth_m, down_depth_m),
                      geometry=geometry, areas=critical_areas, settings=settings)  # fmt: skip
-    remedies = plan_remedies(pipes, facts, cleansing=cleansing, settings=settings, note=scores.unscored, note_words=UNSCORED_WORDS)
+    remedies = plan_remedies(pipes, facts, cleansing=cleansing, settings=settings, note=scores.unscored, note_words=UNSCORED_WORDS,
+                             max_velocity=max_velocity)  # fmt: skip
     schemes: Schemes = build_schemes(
         remedies.short, upstream=np.asarray(upstream), downstream=below, pipe_ids=np.asarray(pipe_ids, dtype=object), length=np.asarray(pipes.length, dtype=float),
         height=pipes.sections.height, q_design=facts.q_design, new_size=remedies.size_m, new_slope=remedies.slope, risk=scores.risk,
@@ -150,12 +154,21 @@ def _rank(listed: Mask, *, review: Mask, risk: Array, severity: NDArray[np.objec
     """1, 2, ... for the pipes with a remedy in programme order; 0 for the others.
 
     One sort of one integer per pipe: review last, then risk (highest first, unknown last), worst
-    severity, scheme number (none last) and place in the scheme; ties keep the input order.
+    severity, scheme number (none last) and place in the scheme; ties keep the input order. A
+    scheme is built as one piece of work, so its pipes rank together, at the risk and the worst
+    severity of its gravest pipe, downstream pipe first.
     """
     rows = np.flatnonzero(listed)
     words = np.asarray(severity, dtype=object)[flags.first_pipes()]  # the worst severity follows from the flags: one look per flag set
     worst = np.array([SEVERITY_ORDER.index(word) + 1 if word in SEVERITY_ORDER else 0 for word in words] + [0], dtype=np.int64)[flags.which[rows]]
     risk_rank = np.where(np.isnan(risk[rows]), 0, np.clip(np.round(risk[rows]), 0, 63)).astype(np.int64)
+    member = scheme[rows] >= 0
+    if member.any():  # each scheme's pipes take its greatest risk and worst severity
+        count = int(scheme[rows][member].max()) + 1
+        scheme_risk, scheme_worst = np.zeros(count, np.int64), np.zeros(count, np.int64)
+        np.maximum.at(scheme_risk, scheme[rows][member], risk_rank[member])
+        np.maximum.at(scheme_worst, scheme[rows][member], worst[member])
+        risk_rank[member], worst[member] = scheme_risk[scheme[rows][member]], scheme_worst[scheme[rows][member]]
     in_scheme = np.where(scheme[rows] < 0, 2**24 - 1, np.minimum(scheme[rows], 2**24 - 2)).astype(np.int64)
     key = ((review[rows].astype(np.int64) * 64 + (63 - risk_rank)) * 4 + (3 - worst)) * 2**24 + in_scheme
     key = key * 2**20 + np.minimum(position[rows], 2**20 - 1)
@@ -172,6 +185,6 @@ def _scores(facts: PipeFacts, *, load_ratio: Array, population: Array, height: A
     likelihood = {"hydraulic": hydraulic, "structural": np.ceil(facts.structural), "service": np.ceil(facts.service),
                   "age": settings.age_bands.score(facts.age_years / facts.service_life)}  # fmt: skip
     consequence = {"critical_area": critical, "population": settings.population_bands.score(population), "size": settings.size_bands.score(height),
-                   "depth": settings.depth_bands.score(depth)}  # fmt: skip
+                   "depth": settings.depth_bands.score(depth), "flooding": np.where(facts.floods_above, FLOODING_CONSEQUENCE, np.nan)}  # fmt: skip
     names = () if areas is None else areas.names
     return risk_scores(likelihood_parts=likelihood, consequence_parts=consequence, hydraulic_cause=cause, critical_layer=layer, area_names=names, settings=settings)

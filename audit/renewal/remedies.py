@@ -64,8 +64,10 @@ Index = NDArray[np.intp]
 REMEDY_KINDS: tuple[str, ...] = ("verify", "capacity", "downstream", "silting", "inspect", "other")
 
 #: Flags and findings that mean the data, not the pipe, may be at fault, with their words.
-VERIFY_FLAGS: Mapping[str, str] = {"reverse_grade": "reverse grade", "zero_grade": "zero grade", "missing_data": "missing data"}
-VERIFY_FINDINGS: Mapping[str, str] = {"length_mismatch": "length mismatch", "zero_length": "zero length", "missing_invert": "missing invert"}
+VERIFY_FLAGS: Mapping[str, str] = {"reverse_grade": "reverse grade", "zero_grade": "zero grade", "missing_data": "missing data",
+                                   "diameter_decrease": "smaller than the pipe upstream"}  # fmt: skip
+VERIFY_FINDINGS: Mapping[str, str] = {"length_mismatch": "length mismatch", "zero_length": "zero length", "missing_invert": "missing invert",
+                                      "duplicate_id": "id shared with another pipe"}  # fmt: skip
 
 #: Flags that call for capacity works when the pipe cannot carry its own flow.
 CAPACITY_FLAGS: tuple[str, ...] = ("surcharge", "backwater_surcharge")
@@ -73,11 +75,11 @@ CAPACITY_FLAGS: tuple[str, ...] = ("surcharge", "backwater_surcharge")
 #: The remaining flags and what to do about each (common practice, no source).
 OTHER_WORDS: Mapping[str, str] = {
     "high_velocity": "inspect (CCTV) for scour and abrasion: high velocity at the design flow",
-    "hydraulic_jump": "inspect (CCTV) the pipe and the manhole below for scour: a hydraulic jump forms in it",
+    "hydraulic_jump": "check the connection level first (a drop or a soffit-to-soffit connection avoids the jump), then inspect (CCTV) the pipe "
+                      "and the manhole below for scour: supercritical flow drowned by the level below forms a hydraulic jump in it",
     "near_critical": "watch: the flow is near critical depth, so its surface is unstable; check the levels",
     "near_capacity": "watch: near capacity; check again when the flows grow",
     "flat_grade": "watch for silting: the fall is below the least for its size",
-    "diameter_decrease": "verify the size against the larger pipe upstream; if real, a bottleneck to remove",
     "long_spacing": "add an access point: the run between access points is long",
     "below_min_diameter": "no works for its size alone; renew at no less than the least size",
     "shallow_cover": "check loading and frost protection; protect or lower the pipe when it is renewed",
@@ -351,6 +353,7 @@ class PipeFacts:
     q_design: Array  # [m^3/s]
     evaluated: Mask  # the hydraulics ran
     floods_below: Mask  # the node the pipe flows into floods
+    floods_above: Mask  # the node the pipe flows from floods
     age_years: Array  # [years]; NaN where the install year is unknown
     service_life: Array  # [years]
     structural: Array  # grade 1-5; NaN where none
@@ -361,8 +364,12 @@ UNSIZED_WORDS = "capacity: not sized, the hydraulics did not run for it (no size
 
 
 def plan_remedies(pipes: PipeHydraulics, facts: PipeFacts, *, cleansing: CleansingCriterion, settings: RenewalSettings,
-                  note: NDArray[np.intp] | None = None, note_words: Sequence[str] = ("",)) -> Remedies:  # fmt: skip
+                  note: NDArray[np.intp] | None = None, note_words: Sequence[str] = ("",), max_velocity: float = np.inf) -> Remedies:  # fmt: skip
     """The remedy of every pipe; ``note_words[note]`` ends its words (0, "": no note).
+
+    A capacity remedy offers re-laying the present pipe steeper only where it would then run at
+    no more than ``max_velocity`` [m/s] at the design flow (V = Q / A at the design depth ratio):
+    a re-lay that trades a surcharge for scour is no remedy.
 
     The words with numbers that vary continuously (capacity, silting) are written for their own
     pipes only; every other piece is written once per distinct combination of what it says
@@ -383,6 +390,9 @@ def plan_remedies(pipes: PipeHydraulics, facts: PipeFacts, *, cleansing: Cleansi
     capacity_rows = np.flatnonzero(short)
     capacity_pipes = subset(pipes, capacity_rows)
     new_size, new_slope = capacity_remedy(capacity_pipes, facts.q_design[capacity_rows], sizes_m=sizes, ratio=ratio)
+    design_area = capacity_pipes.sections.elements(np.full(capacity_rows.size, ratio))[0]
+    too_fast = np.isfinite(new_slope) & (facts.q_design[capacity_rows] / design_area > max_velocity)
+    new_slope[too_fast] = np.nan
     unsized = wanted & ~hydraulic
     downstream = wanted & hydraulic & ~short
 
@@ -402,7 +412,7 @@ def plan_remedies(pipes: PipeHydraulics, facts: PipeFacts, *, cleansing: Cleansi
 
     lead = np.full(count, None, dtype=object)  # verify, capacity, downstream or silting words
     lead[review] = _verify_words(facts, np.flatnonzero(review), found)
-    lead[capacity_rows] = objects(_capacity_words(capacity_pipes, facts.q_design[capacity_rows], new_size, new_slope, settings))
+    lead[capacity_rows] = objects(_capacity_words(capacity_pipes, facts.q_design[capacity_rows], new_size, new_slope, settings, too_fast=too_fast))
     lead[unsized] = UNSIZED_WORDS
     lead[downstream] = f"relieve downstream: it carries its own design flow within {ratio:g} of its depth; the water backs up from below"
     silt_words = objects(_silting_words(silt_slope, silt_size, cleansing, units=settings.units))
@@ -478,10 +488,11 @@ def _with_tail(lead: NDArray[np.object_], has_lead: Mask, facts: PipeFacts, *, o
     return text
 
 
-def _capacity_words(pipes: PipeHydraulics, q_design: Array, size: Array, slope: Array, settings: RenewalSettings) -> pa.Array:
+def _capacity_words(pipes: PipeHydraulics, q_design: Array, size: Array, slope: Array, settings: RenewalSettings, *, too_fast: Mask) -> pa.Array:
     """``capacity: upsize from 300 to 450 mm: carries 85 l/s within 0.8 of its depth at the present
     slope 0.3 %; or re-lay the present 300 mm at 0.95 %``, or what to do when no listed size (or no
-    slope) will. A section other than circular is replaced by a circular pipe of the new size."""
+    slope) will. A section other than circular is replaced by a circular pipe of the new size. No
+    re-lay is offered where it would run too fast (``too_fast``)."""
     units, ratio = settings.units, settings.design_depth_ratio
     height = few(pipes.sections.height, "size", units)
     shape = np.array([section.name for section in pipes.sections.shapes] + ["section"], dtype=object)[pipes.sections.kind]
@@ -491,9 +502,11 @@ def _capacity_words(pipes: PipeHydraulics, q_design: Array, size: Array, slope: 
     new = join(few(size, "size", units), pc.if_else(circular, "", " pipe"))
     largest = f"capacity: no listed size up to {few(np.array([max(settings.sizes_m)]), 'size', units)[0].as_py()} carries "
     sized = pc.if_else(pa.array(np.isfinite(size)), join(start, new, ": carries "), largest)
-    relay = pc.if_else(pa.array(np.isfinite(slope)), join("or re-lay the present ", height, " at ", percent(slope)),
-                       f"and no slope up to {100 * MAX_SLOPE:g} % would do: a relief sewer or storage is needed")  # fmt: skip
-    return join(sized, amount(q_design, "flow", units), f" within {ratio:g} of its depth at the present slope ", percent(pipes.slope), "; ", relay)
+    relief = "; a relief sewer or storage is needed"
+    relay = pc.if_else(pa.array(np.isfinite(slope)), join("; or re-lay the present ", height, " at ", percent(slope)),
+                       pc.if_else(pa.array(too_fast), pc.if_else(pa.array(np.isfinite(size)), "", relief),
+                                  f"; and no slope up to {100 * MAX_SLOPE:g} % would do: a relief sewer or storage is needed"))  # fmt: skip
+    return join(sized, amount(q_design, "flow", units), f" within {ratio:g} of its depth at the present slope ", percent(pipes.slope), relay)
 
 
 def _silting_words(slope: Array, size: Array, cleansing: CleansingCriterion, *, units: UnitSystem) -> pa.Array:

@@ -47,10 +47,14 @@ Mask = NDArray[np.bool_]
 #: How each likelihood driver is written; the hydraulic part says which of its causes gave it.
 HYDRAULIC_WORDS = ("flooding downstream", "load ratio", "backwater")
 LIKELIHOOD_WORDS = {"structural": "structural grade", "service": "service grade", "age": "age"}
-CONSEQUENCE_WORDS = {"population": "population", "size": "size", "depth": "depth"}
+CONSEQUENCE_WORDS = {"population": "population", "size": "size", "depth": "depth", "flooding": "flooding at its upstream manhole"}
+
+#: The consequence of a pipe whose upstream manhole floods at the design flows: sewage on the
+#: street and in property is the gravest outcome a screening can show (common practice, no source).
+FLOODING_CONSEQUENCE = 5.0
 CRITICAL_WORDS = "critical area: "
 _NO_LIKELIHOOD = "no load ratio, install year or condition grade for the likelihood"
-_NO_CONSEQUENCE = "no population, size, depth or critical area for the consequence"
+_NO_CONSEQUENCE = "no population, size, depth, flooding or critical area for the consequence"
 #: Why a pipe is not scored: 1 no likelihood, 2 no consequence, 3 neither.
 UNSCORED_WORDS = ("", f"risk not scored: {_NO_LIKELIHOOD}", f"risk not scored: {_NO_CONSEQUENCE}", f"risk not scored: {_NO_LIKELIHOOD}; {_NO_CONSEQUENCE}")
 

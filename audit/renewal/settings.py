@@ -67,7 +67,7 @@ SERVICE_LIFE_YEARS: Mapping[str, float] = MappingProxyType({
 
 #: The parts that make up the likelihood and the consequence of failure (docs/renewal.md).
 LIKELIHOOD_PARTS: tuple[str, ...] = ("hydraulic", "structural", "service", "age")
-CONSEQUENCE_PARTS: tuple[str, ...] = ("critical_area", "population", "size", "depth")
+CONSEQUENCE_PARTS: tuple[str, ...] = ("critical_area", "population", "size", "depth", "flooding")
 
 SCORE_RANGE = (1, 5)
 """Every score, every grade of the condition table and every layer's consequence lies on 1 to 5."""

@@ -93,9 +93,11 @@ def _flooding_table(flooding: pd.DataFrame, units: UnitSystem) -> str:
          cell(float(shown["flood_depth"][row]), digits=digits))
         for row, node in enumerate(flooding.index)
     ]  # fmt: skip
-    headers = ("Manhole", f"Cover [{unit}]", f"Grade line needs [{unit}]", f"Above the cover [{unit}]")
-    note = paragraph("The level the grade line needs at a flooding manhole; the water spills at the cover, so the level "
-                     "carried further upstream is the cover's.", class_="note")  # fmt: skip
+    headers = ("Manhole", f"Cover [{unit}]", f"Grade line needs [{unit}]", f"Head above the cover [{unit}]")
+    note = paragraph("The level the grade line needs at a flooding manhole to push the design flow through, and how far that is "
+                     "above the cover: a measure of how badly the pipes are overloaded, not a depth of water on the street. The "
+                     "water spills at the cover, so the level carried further upstream is the cover's; the volume and depth of "
+                     "flooding are not estimated.", class_="note")  # fmt: skip
     return table(headers, rows, numeric=(False, True, True, True), id="flooding-table") + note
 
 

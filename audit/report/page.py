@@ -45,9 +45,11 @@ from audit.rules import CLEANSING_WORDS, DiameterTable, RuleSettings, as_table
 from audit.units import UNIT_SIZES, UnitSystem
 
 CAUTION_WORDS = (
-    "This report is a screening aid. It applies uniform-flow checks to every pipe against design "
-    "rules that the user can configure. It does not replace a calibrated hydraulic model of the "
-    "network. Local codes and the judgement of a licensed engineer govern every decision taken on it."
+    "This report is a screening aid. It applies uniform-flow checks to every pipe and a steady "
+    "hydraulic grade line to the network against design rules that the user can configure, and "
+    "gives rough estimates of remedies and their costs. It does not replace a calibrated hydraulic "
+    "model of the network or a design. Local codes and the judgement of a licensed engineer govern "
+    "every decision taken on it."
 )
 
 #: The colour of the programme's numbers on the map.
@@ -161,14 +163,17 @@ def _summary_words(result: AuditResult, pipes: pd.DataFrame) -> str:
     action = candidate_rows(pipes)[1]
     verify = int(np.count_nonzero(np.isin(action, ("verify data first", "verify levels"))))
     inspect = int(np.count_nonzero(action == "inspect"))
-    renew = action.size - verify - inspect
+    renew = int(np.count_nonzero(np.isin(action, ("consider renewal", "relieve downstream"))))
+    other = action.size - verify - inspect - renew
+    schemes = 0 if result.schemes is None else len(result.schemes)
+    in_schemes = f" ({plural(schemes, 'scheme')} of work)" if schemes else ""
     unevaluated = int(np.count_nonzero(~evaluated(pipes)))
     return (
         f"Of {total or 0.0:,.2f} {unit} of pipe in {plural(len(pipes), 'pipe')}, the worst flag puts "
         + ", ".join(parts[:-1]) + f" and {parts[-1]}. "
-        + f"{plural(renew, 'pipe')} {'is a candidate' if renew == 1 else 'are candidates'} for renewal, {inspect:,} to inspect and "
-        + f"{verify:,} {'needs its' if verify == 1 else 'need their'} data verified first; "
-        + f"the hydraulics of {plural(unevaluated, 'pipe')} could not run for want of data."
+        + f"{plural(renew, 'pipe')} {'is a candidate' if renew == 1 else 'are candidates'} for renewal or relief{in_schemes}, {inspect:,} to inspect, "
+        + f"{verify:,} {'needs its' if verify == 1 else 'need their'} data verified first and {other:,} {'has' if other == 1 else 'have'} a lesser "
+        + f"measure; the hydraulics of {plural(unevaluated, 'pipe')} could not run for want of data."
         + _flooding_words(result)
     )
 
@@ -363,18 +368,19 @@ def _candidates(pipes: pd.DataFrame, *, id_field: str | None, units: UnitSystem)
     if ranked.empty:
         return paragraph("No pipe raised a flag.")
     height = units.convert(ranked["height_mm"].to_numpy(dtype=float) / 1000.0, "size")
-    length, upstream = (units.convert(ranked[name].to_numpy(dtype=float), "length") for name in ("length_m", "upstream_length_m"))
+    length = units.convert(ranked["length_m"].to_numpy(dtype=float), "length")
     size_digits = 0 if units.unit("size") == "mm" else 1
     rows = [
-        (cell(rank), cell(row.pipe), cell(row.from_to), cell(row.action), cell(row.severity), cell(row.load_ratio, digits=2), cell(height[rank - 1], digits=size_digits),
-         cell(length[rank - 1], digits=1), cell(upstream[rank - 1], digits=0), cell(row.reasons))
+        (cell(rank), cell(row.pipe), cell(row.action), cell(row.severity), cell(row.load_ratio, digits=2), cell(height[rank - 1], digits=size_digits),
+         cell(length[rank - 1], digits=1), cell(row.reasons), cell(row.remedy))
         for rank, row in enumerate(ranked.itertuples(index=False), start=1)
     ]  # fmt: skip
-    headers = ("#", "Pipe", "From \u2192 to", "Action", "Severity", "Load ratio", f"Height [{units.unit('size')}]", f"Length [{units.unit('length')}]",
-               f"Upstream [{units.unit('length')}]", "Reasons")  # fmt: skip
-    note = paragraph("The first rows of candidates.csv: the renewal programme's pipes ranked by risk (docs/renewal.md), "
-                     "review candidates, whose data must be verified first, after all others.", class_="note")
-    return table(headers, rows, numeric=(True, False, False, False, False, True, True, True, True, False), id="candidate-table") + note
+    headers = ("#", "Pipe", "Action", "Severity", "Load ratio", f"Height [{units.unit('size')}]", f"Length [{units.unit('length')}]",
+               "Reasons (flags)", "Remedy")  # fmt: skip
+    note = paragraph("The first rows of candidates.csv (which also gives each pipe's nodes, risk and length served upstream): the "
+                     "renewal programme's pipes ranked by risk (docs/renewal.md), a scheme's pipes together, review candidates, "
+                     "whose data must be verified first, after all others.", class_="note")  # fmt: skip
+    return table(headers, rows, numeric=(True, False, False, False, True, True, True, False, False), id="candidate-table") + note
 
 
 def _findings(findings: pd.DataFrame) -> str:

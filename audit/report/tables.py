@@ -125,6 +125,7 @@ def renewal_candidates(pipes: pd.DataFrame, *, id_field: str | None, limit: int 
             "length_m": numeric(chosen, "length_m"),
             "upstream_length_m": numeric(chosen, "upstream_length_m"),
             "reasons": texts(chosen, "reasons").to_numpy(dtype=object),
+            "remedy": texts(chosen, "remedy").to_numpy(dtype=object) if "remedy" in chosen.columns else np.full(len(rows), "", dtype=object),
         }
     )
 

@@ -1,7 +1,7 @@
 """Manhole rules from the hydraulic grade line: flags, a worst severity and reasons per node.
 
 ``flooding`` where the water level at the design flows reaches the cover less the freeboard;
-``manhole_surcharge`` where it stands above the lowest crown of the pipes at the manhole but
+``manhole_surcharge`` where it stands above the soffit of the pipe leaving the manhole but
 below flooding (the water rises in the shaft). A node without a cover level, or without a water
 level, gets neither: its ``flood_state`` says ``not_evaluated``, never safe. Severities come from
 ``[rules.severity]`` (``MANHOLE_SEVERITY``).

@@ -53,7 +53,7 @@ FLAG_CODES: tuple[str, ...] = tuple(DEFAULT_SEVERITY)
 
 #: Manhole flag codes, from the hydraulic grade line, with their default severity: ``flooding``
 #: where the water level reaches the cover less the freeboard, ``manhole_surcharge`` where it
-#: stands above the lowest crown at the manhole but below flooding. ``[rules.severity]`` sets
+#: stands above the soffit of the pipe leaving the manhole but below flooding. ``[rules.severity]`` sets
 #: them as it sets the pipe flags.
 MANHOLE_SEVERITY: Mapping[str, str] = MappingProxyType({"flooding": "high", "manhole_surcharge": "low"})
 

@@ -299,8 +299,21 @@ def test_a_flooding_node_spills_at_its_rim() -> None:
     assert result.level_up[1] == pytest.approx(11.8 + box_full_friction(0.3) * 60.0, rel=1e-12)
 
 
-def test_a_level_below_the_lowest_crown_is_below_soffit() -> None:
+def test_a_level_below_the_soffit_of_the_pipe_leaving_is_below_soffit() -> None:
     assert one(rim=[12.0, 12.5]).run().flood_state.tolist() == [FloodState.BELOW_SOFFIT, FloodState.BELOW_SOFFIT]
+
+
+def test_a_manhole_is_surcharged_above_the_soffit_of_the_pipe_leaving_it_not_of_a_drowned_inlet() -> None:
+    # the trunk (pipe 0) leaves node 1 part full; a lateral (pipe 1) joins node 1 0.8 H lower, so the
+    # water there covers the lateral's crown but not the trunk's: the lateral's outlet is drowned,
+    # node 1 is not surcharged; node 2, whose own pipe out (the lateral) is under water, is
+    trunk_up_invert = 10.0 + 0.002 * 60.0
+    net = Net(up=[1, 2], down=[0, 1], flow=[0.01, 0.005], slope=[0.002, 0.002], length=[60.0, 30.0],
+              down_invert=[10.0, trunk_up_invert - 0.8 * HEIGHT], rim=[20.0, 20.0, 20.0], boundary=fixed(trunk_up_invert + 0.5 * HEIGHT))  # fmt: skip
+    result = net.run()
+    level = result.node_level[1]
+    assert trunk_up_invert + 0.2 * HEIGHT < level < trunk_up_invert + HEIGHT  # above the lateral's crown, below the trunk's
+    assert result.flood_state.tolist() == [FloodState.BELOW_SOFFIT, FloodState.BELOW_SOFFIT, FloodState.SURCHARGED]
 
 
 def test_a_given_uniform_state_gives_the_same_grade_line() -> None:

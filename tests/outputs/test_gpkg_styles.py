@@ -102,6 +102,13 @@ def test_each_layer_has_one_default_style_in_the_table_a_gis_reads(gpkg: Path) -
         assert len(rules) == len(ET.fromstring(style["styleSLD"]).findall(".//se:Rule", NS))  # both documents hold the same classes
 
 
+def test_every_layer_says_it_is_a_screening_aid(gpkg: Path) -> None:
+    with sqlite3.connect(gpkg) as connection:
+        descriptions = dict(connection.execute("SELECT table_name, description FROM gpkg_contents WHERE data_type = 'features'").fetchall())
+    assert sorted(descriptions) == ["findings", "manholes", "pipes"]
+    assert all(text.startswith("Screening aid only") and "licensed engineer" in text for text in descriptions.values())
+
+
 def test_a_broken_sld_is_caught_by_the_schema(gpkg: Path) -> None:
     sld = _styles(gpkg)["pipes"]["styleSLD"]
     assert not SCHEMA.is_valid(sld.replace("<se:Stroke>", "<se:Stroke><se:Size>3</se:Size>", 1))  # a size where a stroke parameter goes

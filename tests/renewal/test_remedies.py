@@ -149,7 +149,7 @@ def test_plan_remedies_chooses_a_kind_per_pipe_and_says_the_numbers() -> None:
     flags = np.array(["reverse_grade", "surcharge", "", "silting", "", "long_spacing", ""], dtype=object)
     facts = PipeFacts(
         flags=FlagSets.of(flags), findings={}, q_design=flows,
-        evaluated=slopes > 0, floods_below=np.array([False, False, True, False, False, False, False]),
+        evaluated=slopes > 0, floods_below=np.array([False, False, True, False, False, False, False]), floods_above=np.zeros(count, dtype=bool),
         age_years=np.array([10.0, 10.0, 10.0, 10.0, 120.0, 10.0, np.nan]), service_life=np.full(count, 100.0),
         structural=np.full(count, np.nan), service=np.full(count, np.nan),
     )  # fmt: skip
@@ -178,7 +178,7 @@ def test_plan_remedies_chooses_a_kind_per_pipe_and_says_the_numbers() -> None:
 @pytest.mark.parametrize("flow", [0.0, np.nan])
 def test_a_flagged_pipe_without_a_flow_is_said_not_sized(flow: float) -> None:
     pipes = pipes_of([0.3], [0.003], Friction.uniform("manning", N, 1))
-    facts = PipeFacts(FlagSets.of(np.array(["surcharge"], dtype=object)), {}, np.array([flow]), np.array([True]), np.array([False]),
+    facts = PipeFacts(FlagSets.of(np.array(["surcharge"], dtype=object)), {}, np.array([flow]), np.array([True]), np.array([False]), np.array([False]),
                       np.array([np.nan]), np.array([100.0]), np.array([np.nan]), np.array([np.nan]))  # fmt: skip
     remedies = plan_remedies(pipes, facts, cleansing=criterion("full_velocity", 0.6, None), settings=RenewalSettings())
     assert remedies.kind[0] == "capacity"
@@ -191,7 +191,7 @@ def test_every_rule_flag_and_an_unknown_one_get_a_remedy() -> None:
     codes = [*FLAG_CODES, "a_flag_added_later"]
     count = len(codes)
     pipes = pipes_of([0.3] * count, [0.003] * count, Friction.uniform("manning", N, count))
-    facts = PipeFacts(FlagSets.of(np.array(codes, dtype=object)), {}, np.full(count, 0.2), np.ones(count, dtype=bool), np.zeros(count, dtype=bool),
+    facts = PipeFacts(FlagSets.of(np.array(codes, dtype=object)), {}, np.full(count, 0.2), np.ones(count, dtype=bool), np.zeros(count, dtype=bool), np.zeros(count, dtype=bool),
                       np.full(count, np.nan), np.full(count, 100.0), np.full(count, np.nan), np.full(count, np.nan))  # fmt: skip
     remedies = plan_remedies(pipes, facts, cleansing=criterion("full_velocity", 0.6, None), settings=RenewalSettings())
     assert all(remedies.kind), dict(zip(codes, remedies.kind, strict=True))

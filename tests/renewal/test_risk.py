@@ -63,12 +63,12 @@ def test_risk_scores_of_the_table_of_pipes() -> None:
     assert programme.consequence_driver.tolist() == ["depth", "population", "depth", "critical area: railway", "", "depth", "population"]
     assert programme.risk_driver[3] == "structural grade x critical area: railway"
     assert programme.remedy[4] == ("risk not scored: no load ratio, install year or condition grade for the likelihood; "
-                                   "no population, size, depth or critical area for the consequence")  # fmt: skip
+                                   "no population, size, depth, flooding or critical area for the consequence")  # fmt: skip
 
 
 def test_weights_scale_a_part_before_the_largest_is_taken() -> None:
     inputs = table_of_pipes()
-    weights = MappingProxyType({"critical_area": 1.0, "population": 0.5, "size": 1.0, "depth": 0.0})
+    weights = MappingProxyType({"critical_area": 1.0, "population": 0.5, "size": 1.0, "depth": 0.0, "flooding": 1.0})
     inputs["settings"] = replace(inputs["settings"], consequence_weights=weights)
     programme = renewal_programme(**inputs)
     # B: population 4 x 0.5 = 2; size 3; depth left out                 C = 3 (size)
