@@ -34,7 +34,7 @@ from audit.hydraulics import (
     water_kinematic_viscosity,
 )
 from audit.layers import Layers, read_layers
-from audit.network import Network, arrow_text, build_network, derive_levels, pipe_labels
+from audit.network import Network, arrow_text, build_network, derive_levels, nodes_upstream, pipe_labels
 from audit.renewal import Programme, cleansing_criterion, read_condition, read_critical_areas, renewal_programme
 from audit.result import (
     PIPE_COLUMNS,
@@ -198,7 +198,8 @@ def _report_breaks(network: Network, assumed: np.ndarray, *, findings: FindingLo
     ids = nodes["node_id"].to_numpy(dtype=object)[node].astype(str)
     xy = nodes[["x", "y"]].to_numpy(dtype=float)[node]
     message = [f"the grade line starts at '{name}' as a free outfall: no pipe below it could be evaluated (size, slope, levels or "
-               "flow missing), so the water levels upstream of it may be too low" for name in ids]  # fmt: skip
+               "flow missing), so the water levels upstream of it may be too low: flooding and surcharge above it stand, manholes "
+               "that stay below the soffit are not evaluated" for name in ids]  # fmt: skip
     manhole = nodes["manhole_row"].to_numpy(dtype=np.int64)[node] >= 0
     messages = np.asarray(message, dtype=object)
     for layer, pick in (("manholes", manhole), ("network", ~manhole)):  # a manhole, or a junction of pipe ends
@@ -335,6 +336,11 @@ def _node_columns(ready: Prepared, grade: GradeLine) -> dict[str, np.ndarray]:
     config, network = ready.config, ready.network
     rim = network.nodes["rim"].to_numpy(dtype=float)
     state = _FLOOD_LABELS[grade.flood_state]
+    # above a node where the grade line had to assume a free outfall its levels are lower bounds:
+    # flooding or surcharge there is certain, water below the soffit is not (never silently safe)
+    if grade.boundary_assumed.any():
+        above = nodes_upstream(np.flatnonzero(grade.boundary_assumed), network.upstream, network.downstream, node_count=len(network.nodes))
+        state[above & (state == FloodState.BELOW_SOFFIT.label)] = FloodState.NOT_EVALUATED.label
     flags = check_manholes(state, level=grade.node_level, rim=rim, freeboard_m=config.grade_line.freeboard_m,
                            settings=config.rules, units=config.output_units)  # fmt: skip
     return {

@@ -85,6 +85,21 @@ def test_flags_and_numbers_match_an_independent_computation(tmp_path: Path, driv
     assert f"load ratio {0.0355 / p3['q_full']:.2f}" in pipes.loc["P3", "reasons"]
 
 
+def test_manholes_above_a_grade_line_break_are_never_called_safe(tmp_path: Path) -> None:
+    # P4 (D -> E, the only way to the outfall) loses its size: the grade line must start at D as an assumed free
+    # outfall, so every level above D is a lower bound. C still floods and A, B, F are still surcharged (at least),
+    # but D, which would read below its soffit, is not evaluated; E has no evaluated pipe at all.
+    config = write_town(tmp_path, "GPKG", ".gpkg")
+    pipes = gpd.read_file(tmp_path / "pipes.gpkg")
+    pipes["DIA"] = pipes["DIA"].astype(float).where(pipes["REF"] != "P4")
+    pipes.to_file(tmp_path / "pipes.gpkg", driver="GPKG")
+    result = run(config)
+    states = dict(zip(result.manholes["MH"], result.manholes["flood_state"], strict=True))
+    assert states == {**EXPECTED_FLOOD_STATES, "D": "not_evaluated", "E": "not_evaluated"}
+    breaks = result.findings[result.findings["code"] == "grade_line_break"]
+    assert breaks["feature"].tolist() == ["D"]
+
+
 def test_every_input_feature_and_field_comes_back_unchanged(tmp_path: Path) -> None:
     config = write_town(tmp_path, "ESRI Shapefile", ".shp")
     original = gpd.read_file(tmp_path / "pipes.shp")

@@ -1,4 +1,4 @@
-"""Graph questions on the integer arrays of a network: parts, cycles, order, outfalls.
+"""Graph questions on the integer arrays of a network: parts, cycles, order, outfalls, what lies upstream.
 
 A network (:class:`Network`) is held as two int64 arrays, the upstream and downstream node of every pipe (-1 for a
 pipe that is not placed). Every answer here is a handful of numpy / scipy.sparse operations over
@@ -13,7 +13,7 @@ from dataclasses import dataclass
 import numpy as np
 import pandas as pd
 from scipy.sparse import coo_matrix
-from scipy.sparse.csgraph import connected_components
+from scipy.sparse.csgraph import breadth_first_order, connected_components
 
 
 @dataclass(frozen=True, eq=False)
@@ -172,3 +172,24 @@ def outfall_nodes(upstream: np.ndarray, downstream: np.ndarray, *, node_count: i
     inflow = np.bincount(downstream[placed], minlength=node_count)
     outflow = np.bincount(upstream[placed], minlength=node_count)
     return np.flatnonzero((inflow > 0) & (outflow == 0)).astype(np.int64)
+
+
+def nodes_upstream(starts: np.ndarray, upstream: np.ndarray, downstream: np.ndarray, *, node_count: int) -> np.ndarray:
+    """Which nodes drain, through the placed pipes, to one of ``starts`` (the starts included), as a mask.
+
+    One breadth-first search against the flow from a node added before every start
+    (``scipy.sparse.csgraph.breadth_first_order``).
+
+    Examples
+    --------
+    >>> nodes_upstream(np.array([1]), np.array([1, 2, 4]), np.array([0, 1, 3]), node_count=5).tolist()
+    [False, True, True, False, False]
+    """
+    placed = (upstream >= 0) & (downstream >= 0)
+    added = node_count
+    rows = np.concatenate([downstream[placed], np.full(starts.size, added)])
+    columns = np.concatenate([upstream[placed], starts])
+    graph = coo_matrix((np.ones(rows.size, dtype=np.int8), (rows, columns)), shape=(node_count + 1, node_count + 1)).tocsr()
+    reached = np.zeros(node_count + 1, dtype=bool)
+    reached[breadth_first_order(graph, added, directed=True, return_predecessors=False)] = True
+    return reached[:node_count]
