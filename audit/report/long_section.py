@@ -158,4 +158,9 @@ def _ticks(low: float, high: float, *, count: int = 6) -> Array:
         return np.array([], dtype=float)
     step = 10 ** np.floor(np.log10(raw)) if raw > 0 else 1.0
     step *= min((m for m in (1, 2, 5, 10) if m * step >= raw), default=10)
-    return np.arange(np.ceil(low / step) * step, high + step / 2, step)
+    start = np.ceil(low / step) * step
+    with np.errstate(over="ignore", invalid="ignore"):  # at the edge of floating point (1.8e308) the span itself overflows
+        steps = np.floor((high - start) / step + 1e-9)
+    if not np.isfinite(steps) or steps < 0:
+        return np.array([], dtype=float)
+    return start + step * np.arange(min(int(steps), 4 * count) + 1)
