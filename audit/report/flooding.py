@@ -12,7 +12,7 @@ from dataclasses import replace
 import pandas as pd
 
 from audit.report.html import cell, paragraph, plural, table
-from audit.report.long_section import downstream_path, long_section, section_data
+from audit.report.long_section import downstream_path, long_section, next_pipes, section_data
 from audit.result import AuditResult
 from audit.units import UnitSystem
 
@@ -41,17 +41,19 @@ def flooding_section(result: AuditResult, pipes: pd.DataFrame) -> str:
     counts = nodes["state"].value_counts()
     words = (
         f"At the design flows the water comes out of {plural(int(counts.get('flooding', 0)), 'manhole')}; it stands above "
-        f"the pipes' crowns in {plural(int(counts.get('surcharged', 0)), 'more manhole')}; "
-        f"{plural(int(counts.get('not_evaluated', 0)), 'manhole')} could not be judged (no cover level, or no evaluated pipe). "
+        f"the soffit of the pipe leaving {plural(int(counts.get('surcharged', 0)), 'more manhole')}; "
+        f"{plural(int(counts.get('not_evaluated', 0)), 'manhole')} could not be judged (no cover level, no evaluated pipe, or "
+        "upstream of a break in the grade line). "
         + _settings_words(result)
     )
     flooding = nodes[nodes["state"] == "flooding"].sort_values("flood_depth", ascending=False)
     parts = [paragraph(words)]
     if not flooding.empty:
         parts.append(_flooding_table(flooding.head(FLOODING_ROWS), units))
-    start = _section_start(pipes, flooding) if not flooding.empty else _least_freeboard(nodes)
+    steps = next_pipes(pipes)
+    start = _section_start(flooding, steps) if not flooding.empty else _least_freeboard(nodes)
     if start is not None:
-        parts.append(_section(pipes, nodes, start, units, flooding=not flooding.empty))
+        parts.append(_section(pipes, nodes, downstream_path(start, steps), start, units, flooding=not flooding.empty))
     return "".join(parts)
 
 
@@ -63,7 +65,7 @@ def _settings_words(result: AuditResult) -> str:
             f"{settings.get('manhole_loss', 0.15):g} v\u00b2/2g at every manhole ([grade_line], docs/methods.md).")  # fmt: skip
 
 
-def _section_start(pipes: pd.DataFrame, flooding: pd.DataFrame) -> str:
+def _section_start(flooding: pd.DataFrame, steps: dict[str, tuple[int, str | None]]) -> str:
     """The flooding manhole whose path to the outfall passes the most flooding manholes (the deepest first on a tie).
 
     Starting at the top of a run of flooding manholes shows them all in one drawing. The
@@ -71,9 +73,9 @@ def _section_start(pipes: pd.DataFrame, flooding: pd.DataFrame) -> str:
     """
     flooded = set(flooding.index)
     best, most = str(flooding.index[0]), 0
+    below = dict(steps.values())  # the node each step leads to, by pipe
     for node in flooding.index[:FLOODING_ROWS]:
-        path = downstream_path(pipes, str(node))
-        passed = 1 + sum(str(name) in flooded for name in pipes["to_node_id"].to_numpy(dtype=object)[path])
+        passed = 1 + sum(below[pipe] in flooded for pipe in downstream_path(str(node), steps))
         if passed > most:
             best, most = str(node), passed
     return best
@@ -101,8 +103,7 @@ def _flooding_table(flooding: pd.DataFrame, units: UnitSystem) -> str:
     return table(headers, rows, numeric=(False, True, True, True), id="flooding-table") + note
 
 
-def _section(pipes: pd.DataFrame, nodes: pd.DataFrame, start: str, units: UnitSystem, *, flooding: bool) -> str:
-    path = downstream_path(pipes, start)
+def _section(pipes: pd.DataFrame, nodes: pd.DataFrame, path: list[int], start: str, units: UnitSystem, *, flooding: bool) -> str:
     if not path:
         return ""
     data = section_data(pipes, path, nodes["rim"], nodes["level"])

@@ -44,26 +44,34 @@ class SectionData:
     node_level: Array
 
 
-def downstream_path(pipes: pd.DataFrame, start: str) -> list[int]:
-    """Row positions of the pipes from node ``start`` down to a node no pipe leaves.
+def next_pipes(pipes: pd.DataFrame) -> dict[str, tuple[int, str | None]]:
+    """For each node, the pipe a walk downstream takes from it (the one with the largest design
+    flow) and the node that pipe flows into (None where unknown).
 
-    ``pipes`` needs ``from_node_id``, ``to_node_id`` and ``q_design``; at a node with several
-    outgoing pipes the one with the largest design flow is taken. Stops at a node already passed
-    (a loop) and after ``MAX_PATH_PIPES`` pipes.
+    ``pipes`` needs ``from_node_id``, ``to_node_id`` and ``q_design``. One sort over all pipes;
+    build it once for many walks.
     """
-    source = pipes["from_node_id"].astype(object).to_numpy()
-    flow = np.nan_to_num(pipes["q_design"].to_numpy(dtype=float), nan=-1.0)
-    order = np.lexsort((-flow, source.astype(str)))  # by node, largest flow first
-    first = pd.Series(order, index=source[order].astype(str)).groupby(level=0).first()
+    source = pipes["from_node_id"].astype(object).to_numpy().astype(str)
     target = pipes["to_node_id"].astype(object).to_numpy()
+    flow = np.nan_to_num(pipes["q_design"].to_numpy(dtype=float), nan=-1.0)
+    order = np.lexsort((-flow, source))  # by node, largest flow first
+    keep = order[np.r_[True, source[order][1:] != source[order][:-1]]]  # the first pipe of each node
+    below = [None if pd.isna(name) else str(name) for name in target[keep]]
+    return dict(zip(source[keep].tolist(), zip(keep.tolist(), below, strict=True), strict=True))
+
+
+def downstream_path(start: str, steps: dict[str, tuple[int, str | None]]) -> list[int]:
+    """Row positions of the pipes from node ``start`` down to a node no pipe leaves, by the
+    ``steps`` of :func:`next_pipes` (at a node with several outgoing pipes, the largest flow).
+    Stops at a node already passed (a loop) and after ``MAX_PATH_PIPES`` pipes.
+    """
     path: list[int] = []
     seen = {start}
-    node = start
-    while node in first.index and len(path) < MAX_PATH_PIPES:  # one step per pipe of one path
-        pipe = int(first[node])
+    node: str | None = start
+    while node in steps and len(path) < MAX_PATH_PIPES:  # one step per pipe of one path
+        pipe, node = steps[node]
         path.append(pipe)
-        node = str(target[pipe])
-        if node in seen or pd.isna(target[pipe]):
+        if node is None or node in seen:
             break
         seen.add(node)
     return path

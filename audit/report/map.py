@@ -84,7 +84,7 @@ class MapMarks:
     xy: np.ndarray  # (n, 2) in the map's coordinates [m]
     colour: str
     name: str  # the group's data-marks attribute
-    labels: tuple[str, ...] = ()  # text beside each point; none when empty
+    labels: tuple[str, ...] = ()  # text beside the first len(labels) points
     radius_px: float = 4.5
 
 
@@ -151,7 +151,7 @@ def _marks(group: MapMarks, frame: Frame) -> str:
     items = []
     for number, (px, py) in zip(placed, zip(x, y, strict=True), strict=True):  # one element per marked point
         items.append(element("circle", cx=f"{px:.1f}", cy=f"{py:.1f}", r=f"{group.radius_px:g}", fill=group.colour, stroke="#fff", stroke_width=1))
-        if group.labels:  # beside the point, on its left near the right edge so the text stays on the map
+        if number < len(group.labels):  # the first points are labelled; beside the point, on its left near the right edge
             left = px > frame.width - 80.0
             x_text = px - group.radius_px - 2 if left else px + group.radius_px + 2
             items.append(label(x_text, py - group.radius_px, group.labels[number], font_size=11, fill=group.colour, font_weight="bold",

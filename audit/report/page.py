@@ -59,6 +59,11 @@ PROGRAMME_COLOUR = "#222222"
 OUTFALL_COLOUR = "#009e73"
 OUTFALLS_LABELLED = 20
 
+#: How many flooding manholes the map draws and labels, the deepest first: a network of a million
+#: pipes can flood thousands, and the page must stay readable and small.
+FLOODING_DRAWN = 1000
+FLOODING_LABELLED = 20
+
 #: Candidates listed in the report.
 CANDIDATE_ROWS = 20
 
@@ -245,13 +250,20 @@ def _map(result: AuditResult, pipes: pd.DataFrame, classes: np.ndarray, totals: 
         items.append(element("li", swatch + html.escape(f"{words}: {plural(counts[name], 'pipe')}{detail}"), data_class=name))
     for group in marks:
         swatch = element("span", "", class_="swatch dot", style=f"background:{group.colour}")
-        words = {"flooding": f"Flooding manhole: {plural(len(group.labels), 'manhole')}",
+        words = {"flooding": _flooding_legend(result),
                  "outfall": f"Outfall: {plural(len(group.labels), 'outfall')}" + ("" if len(group.labels) < OUTFALLS_LABELLED
                             else f", those with the {OUTFALLS_LABELLED} largest design flows"),
                  "programme": "Renewal programme: S1, S2, ... the schemes, 1, 2, ... the riskiest other pipes, as numbered in its tables"}[group.name]  # fmt: skip
         items.append(element("li", swatch + html.escape(words), data_class=group.name))
     note = "North is up (grid north of the map's coordinate system)." + ("" if metres else " The unit of the coordinates is unknown: no scale bar.")
     return drawing + element("ul", "".join(items), class_="legend") + paragraph(note, class_="note")
+
+
+def _flooding_legend(result: AuditResult) -> str:
+    total = int((result.manholes["flood_state"].astype(str) == "flooding").sum()) if result.manholes is not None else 0
+    drawn = "" if total <= FLOODING_DRAWN else f", the {FLOODING_DRAWN:,} deepest drawn"
+    labelled = "" if total <= FLOODING_LABELLED else f", the {FLOODING_LABELLED} deepest labelled"
+    return f"Flooding manhole: {plural(total, 'manhole')}{drawn}{labelled}"
 
 
 def _outfall_marks(result: AuditResult, pipes: pd.DataFrame, geometry: np.ndarray) -> tuple[MapMarks, ...]:
@@ -281,17 +293,19 @@ def _outfall_marks(result: AuditResult, pipes: pd.DataFrame, geometry: np.ndarra
 
 
 def _flooding_marks(result: AuditResult) -> tuple[MapMarks, ...]:
-    """The flooding manholes as marks on the map, labelled with their ids (none when no manhole floods)."""
+    """The flooding manholes as marks on the map, the deepest first: at most ``FLOODING_DRAWN`` drawn and
+    ``FLOODING_LABELLED`` labelled with their ids (none when no manhole floods)."""
     manholes = result.manholes
     if manholes is None or "flood_state" not in manholes.columns or result.canonical_manholes is None:
         return ()
     chosen = np.flatnonzero(manholes["flood_state"].astype(str).to_numpy() == "flooding")
     if not chosen.size:
         return ()
+    depth = pd.to_numeric(manholes["flood_depth_m"].iloc[chosen], errors="coerce").fillna(0.0).to_numpy(dtype=float)
+    chosen = chosen[np.argsort(-depth, kind="stable")][:FLOODING_DRAWN]
     points, _ = metric_geometry(manholes.iloc[chosen], working_crs=result.settings.get("working_crs"))
-    xy = anchor_points(points)
-    ids = result.canonical_manholes["manhole_id"].astype(str).to_numpy()[chosen]
-    return (MapMarks(xy, FLOOD_COLOUR, "flooding", labels=tuple(ids)),)
+    ids = result.canonical_manholes["manhole_id"].astype(str).to_numpy()[chosen[:FLOODING_LABELLED]]
+    return (MapMarks(anchor_points(points), FLOOD_COLOUR, "flooding", labels=tuple(ids)),)
 
 
 def _programme_marks(result: AuditResult, geometry: np.ndarray) -> tuple[MapMarks, ...]:
