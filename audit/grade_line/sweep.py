@@ -395,7 +395,8 @@ def _sweep(t: _Pipes, order: SweepOrder, pipes: PipeHydraulics, settings: GradeL
             found.record(rows, upstream_level, regime, cause, jump)
             wanted = np.where(passed, 0.0, wanted)
             wanted[passed] = held_need
-        np.maximum.at(need, t.up[start:stop], wanted)
+        with np.errstate(invalid="ignore"):  # a need that is not a number stays so at its node (not evaluated)
+            np.maximum.at(need, t.up[start:stop], wanted)
     return need, carried, found
 
 

@@ -55,7 +55,9 @@ def next_pipes(pipes: pd.DataFrame) -> dict[str, tuple[int, str | None]]:
     target = pipes["to_node_id"].astype(object).to_numpy()
     flow = np.nan_to_num(pipes["q_design"].to_numpy(dtype=float), nan=-1.0)
     order = np.lexsort((-flow, source))  # by node, largest flow first
-    keep = order[np.r_[True, source[order][1:] != source[order][:-1]]]  # the first pipe of each node
+    first = np.ones(order.size, dtype=bool)  # the first pipe of each node (none for no pipe)
+    first[1:] = source[order][1:] != source[order][:-1]
+    keep = order[first]
     below = [None if pd.isna(name) else str(name) for name in target[keep]]
     return dict(zip(source[keep].tolist(), zip(keep.tolist(), below, strict=True), strict=True))
 
