@@ -48,18 +48,20 @@ def next_pipes(pipes: pd.DataFrame) -> dict[str, tuple[int, str | None]]:
     """For each node, the pipe a walk downstream takes from it (the one with the largest design
     flow) and the node that pipe flows into (None where unknown).
 
-    ``pipes`` needs ``from_node_id``, ``to_node_id`` and ``q_design``. One sort over all pipes;
-    build it once for many walks.
+    ``pipes`` needs ``from_node_id``, ``to_node_id`` and ``q_design``. The nodes are hashed to
+    integers once and sorted with the flows; build it once for many walks.
     """
-    source = pipes["from_node_id"].astype(object).to_numpy().astype(str)
-    target = pipes["to_node_id"].astype(object).to_numpy()
+    codes, names = pd.factorize(pipes["from_node_id"], use_na_sentinel=True)
     flow = np.nan_to_num(pipes["q_design"].to_numpy(dtype=float), nan=-1.0)
-    order = np.lexsort((-flow, source))  # by node, largest flow first
+    order = np.lexsort((-flow, codes))  # by node, largest flow first
+    order = order[codes[order] >= 0]  # a pipe with no upstream node starts no walk
     first = np.ones(order.size, dtype=bool)  # the first pipe of each node (none for no pipe)
-    first[1:] = source[order][1:] != source[order][:-1]
+    first[1:] = codes[order][1:] != codes[order][:-1]
     keep = order[first]
-    below = [None if pd.isna(name) else str(name) for name in target[keep]]
-    return dict(zip(source[keep].tolist(), zip(keep.tolist(), below, strict=True), strict=True))
+    below = pipes["to_node_id"].iloc[keep].astype(object)
+    below = below.where(below.notna(), None).tolist()
+    sources = [str(name) for name in np.asarray(names, dtype=object)[codes[keep]]]
+    return dict(zip(sources, zip(keep.tolist(), [None if name is None else str(name) for name in below], strict=True), strict=True))
 
 
 def downstream_path(start: str, steps: dict[str, tuple[int, str | None]]) -> list[int]:

@@ -17,6 +17,7 @@ from audit.renewal import Programme
 from audit.report.html import cell, paragraph, section, table
 from audit.report.map import anchor_points
 from audit.report.svg import element, label, rect, svg
+from audit.report.tables import texts
 from audit.result import AuditResult
 from audit.units import UnitSystem
 
@@ -154,7 +155,7 @@ def programme_of(result: AuditResult) -> Programme | None:
         return None
 
     def text(name: str) -> NDArray[np.object_]:
-        return pipes[name].astype(object).where(pipes[name].notna(), "").astype(str).to_numpy(dtype=object)
+        return texts(pipes, name).to_numpy(dtype=object)
 
     def number(name: str) -> NDArray[np.float64]:
         return pd.to_numeric(pipes[name], errors="coerce").to_numpy(dtype=float)
