@@ -18,6 +18,7 @@ import shapely
 
 from audit.about import __version__
 from audit.outputs import candidate_rows
+from audit.renewal import Programme
 from audit.report.charts import flag_bars, part_full_chart, velocity_histogram
 from audit.report.curves import report_curves
 from audit.report.flooding import flooding_section, node_levels
@@ -109,18 +110,19 @@ def render_page(result: AuditResult, *, id_field: str | None, created: datetime)
     pipes = analysis_frame(result)
     classes = map_classes(pipes)
     totals = flag_totals(pipes, severity=result.rules.severity)
+    ranking, programme = candidate_rows(pipes), programme_of(result)  # each used by two sections: worked out once
     body = "".join(
         (
             element("section", element("h2", "Caution") + paragraph(CAUTION_WORDS), id="caution", class_="caution"),
-            section("summary", "Summary", paragraph(_summary_words(result, pipes), class_="summary")),
+            section("summary", "Summary", paragraph(_summary_words(result, pipes, actions=ranking[1]), class_="summary")),
             section("totals", "Network totals", _totals(result.totals, result.units)),
-            section("map", "Map of the network by worst flag", _map(result, pipes, classes, totals)),
+            section("map", "Map of the network by worst flag", _map(result, pipes, classes, totals, programme=programme)),
             section("flooding", "Water levels and flooding", flooding_section(result, pipes)),
             section("flags", "Flags: pipes and length", _flags(totals, len(pipes), result.units)),
             section("part-full", "Load ratio against depth ratio", _part_full(pipes, classes, result.canonical_pipes)),
             section("velocity", "Velocity at design flow", _velocity(pipes, result.rules, result.units)),
-            section("candidates", f"Top {CANDIDATE_ROWS} renewal candidates", _candidates(pipes, id_field=id_field, units=result.units), long=True),
-            _programme(result, pipes, id_field=id_field),
+            section("candidates", f"Top {CANDIDATE_ROWS} renewal candidates", _candidates(pipes, ranking, id_field=id_field, units=result.units), long=True),
+            _programme(result, pipes, programme, id_field=id_field),
             section("findings", "Data findings", _findings(result.findings), long=True),
             section("flows", "Design flows at the outfalls", flows_section(pipes, result.settings.get("flows"), units=result.units), long=True),
             section("rules", "Rules and run", _rules(result, created=created), long=True),
@@ -155,8 +157,8 @@ def _title_block(result: AuditResult, *, created: datetime) -> str:
     return element("div", element("dl", items), class_="title-block")
 
 
-def _summary_words(result: AuditResult, pipes: pd.DataFrame) -> str:
-    """One paragraph for a manager: the length of pipe per worst severity and what to do first."""
+def _summary_words(result: AuditResult, pipes: pd.DataFrame, *, actions: np.ndarray) -> str:
+    """One paragraph for a manager: the length of pipe per worst severity and what to do first (``actions``: of candidates.csv's rows)."""
     length = numeric(pipes, "length_m")
     severity = texts(pipes, "severity").to_numpy(dtype=object)
     total, unit = _long(float(np.nansum(length)), result.units)
@@ -165,7 +167,7 @@ def _summary_words(result: AuditResult, pipes: pd.DataFrame) -> str:
         chosen = severity == word
         amount = _long(float(np.nansum(length[chosen])), result.units)[0] or 0.0
         parts.append(f"{amount:,.2f} {unit} ({plural(int(np.count_nonzero(chosen)), 'pipe')}) of {word} severity")
-    action = candidate_rows(pipes)[1]
+    action = actions
     verify = int(np.count_nonzero(np.isin(action, ("verify data first", "verify levels"))))
     inspect = int(np.count_nonzero(action == "inspect"))
     renew = int(np.count_nonzero(np.isin(action, ("consider renewal", "relieve downstream"))))
@@ -228,9 +230,9 @@ def _totals(totals: Mapping[str, Any], units: UnitSystem) -> str:
     return table(("Quantity", "Value"), rows, numeric=(False, True))
 
 
-def _map(result: AuditResult, pipes: pd.DataFrame, classes: np.ndarray, totals: pd.DataFrame) -> str:
+def _map(result: AuditResult, pipes: pd.DataFrame, classes: np.ndarray, totals: pd.DataFrame, *, programme: Programme | None) -> str:
     geometry, metres = metric_geometry(result.pipes, working_crs=result.settings.get("working_crs"))
-    marks = _outfall_marks(result, pipes, geometry) + _flooding_marks(result) + _programme_marks(result, geometry)
+    marks = _outfall_marks(result, pipes, geometry) + _flooding_marks(result) + _programme_marks(programme, geometry)
     drawing = network_map(geometry, classes, metres=metres, units=result.units, marks=marks)
     counts = class_counts(classes)
     flags_of = pipes_flags(pipes)
@@ -308,9 +310,8 @@ def _flooding_marks(result: AuditResult) -> tuple[MapMarks, ...]:
     return (MapMarks(anchor_points(points), FLOOD_COLOUR, "flooding", labels=tuple(ids)),)
 
 
-def _programme_marks(result: AuditResult, geometry: np.ndarray) -> tuple[MapMarks, ...]:
+def _programme_marks(programme: Programme | None, geometry: np.ndarray) -> tuple[MapMarks, ...]:
     """The numbers of the programme's top schemes and pipes, where the map draws them."""
-    programme = programme_of(result)
     if programme is None:
         return ()
     labels = programme_labels(programme, geometry)
@@ -319,8 +320,7 @@ def _programme_marks(result: AuditResult, geometry: np.ndarray) -> tuple[MapMark
     return (MapMarks(labels[["x", "y"]].to_numpy(dtype=float), PROGRAMME_COLOUR, "programme", labels=tuple(labels["label"].astype(str)), radius_px=3.5),)
 
 
-def _programme(result: AuditResult, pipes: pd.DataFrame, *, id_field: str | None) -> str:
-    programme = programme_of(result)
+def _programme(result: AuditResult, pipes: pd.DataFrame, programme: Programme | None, *, id_field: str | None) -> str:
     if programme is None:
         return ""
     ids = pipe_labels(pipes, np.arange(len(pipes)), id_field=id_field)
@@ -377,8 +377,8 @@ def _velocity(pipes: pd.DataFrame, rules: RuleSettings, units: UnitSystem) -> st
     return chart + paragraph(words, class_="note")
 
 
-def _candidates(pipes: pd.DataFrame, *, id_field: str | None, units: UnitSystem) -> str:
-    ranked = renewal_candidates(pipes, id_field=id_field, limit=CANDIDATE_ROWS)
+def _candidates(pipes: pd.DataFrame, ranking: tuple[np.ndarray, np.ndarray], *, id_field: str | None, units: UnitSystem) -> str:
+    ranked = renewal_candidates(pipes, id_field=id_field, limit=CANDIDATE_ROWS, ranking=ranking)
     if ranked.empty:
         return paragraph("No pipe raised a flag.")
     height = units.convert(ranked["height_mm"].to_numpy(dtype=float) / 1000.0, "size")

@@ -108,9 +108,13 @@ def pipe_labels(pipes: pd.DataFrame, rows: np.ndarray, *, id_field: str | None) 
     return ("#" + pd.Index(rows).astype(str)).to_numpy(dtype=object)
 
 
-def renewal_candidates(pipes: pd.DataFrame, *, id_field: str | None, limit: int = 20) -> pd.DataFrame:
-    """The first ``limit`` rows of candidates.csv: the same pipes in the same order, with the action."""
-    rows, action = candidate_rows(pipes)
+def renewal_candidates(pipes: pd.DataFrame, *, id_field: str | None, limit: int = 20,
+                       ranking: tuple[np.ndarray, np.ndarray] | None = None) -> pd.DataFrame:  # fmt: skip
+    """The first ``limit`` rows of candidates.csv: the same pipes in the same order, with the action.
+
+    ``ranking``: ``candidate_rows(pipes)`` when the caller has it already (ranked once per page).
+    """
+    rows, action = candidate_rows(pipes) if ranking is None else ranking
     rows, action = rows[:limit], action[:limit]
     severity = texts(pipes, "severity")
     chosen = pipes.iloc[rows]
