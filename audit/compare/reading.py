@@ -38,7 +38,7 @@ import pyogrio.errors
 
 from audit.errors import InputError
 from audit.outputs import FLAG_PREFIX
-from audit.result import COMPUTED_PREFIX, MANHOLE_COLUMNS, PIPE_COLUMNS, output_name
+from audit.result import COMPUTED_PREFIX, MANHOLE_COLUMNS, PIPE_COLUMNS, output_name, written_name
 from audit.rules import FLAG_CODES, MANHOLE_FLAG_CODES
 from audit.units import SYSTEMS, UnitSystem
 
@@ -243,14 +243,8 @@ def computed_fields(columns: list[str], documented: Mapping[str, str], units: Un
     {'slope': 'audit_slope', 'q_design': 'q_design_l_s'}
     """
     present = set(columns)
-    found = {}
-    for name in documented:
-        written = output_name(name, units)
-        for candidate in (COMPUTED_PREFIX + written, written):
-            if candidate in present:
-                found[name] = candidate
-                break
-    return found
+    written = {name: written_name(present, output_name(name, units)) for name in documented}
+    return {name: field for name, field in written.items() if field is not None}
 
 
 #: The yes/no column of each flag (``audit.outputs.flag_columns``), under either name it may have.
