@@ -13,7 +13,6 @@ from __future__ import annotations
 import re
 import sqlite3
 from collections.abc import Mapping, Sequence
-from pathlib import Path
 
 from audit.result import COLUMN_UNITS, FINDING_COLUMNS, MANHOLE_COLUMNS, PIPE_COLUMNS, output_name
 from audit.units import UnitSystem
@@ -68,21 +67,17 @@ def layer_texts(layer: str, units: UnitSystem, flag_codes: Sequence[str]) -> dic
     return {**column_texts(meanings, units), **flag_texts(flag_codes, feature)}
 
 
-def write_descriptions(path: Path, layers: Mapping[str, Mapping[str, tuple[str, str]]]) -> None:
+def write_descriptions(connection: sqlite3.Connection, layers: Mapping[str, Mapping[str, tuple[str, str]]]) -> None:
     """Describe columns in ``gpkg_data_columns``: ``layers`` maps a layer to the title and description of each field, by its written name."""
-    with sqlite3.connect(path) as connection:
-        for statement in _SCHEMA:
-            connection.execute(statement)
-        for table in ("gpkg_data_columns", "gpkg_data_column_constraints"):
-            connection.execute("DELETE FROM gpkg_extensions WHERE table_name = ? AND extension_name = 'gpkg_schema'", (table,))
-            connection.execute("INSERT INTO gpkg_extensions VALUES (?, NULL, 'gpkg_schema', ?, 'read-write')", (table, _EXTENSION))
-        rows = [(layer, field, field, title, description) for layer, texts in layers.items() for field, (title, description) in texts.items()]
-        connection.executemany("INSERT OR REPLACE INTO gpkg_data_columns (table_name, column_name, name, title, description) VALUES (?, ?, ?, ?, ?)", rows)
-    connection.close()
+    for statement in _SCHEMA:
+        connection.execute(statement)
+    for table in ("gpkg_data_columns", "gpkg_data_column_constraints"):
+        connection.execute("DELETE FROM gpkg_extensions WHERE table_name = ? AND extension_name = 'gpkg_schema'", (table,))
+        connection.execute("INSERT INTO gpkg_extensions VALUES (?, NULL, 'gpkg_schema', ?, 'read-write')", (table, _EXTENSION))
+    rows = [(layer, field, field, title, description) for layer, texts in layers.items() for field, (title, description) in texts.items()]
+    connection.executemany("INSERT OR REPLACE INTO gpkg_data_columns (table_name, column_name, name, title, description) VALUES (?, ?, ?, ?, ?)", rows)
 
 
-def write_caution(path: Path, caution: str, layers: Sequence[str]) -> None:
+def write_caution(connection: sqlite3.Connection, caution: str, layers: Sequence[str]) -> None:
     """Put the caution in each layer's ``gpkg_contents.description``, which a GIS shows with the layer's properties."""
-    with sqlite3.connect(path) as connection:
-        connection.executemany("UPDATE gpkg_contents SET description = ? WHERE table_name = ?", [(caution, layer) for layer in layers])
-    connection.close()
+    connection.executemany("UPDATE gpkg_contents SET description = ? WHERE table_name = ?", [(caution, layer) for layer in layers])

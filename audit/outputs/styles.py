@@ -25,7 +25,6 @@ import html
 import sqlite3
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
-from pathlib import Path
 
 from audit.result import output_name, written_name
 from audit.units import UnitSystem
@@ -213,16 +212,14 @@ def finding_style() -> LayerStyle:
     return LayerStyle("findings", "point", (StyleRule("data finding", (), FINDING_COLOUR, 2.4),), "Where each data finding is")
 
 
-def write_styles(path: Path, styles: Sequence[LayerStyle]) -> None:
+def write_styles(connection: sqlite3.Connection, styles: Sequence[LayerStyle]) -> None:
     """Store each style in the GeoPackage's ``layer_styles`` table as the default of its layer (replacing an earlier default)."""
-    with sqlite3.connect(path) as connection:
-        connection.execute(STYLE_TABLE)
-        for style in styles:
-            column = connection.execute("SELECT column_name FROM gpkg_geometry_columns WHERE table_name = ?", (style.layer,)).fetchone()
-            connection.execute("UPDATE layer_styles SET useAsDefault = 0 WHERE f_table_name = ?", (style.layer,))
-            connection.execute(
-                "INSERT INTO layer_styles (f_table_catalog, f_table_schema, f_table_name, f_geometry_column, styleName, styleQML, styleSLD, "
-                "useAsDefault, description, owner, ui) VALUES ('', '', ?, ?, ?, ?, ?, 1, ?, '', '')",
-                (style.layer, column[0] if column else "", f"{style.layer} (sewer-audit)", style.qml(), style.sld(), style.description),
-            )
-    connection.close()
+    connection.execute(STYLE_TABLE)
+    for style in styles:
+        column = connection.execute("SELECT column_name FROM gpkg_geometry_columns WHERE table_name = ?", (style.layer,)).fetchone()
+        connection.execute("UPDATE layer_styles SET useAsDefault = 0 WHERE f_table_name = ?", (style.layer,))
+        connection.execute(
+            "INSERT INTO layer_styles (f_table_catalog, f_table_schema, f_table_name, f_geometry_column, styleName, styleQML, styleSLD, "
+            "useAsDefault, description, owner, ui) VALUES ('', '', ?, ?, ?, ?, ?, 1, ?, '', '')",
+            (style.layer, column[0] if column else "", f"{style.layer} (sewer-audit)", style.qml(), style.sld(), style.description),
+        )

@@ -303,11 +303,14 @@ def _write_geopackage(path: Path, *, pipes: gpd.GeoDataFrame, manholes: gpd.GeoD
 
 def _describe_geopackage(path: Path, *, pipes: gpd.GeoDataFrame, manholes: gpd.GeoDataFrame | None,
                          texts: Mapping[str, Mapping[str, tuple[str, str]]], units: UnitSystem) -> None:  # fmt: skip
-    """The default style of each layer (``layer_styles``) and what each computed field means (``gpkg_data_columns``)."""
+    """The default style of each layer (``layer_styles``), what each computed field means (``gpkg_data_columns``) and the
+    caution in each layer's description, in one transaction on the written file."""
     styles = [pipe_style(list(pipes.columns), units), manhole_style(list(manholes.columns)) if manholes is not None else None, finding_style()]
-    write_styles(path, [style for style in styles if style is not None])
-    write_descriptions(path, texts)
-    write_caution(path, CAUTION, ["pipes", "findings"] if manholes is None else ["pipes", "manholes", "findings"])
+    with sqlite3.connect(path) as connection:
+        write_styles(connection, [style for style in styles if style is not None])
+        write_descriptions(connection, texts)
+        write_caution(connection, CAUTION, ["pipes", "findings"] if manholes is None else ["pipes", "manholes", "findings"])
+    connection.close()
 
 
 def _write_layer(frame: gpd.GeoDataFrame, path: Path, *, layer: str, geometry_type: str | None) -> None:
