@@ -12,7 +12,7 @@ from dataclasses import replace
 import pandas as pd
 
 from audit.report.html import cell, paragraph, plural, table
-from audit.report.long_section import downstream_path, long_section, next_pipes, section_data
+from audit.report.long_section import downstream_path, downstream_walk, long_section, next_pipes, section_data
 from audit.result import AuditResult
 from audit.units import UnitSystem
 
@@ -73,9 +73,8 @@ def _section_start(flooding: pd.DataFrame, steps: dict[str, tuple[int, str | Non
     """
     flooded = set(flooding.index)
     best, most = str(flooding.index[0]), 0
-    below = dict(steps.values())  # the node each step leads to, by pipe
     for node in flooding.index[:FLOODING_ROWS]:
-        passed = 1 + sum(below[pipe] in flooded for pipe in downstream_path(str(node), steps))
+        passed = 1 + sum(below in flooded for _, below in downstream_walk(str(node), steps))
         if passed > most:
             best, most = str(node), passed
     return best

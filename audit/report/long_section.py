@@ -64,21 +64,26 @@ def next_pipes(pipes: pd.DataFrame) -> dict[str, tuple[int, str | None]]:
     return dict(zip(sources, zip(keep.tolist(), [None if name is None else str(name) for name in below], strict=True), strict=True))
 
 
-def downstream_path(start: str, steps: dict[str, tuple[int, str | None]]) -> list[int]:
-    """Row positions of the pipes from node ``start`` down to a node no pipe leaves, by the
-    ``steps`` of :func:`next_pipes` (at a node with several outgoing pipes, the largest flow).
+def downstream_walk(start: str, steps: dict[str, tuple[int, str | None]]) -> list[tuple[int, str | None]]:
+    """The pipes from node ``start`` down to a node no pipe leaves, each with the node it flows into,
+    by the ``steps`` of :func:`next_pipes` (at a node with several outgoing pipes, the largest flow).
     Stops at a node already passed (a loop) and after ``MAX_PATH_PIPES`` pipes.
     """
-    path: list[int] = []
+    walk: list[tuple[int, str | None]] = []
     seen = {start}
     node: str | None = start
-    while node in steps and len(path) < MAX_PATH_PIPES:  # one step per pipe of one path
+    while node in steps and len(walk) < MAX_PATH_PIPES:  # one step per pipe of one path
         pipe, node = steps[node]
-        path.append(pipe)
+        walk.append((pipe, node))
         if node is None or node in seen:
             break
         seen.add(node)
-    return path
+    return walk
+
+
+def downstream_path(start: str, steps: dict[str, tuple[int, str | None]]) -> list[int]:
+    """Row positions of the pipes of :func:`downstream_walk` from ``start``."""
+    return [pipe for pipe, _ in downstream_walk(start, steps)]
 
 
 def section_data(pipes: pd.DataFrame, path: list[int], node_rim: pd.Series, node_level: pd.Series) -> SectionData:
