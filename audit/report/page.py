@@ -276,22 +276,28 @@ def _outfall_marks(result: AuditResult, pipes: pd.DataFrame, geometry: np.ndarra
     flow = pd.to_numeric(pipes["q_design"].iloc[into], errors="coerce").fillna(-1.0).to_numpy(dtype=float)
     node = pipes["to_node_id"].iloc[into].astype(str).to_numpy(dtype=object)
     largest = pd.Series(flow).groupby(node).max().sort_values(ascending=False, kind="stable").index[:OUTFALLS_LABELLED]  # several pipes may end at one
-    first = {name: place for place, name in reversed(list(enumerate(node)))}
-    ends = np.asarray(geometry, dtype=object)[into[[first[name] for name in largest]]]
+    ends = np.asarray(geometry, dtype=object)[into[_first_places(node, largest)]]
     xy = np.full((len(ends), 2), np.nan)
     lines = shapely.get_type_id(ends) == 1
     last = shapely.get_point(ends[lines], -1)
     xy[lines, 0], xy[lines, 1] = shapely.get_x(last), shapely.get_y(last)
     if result.manholes is not None and result.canonical_manholes is not None:
-        ids = result.canonical_manholes["manhole_id"].astype(str).to_numpy(dtype=object)
-        row = {name: place for place, name in reversed(list(enumerate(ids)))}
-        known = np.array([name in row for name in largest], dtype=bool)
+        row = _first_places(result.canonical_manholes["manhole_id"].astype(str).to_numpy(dtype=object), largest)
+        known = row >= 0
         if known.any():
-            points, _ = metric_geometry(result.manholes.iloc[[row[name] for name in largest[known]]], working_crs=result.settings.get("working_crs"))
+            points, _ = metric_geometry(result.manholes.iloc[row[known]], working_crs=result.settings.get("working_crs"))
             at = anchor_points(points)
             found = np.isfinite(at).all(axis=1)
             xy[np.flatnonzero(known)[found]] = at[found]
     return (MapMarks(xy, OUTFALL_COLOUR, "outfall", labels=tuple(str(name) for name in largest), radius_px=5.0),)
+
+
+def _first_places(values: np.ndarray, wanted: pd.Index) -> np.ndarray:
+    """The position of the first of ``values`` equal to each of ``wanted``; -1 where none is (one hash lookup)."""
+    index = pd.Index(values)
+    first = np.flatnonzero(~index.duplicated())
+    found = index[first].get_indexer(wanted)
+    return np.where(found >= 0, first[found], -1).astype(np.intp)
 
 
 def _flooding_marks(result: AuditResult) -> tuple[MapMarks, ...]:
