@@ -297,7 +297,9 @@ def _first_places(values: np.ndarray, wanted: pd.Index) -> np.ndarray:
     index = pd.Index(values)
     first = np.flatnonzero(~index.duplicated())
     found = index[first].get_indexer(wanted)
-    return np.where(found >= 0, first[found], -1).astype(np.intp)
+    places = np.full(found.size, -1, dtype=np.intp)
+    places[found >= 0] = first[found[found >= 0]]
+    return places
 
 
 def _flooding_marks(result: AuditResult) -> tuple[MapMarks, ...]:

@@ -37,3 +37,4 @@ def test_the_walk_downstream_takes_the_largest_flow_and_stops_at_a_loop() -> Non
     assert downstream_path("C", steps) == [3]
     assert downstream_path("O", steps) == []  # an outfall: no pipe leaves it
     assert next_pipes(pipes.iloc[:0]) == {}  # a layer with no pipe (a fuzz case)
+
