@@ -28,6 +28,7 @@ from types import MappingProxyType
 from typing import Any
 
 import numpy as np
+import pandas as pd
 from numpy.typing import ArrayLike, NDArray
 
 from audit.errors import ConfigProblems
@@ -182,15 +183,16 @@ def node_boundaries(
     >>> codes.tolist(), levels.tolist(), unknown
     ([0, 2, -1], [nan, 2.5, nan], ())
     """
-    ids = np.asarray(node_ids, dtype=object).astype(str)
     codes = np.where(outfall, np.int8(settings.outfall.kind), np.int8(-1)).astype(np.int8)
     levels = np.where(outfall & (settings.outfall.kind == BoundaryKind.FIXED), settings.outfall.level, np.nan)
-    named = np.array(list(settings.outfalls), dtype=object).astype(str)
-    found = np.isin(named, ids)
-    if found.any():
-        by_id = np.argsort(ids, kind="stable")  # the first node of a repeated id
-        rows = by_id[np.searchsorted(ids[by_id], named[found])]
-        entries = [settings.outfalls[name] for name in named[found]]  # a loop over the config's entries
-        codes[rows] = [int(entry.kind) for entry in entries]
-        levels[rows] = [entry.level if entry.kind == BoundaryKind.FIXED else np.nan for entry in entries]
-    return codes, levels, tuple(str(name) for name in named[~found])
+    if not settings.outfalls:  # nothing named: no need to look at a million ids
+        return codes, levels, ()
+    ids = pd.Series(np.asarray(node_ids, dtype=object)).astype(str)
+    named = ids[ids.isin(list(settings.outfalls))]  # one hash lookup per node against the few names
+    first = named[~named.duplicated()]  # the first node of a repeated id
+    for row, name in zip(first.index, first, strict=True):  # a loop over the config's entries
+        entry = settings.outfalls[name]
+        codes[row] = int(entry.kind)
+        levels[row] = entry.level if entry.kind == BoundaryKind.FIXED else np.nan
+    found = set(first)
+    return codes, levels, tuple(name for name in settings.outfalls if name not in found)
