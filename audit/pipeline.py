@@ -456,12 +456,17 @@ def _result(ready: Prepared, flows: DesignFlows, computed: pd.DataFrame, *, grad
         missing_fields=layers.missing_fields,
         inputs=inputs,
         config_path=config.source,
-        canonical_pipes=pd.DataFrame(layers.pipes.canonical.drop(columns="geometry")),
-        canonical_manholes=None if layers.manholes is None else pd.DataFrame(layers.manholes.canonical.drop(columns="geometry")),
+        canonical_pipes=_attributes(layers.pipes.canonical),
+        canonical_manholes=None if layers.manholes is None else _attributes(layers.manholes.canonical),
         schemes=schemes,
         computed=computed,
         units=config.output_units,
     )
+
+
+def _attributes(canonical: gpd.GeoDataFrame) -> pd.DataFrame:
+    """The canonical columns but the geometry, as they are (no copy of a million rows)."""
+    return pd.DataFrame({name: canonical[name] for name in canonical.columns if name != "geometry"}, index=canonical.index, copy=False)
 
 
 def _programme(ready: Prepared, flows: DesignFlows, computed: pd.DataFrame, hydraulics: PipeHydraulics, *, grade: GradeLine,
@@ -491,10 +496,9 @@ def _programme(ready: Prepared, flows: DesignFlows, computed: pd.DataFrame, hydr
 
 def _programme_columns(programme: Programme) -> dict[str, object]:
     """The programme's pipe columns of ``PIPE_COLUMNS`` (its ``rank`` as ``renewal_rank``)."""
-    columns = programme.columns()
-    text = {name: _as_column(pa.array(columns[name].astype(object).tolist(), type=pa.string()))
+    text = {name: _as_column(pa.array(getattr(programme, name), type=pa.string()))
             for name in ("remedy", "remedy_kind", "scheme_id", "likelihood_driver", "consequence_driver", "risk_driver")}  # fmt: skip
-    numbers = {name: columns[name].to_numpy() for name in ("remedy_size_m", "remedy_slope", "scheme_position", "likelihood", "consequence", "risk", "review")}
+    numbers = {name: getattr(programme, name) for name in ("remedy_size_m", "remedy_slope", "scheme_position", "likelihood", "consequence", "risk", "review")}
     return {**text, **numbers, "renewal_rank": programme.rank}
 
 

@@ -62,10 +62,6 @@ class Programme(Scores):
     rank: NDArray[np.intp]
     schemes: pd.DataFrame
 
-    def columns(self) -> pd.DataFrame:
-        """The per-pipe columns as one frame, in the order of ``PROGRAMME_COLUMNS``."""
-        return pd.DataFrame({name: getattr(self, name) for name in PROGRAMME_COLUMNS})
-
 
 def finding_masks(findings: FindingLog, pipe_ids: NDArray[np.object_], codes: Iterable[str]) -> dict[str, Mask]:
     """Per finding code, the pipes with a finding of that code (matched by the finding's feature id).
