@@ -33,6 +33,7 @@ def with_flag_columns(frame: gpd.GeoDataFrame, flags_field: str | None, codes: S
     names = {code: (COMPUTED_PREFIX if f"{FLAG_PREFIX}{code}".casefold() in taken else "") + f"{FLAG_PREFIX}{code}" for code in codes}
     geometry = frame.geometry.name
     columns = {names[code]: carries[combination, place] if len(frame) else np.zeros(0, dtype=bool) for place, code in enumerate(codes)}
-    fields = frame.drop(columns=geometry)
-    out = pd.concat([fields, pd.DataFrame(columns, index=frame.index), frame[[geometry]]], axis=1)
-    return gpd.GeoDataFrame(out, geometry=geometry, crs=frame.crs), names
+    fields = {name: frame[name] for name in frame.columns if name != geometry}
+    # the columns side by side as they are: no copy of a million-row layer to add a few yes/no columns
+    out = gpd.GeoDataFrame({**fields, **columns, geometry: frame[geometry]}, geometry=geometry, crs=frame.crs, copy=False)
+    return out, names
