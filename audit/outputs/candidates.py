@@ -71,7 +71,7 @@ def rank_candidates(pipes: pd.DataFrame, *, include_low: bool = False) -> pd.Dat
     picked = pipes[list(dict.fromkeys(used))].iloc[rows].assign(action=action)  # convert the candidates only, not every pipe
     table = pd.DataFrame({name: _output_column(picked, name) for name in CANDIDATE_COLUMNS[1:]})
     table.insert(0, "rank", np.arange(1, len(rows) + 1))
-    return table.round(dict(DECIMALS))
+    return table
 
 
 def candidate_rows(pipes: pd.DataFrame, *, include_low: bool = False) -> tuple[np.ndarray, np.ndarray]:
@@ -107,11 +107,12 @@ def _programme_rows(pipes: pd.DataFrame) -> tuple[np.ndarray, np.ndarray]:
     survey, and a GIS filter on ``renewal_rank`` must give the same list as this file.
     """
     rank = pd.to_numeric(pipes["renewal_rank"], errors="coerce").fillna(0).to_numpy(dtype=np.int64)
-    kind = pipes["remedy_kind"].astype(object).where(pipes["remedy_kind"].notna(), "").astype(str).to_numpy(dtype=object)
     chosen = np.flatnonzero(rank > 0)
     chosen = chosen[np.argsort(rank[chosen], kind="stable")]
     review = pd.to_numeric(pipes["review"], errors="coerce").fillna(0).to_numpy(dtype=bool)[chosen] if "review" in pipes else np.zeros(chosen.size, bool)
-    action = pd.Series(kind[chosen], dtype=object).map(ACTION_OF_REMEDY).fillna("see remedy").to_numpy(dtype=object)
+    kind, kinds = pd.factorize(pipes["remedy_kind"].iloc[chosen])  # the few remedy kinds mapped once each; none is -1
+    actions = np.array([*(ACTION_OF_REMEDY.get(str(name), "see remedy") for name in kinds), "see remedy"], dtype=object)
+    action = actions[kind]
     action[review] = ACTION_OF_REMEDY["verify"]
     return chosen, action
 
@@ -213,7 +214,7 @@ def _column(pipes: pd.DataFrame, name: str) -> np.ndarray:
     if name == "pipe_id":
         return _pipe_ids(pipes)
     if name == "diameter_mm":
-        return _size_mm(pipes)
+        return np.round(_size_mm(pipes), DECIMALS[name])
     if name in DECIMALS:
-        return _number(pipes, name)
+        return np.round(_number(pipes, name), DECIMALS[name])
     return _text(pipes, name)

@@ -70,8 +70,8 @@ def build_summary(result: AuditResult, *, pipes: pd.DataFrame, findings: pd.Data
 def manhole_flag_counts(result: AuditResult) -> dict[str, dict[str, Any]]:
     """Per manhole flag code not switched off: its severity and the number of manholes that carry it."""
     flags = result.manholes["flags"] if result.manholes is not None and "flags" in result.manholes else pd.Series([], dtype=object)
-    codes = flags.fillna("").astype(str).str.split(";").explode()
-    return {code: {"severity": result.rules.severity[code], "manholes": int((codes == code).sum())}
+    counts = code_totals(flags, np.zeros(len(flags)))["pipes"]  # split once per distinct flag set
+    return {code: {"severity": result.rules.severity[code], "manholes": int(counts.get(code, 0))}
             for code in MANHOLE_FLAG_CODES if result.rules.severity[code] != SEVERITY_OFF}  # fmt: skip
 
 
