@@ -19,6 +19,7 @@ References
 from __future__ import annotations
 
 import numpy as np
+import pandas as pd
 from numpy.typing import ArrayLike, NDArray
 
 from audit.hydraulics import PipeSections, section_names
@@ -73,7 +74,8 @@ def report_curves(shape: ArrayLike, height: ArrayLike, width: ArrayLike, *, poin
     with np.errstate(invalid="ignore", divide="ignore"):
         ratio = np.asarray(width, dtype=float) / np.asarray(height, dtype=float)
     curves = {}
-    for name in sorted({str(value) for value in names if isinstance(value, str) and value in section_names()}):
+    present = pd.unique(pd.Series(names, dtype=object))  # the few distinct shapes, by one hash
+    for name in sorted({str(value) for value in present if isinstance(value, str) and value in section_names()}):
         fixed = FIXED_WIDTH_RATIO.get(name)
         usable = ratio[(names == name) & np.isfinite(ratio) & (ratio > 0)]
         if fixed is None and usable.size == 0:

@@ -12,7 +12,7 @@ from dataclasses import replace
 import pandas as pd
 
 from audit.report.html import cell, paragraph, plural, table
-from audit.report.long_section import downstream_path, downstream_walk, long_section, next_pipes, section_data
+from audit.report.long_section import Steps, downstream_path, downstream_walk, long_section, next_pipes, section_data
 from audit.result import AuditResult
 from audit.units import UnitSystem
 
@@ -25,16 +25,15 @@ def node_levels(result: AuditResult) -> pd.DataFrame | None:
     manholes = result.manholes
     if manholes is None or "flood_state" not in manholes.columns or result.canonical_manholes is None:
         return None
-    ids = result.canonical_manholes["manhole_id"].astype(str).to_numpy()
+    ids = pd.Index(result.canonical_manholes["manhole_id"].astype(str))
     names = {"rim_m": "rim", "water_level_m": "level", "freeboard_m": "freeboard", "flood_depth_m": "flood_depth"}
     frame = pd.DataFrame({short: pd.to_numeric(manholes[name], errors="coerce").to_numpy(dtype=float) for name, short in names.items()}, index=ids)
-    frame["state"] = manholes["flood_state"].astype(str).to_numpy()
+    frame["state"] = manholes["flood_state"].astype(str).to_numpy(dtype=object)
     return frame[~frame.index.duplicated()]
 
 
-def flooding_section(result: AuditResult, pipes: pd.DataFrame) -> str:
-    """Counts per flood state, the flooding manholes and the long section from the worst of them."""
-    nodes = node_levels(result)
+def flooding_section(result: AuditResult, pipes: pd.DataFrame, nodes: pd.DataFrame | None) -> str:
+    """Counts per flood state, the flooding manholes and the long section from the worst of them (``nodes``: :func:`node_levels`)."""
     if nodes is None:
         return paragraph("No manhole layer: the grade line runs through the pipes, but no cover level tells where the water would come out.")
     units = result.units
@@ -65,7 +64,7 @@ def _settings_words(result: AuditResult) -> str:
             f"{settings.get('manhole_loss', 0.15):g} v\u00b2/2g at every manhole ([grade_line], docs/methods.md).")  # fmt: skip
 
 
-def _section_start(flooding: pd.DataFrame, steps: dict[str, tuple[int, str | None]]) -> str:
+def _section_start(flooding: pd.DataFrame, steps: Steps) -> str:
     """The flooding manhole whose path to the outfall passes the most flooding manholes (the deepest first on a tie).
 
     Starting at the top of a run of flooding manholes shows them all in one drawing. The

@@ -15,6 +15,7 @@ from dataclasses import dataclass
 
 import numpy as np
 import pandas as pd
+from numpy.typing import NDArray
 
 from audit.report.charts import Plot
 from audit.report.svg import Array, element, label, line_path_data, svg
@@ -44,44 +45,57 @@ class SectionData:
     node_level: Array
 
 
-def next_pipes(pipes: pd.DataFrame) -> dict[str, tuple[int, str | None]]:
+@dataclass(frozen=True)
+class Steps:
+    """Where a walk downstream goes from each node (by its place in ``names``): the pipe it takes
+    (-1 for none) and the node that pipe flows into (-1 where unknown)."""
+
+    names: pd.Index
+    pipe: NDArray[np.intp]
+    below: NDArray[np.intp]
+
+
+def next_pipes(pipes: pd.DataFrame) -> Steps:
     """For each node, the pipe a walk downstream takes from it (the one with the largest design
-    flow) and the node that pipe flows into (None where unknown).
+    flow) and the node that pipe flows into.
 
-    ``pipes`` needs ``from_node_id``, ``to_node_id`` and ``q_design``. The nodes are hashed to
-    integers once and sorted with the flows; build it once for many walks.
+    ``pipes`` needs ``from_node_id``, ``to_node_id`` and ``q_design``. Both ends are hashed to
+    integers once and sorted with the flows, as arrays (no dictionary of a million nodes); build
+    it once for many walks.
     """
-    codes, names = pd.factorize(pipes["from_node_id"], use_na_sentinel=True)
+    count = len(pipes)
+    codes, names = pd.factorize(pd.concat([pipes["from_node_id"], pipes["to_node_id"]], ignore_index=True), use_na_sentinel=True)
+    up, down = codes[:count], codes[count:]
     flow = np.nan_to_num(pipes["q_design"].to_numpy(dtype=float), nan=-1.0)
-    order = np.lexsort((-flow, codes))  # by node, largest flow first
-    order = order[codes[order] >= 0]  # a pipe with no upstream node starts no walk
+    order = np.lexsort((-flow, up))  # by node, largest flow first
+    order = order[up[order] >= 0]  # a pipe with no upstream node starts no walk
     first = np.ones(order.size, dtype=bool)  # the first pipe of each node (none for no pipe)
-    first[1:] = codes[order][1:] != codes[order][:-1]
+    first[1:] = up[order][1:] != up[order][:-1]
     keep = order[first]
-    below = pipes["to_node_id"].iloc[keep].astype(object)
-    below = below.where(below.notna(), None).tolist()
-    sources = [str(name) for name in np.asarray(names, dtype=object)[codes[keep]]]
-    return dict(zip(sources, zip(keep.tolist(), [None if name is None else str(name) for name in below], strict=True), strict=True))
+    pipe = np.full(len(names), -1, dtype=np.intp)
+    below = np.full(len(names), -1, dtype=np.intp)
+    pipe[up[keep]], below[up[keep]] = keep, down[keep]
+    return Steps(pd.Index(names).astype(str), pipe, below)
 
 
-def downstream_walk(start: str, steps: dict[str, tuple[int, str | None]]) -> list[tuple[int, str | None]]:
+def downstream_walk(start: str, steps: Steps) -> list[tuple[int, str | None]]:
     """The pipes from node ``start`` down to a node no pipe leaves, each with the node it flows into,
     by the ``steps`` of :func:`next_pipes` (at a node with several outgoing pipes, the largest flow).
     Stops at a node already passed (a loop) and after ``MAX_PATH_PIPES`` pipes.
     """
     walk: list[tuple[int, str | None]] = []
-    seen = {start}
-    node: str | None = start
-    while node in steps and len(walk) < MAX_PATH_PIPES:  # one step per pipe of one path
-        pipe, node = steps[node]
-        walk.append((pipe, node))
-        if node is None or node in seen:
+    node = int(steps.names.get_indexer([start])[0])
+    seen = {node}
+    while node >= 0 and steps.pipe[node] >= 0 and len(walk) < MAX_PATH_PIPES:  # one step per pipe of one path
+        pipe, node = int(steps.pipe[node]), int(steps.below[node])
+        walk.append((pipe, None if node < 0 else str(steps.names[node])))
+        if node < 0 or node in seen:
             break
         seen.add(node)
     return walk
 
 
-def downstream_path(start: str, steps: dict[str, tuple[int, str | None]]) -> list[int]:
+def downstream_path(start: str, steps: Steps) -> list[int]:
     """Row positions of the pipes of :func:`downstream_walk` from ``start``."""
     return [pipe for pipe, _ in downstream_walk(start, steps)]
 

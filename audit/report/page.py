@@ -39,7 +39,7 @@ from audit.report.tables import (
     pipe_labels,
     pipes_flags,
     renewal_candidates,
-    texts,
+    text_array,
 )
 from audit.result import AuditResult
 from audit.rules import CLEANSING_WORDS, DiameterTable, RuleSettings, as_table
@@ -110,14 +110,14 @@ def render_page(result: AuditResult, *, id_field: str | None, created: datetime)
     pipes = analysis_frame(result)
     classes = map_classes(pipes)
     totals = flag_totals(pipes, severity=result.rules.severity)
-    ranking, programme = candidate_rows(pipes), programme_of(result)  # each used by two sections: worked out once
+    ranking, programme, nodes = candidate_rows(pipes), programme_of(result), node_levels(result)  # each used by two sections: worked out once
     body = "".join(
         (
             element("section", element("h2", "Caution") + paragraph(CAUTION_WORDS), id="caution", class_="caution"),
-            section("summary", "Summary", paragraph(_summary_words(result, pipes, actions=ranking[1]), class_="summary")),
+            section("summary", "Summary", paragraph(_summary_words(result, pipes, actions=ranking[1], nodes=nodes), class_="summary")),
             section("totals", "Network totals", _totals(result.totals, result.units)),
             section("map", "Map of the network by worst flag", _map(result, pipes, classes, totals, programme=programme)),
-            section("flooding", "Water levels and flooding", flooding_section(result, pipes)),
+            section("flooding", "Water levels and flooding", flooding_section(result, pipes, nodes)),
             section("flags", "Flags: pipes and length", _flags(totals, len(pipes), result.units)),
             section("part-full", "Load ratio against depth ratio", _part_full(pipes, classes, result.canonical_pipes)),
             section("velocity", "Velocity at design flow", _velocity(pipes, result.rules, result.units)),
@@ -157,10 +157,11 @@ def _title_block(result: AuditResult, *, created: datetime) -> str:
     return element("div", element("dl", items), class_="title-block")
 
 
-def _summary_words(result: AuditResult, pipes: pd.DataFrame, *, actions: np.ndarray) -> str:
-    """One paragraph for a manager: the length of pipe per worst severity and what to do first (``actions``: of candidates.csv's rows)."""
+def _summary_words(result: AuditResult, pipes: pd.DataFrame, *, actions: np.ndarray, nodes: pd.DataFrame | None) -> str:
+    """One paragraph for a manager: the length of pipe per worst severity and what to do first (``actions``: of candidates.csv's
+    rows), and how many manholes flood (``nodes``: :func:`node_levels`)."""
     length = numeric(pipes, "length_m")
-    severity = texts(pipes, "severity").to_numpy(dtype=object)
+    severity = text_array(pipes, "severity")
     total, unit = _long(float(np.nansum(length)), result.units)
     parts = []
     for word in ("high", "medium", "low"):
@@ -181,12 +182,11 @@ def _summary_words(result: AuditResult, pipes: pd.DataFrame, *, actions: np.ndar
         + f"{plural(renew, 'pipe')} {'is a candidate' if renew == 1 else 'are candidates'} for renewal or relief{in_schemes}, {inspect:,} to inspect, "
         + f"{verify:,} {'needs its' if verify == 1 else 'need their'} data verified first and {other:,} {'has' if other == 1 else 'have'} a lesser "
         + f"measure; the hydraulics of {plural(unevaluated, 'pipe')} could not run for want of data."
-        + _flooding_words(result)
+        + _flooding_words(nodes)
     )
 
 
-def _flooding_words(result: AuditResult) -> str:
-    nodes = node_levels(result)
+def _flooding_words(nodes: pd.DataFrame | None) -> str:
     if nodes is None:
         return ""
     flooding = int((nodes["state"] == "flooding").sum())
@@ -282,7 +282,7 @@ def _outfall_marks(result: AuditResult, pipes: pd.DataFrame, geometry: np.ndarra
     last = shapely.get_point(ends[lines], -1)
     xy[lines, 0], xy[lines, 1] = shapely.get_x(last), shapely.get_y(last)
     if result.manholes is not None and result.canonical_manholes is not None:
-        row = _first_places(result.canonical_manholes["manhole_id"].astype(str).to_numpy(dtype=object), largest)
+        row = _first_places(result.canonical_manholes["manhole_id"].astype(str), largest)
         known = row >= 0
         if known.any():
             points, _ = metric_geometry(result.manholes.iloc[row[known]], working_crs=result.settings.get("working_crs"))
@@ -292,13 +292,18 @@ def _outfall_marks(result: AuditResult, pipes: pd.DataFrame, geometry: np.ndarra
     return (MapMarks(xy, OUTFALL_COLOUR, "outfall", labels=tuple(str(name) for name in largest), radius_px=5.0),)
 
 
-def _first_places(values: np.ndarray, wanted: pd.Index) -> np.ndarray:
-    """The position of the first of ``values`` equal to each of ``wanted``; -1 where none is (one hash lookup)."""
-    index = pd.Index(values)
-    first = np.flatnonzero(~index.duplicated())
-    found = index[first].get_indexer(wanted)
-    places = np.full(found.size, -1, dtype=np.intp)
-    places[found >= 0] = first[found[found >= 0]]
+def _first_places(values: pd.Series | np.ndarray, wanted: pd.Index) -> np.ndarray:
+    """The position of the first of ``values`` equal to each of ``wanted``; -1 where none is.
+
+    One hash lookup of every value among the few wanted, then the first of each among those found.
+    """
+    values = pd.Series(values)
+    hit = np.flatnonzero(values.isin(wanted).to_numpy())
+    found = pd.Index(values.iloc[hit].to_numpy(dtype=object))
+    first = ~found.duplicated()
+    at = found[first].get_indexer(wanted)
+    places = np.full(at.size, -1, dtype=np.intp)
+    places[at >= 0] = hit[first][at[at >= 0]]
     return places
 
 
@@ -308,13 +313,13 @@ def _flooding_marks(result: AuditResult) -> tuple[MapMarks, ...]:
     manholes = result.manholes
     if manholes is None or "flood_state" not in manholes.columns or result.canonical_manholes is None:
         return ()
-    chosen = np.flatnonzero(manholes["flood_state"].astype(str).to_numpy() == "flooding")
+    chosen = np.flatnonzero((manholes["flood_state"].astype(str) == "flooding").to_numpy(dtype=bool))
     if not chosen.size:
         return ()
     depth = pd.to_numeric(manholes["flood_depth_m"].iloc[chosen], errors="coerce").fillna(0.0).to_numpy(dtype=float)
     chosen = chosen[np.argsort(-depth, kind="stable")][:FLOODING_DRAWN]
     points, _ = metric_geometry(manholes.iloc[chosen], working_crs=result.settings.get("working_crs"))
-    ids = result.canonical_manholes["manhole_id"].astype(str).to_numpy()[chosen[:FLOODING_LABELLED]]
+    ids = result.canonical_manholes["manhole_id"].astype(str).iloc[chosen[:FLOODING_LABELLED]].to_numpy(dtype=object)
     return (MapMarks(anchor_points(points), FLOOD_COLOUR, "flooding", labels=tuple(ids)),)
 
 

@@ -17,7 +17,7 @@ from audit.renewal import Programme
 from audit.report.html import cell, paragraph, section, table
 from audit.report.map import anchor_points
 from audit.report.svg import element, label, rect, svg
-from audit.report.tables import texts
+from audit.report.tables import text_array, texts
 from audit.result import AuditResult
 from audit.units import UnitSystem
 
@@ -149,19 +149,23 @@ def _summary(programme: Programme) -> str:
 
 
 def programme_of(result: AuditResult) -> Programme | None:
-    """The renewal programme as the audit's pipe columns and schemes hold it; None for a result without one."""
+    """The renewal programme as the audit's pipe columns and schemes hold it; None for a result without one.
+
+    Its ``remedy`` holds the text only for the pipes the section lists (``PIPE_ROWS``), "" for the others.
+    """
     pipes = result.pipe_results
     if "renewal_rank" not in pipes.columns or result.schemes is None:
         return None
 
     def text(name: str) -> NDArray[np.object_]:
-        return texts(pipes, name).to_numpy(dtype=object)
+        return text_array(pipes, name)
 
     def number(name: str) -> NDArray[np.float64]:
         return pd.to_numeric(pipes[name], errors="coerce").to_numpy(dtype=float)
 
-    return Programme(
-        remedy=text("remedy"), remedy_kind=text("remedy_kind"), remedy_size_m=number("remedy_size_m"), remedy_slope=number("remedy_slope"),
+    programme = Programme(
+        remedy=np.full(len(pipes), "", dtype=object), remedy_kind=text("remedy_kind"), remedy_size_m=number("remedy_size_m"),
+        remedy_slope=number("remedy_slope"),
         scheme_id=text("scheme_id"), scheme_position=np.nan_to_num(number("scheme_position")).astype(np.intp), likelihood=number("likelihood"),
         consequence=number("consequence"), risk=number("risk"), likelihood_driver=text("likelihood_driver"),
         consequence_driver=text("consequence_driver"), risk_driver=text("risk_driver"),
@@ -169,6 +173,10 @@ def programme_of(result: AuditResult) -> Programme | None:
         review=np.nan_to_num(number("review")) > 0,
         rank=np.nan_to_num(number("renewal_rank")).astype(np.intp), schemes=result.schemes,
     )  # fmt: skip
+    # a remedy is a long text of its own per pipe: made into strings only for the pipes the report lists
+    listed = _top_pipes(programme, PIPE_ROWS)
+    programme.remedy[listed] = texts(pipes.iloc[listed], "remedy").to_numpy(dtype=object)
+    return programme
 
 
 def programme_section(programme: Programme, *, pipe_ids: NDArray[np.object_], units: UnitSystem) -> str:

@@ -15,6 +15,7 @@ from collections.abc import Mapping
 
 import numpy as np
 import pandas as pd
+from numpy.typing import NDArray
 
 from audit.errors import InputError
 from audit.outputs import candidate_rows, code_totals
@@ -59,6 +60,13 @@ def texts(pipes: pd.DataFrame, name: str) -> pd.Series:
     return column.astype(object).where(column.notna(), "").astype(str)
 
 
+def text_array(pipes: pd.DataFrame, name: str) -> NDArray[np.object_]:
+    """A column as an object array of strings, "" where empty; each distinct text made into a
+    Python string once (a million rows of a few words cost one hash, not a million strings)."""
+    codes, distinct = pd.factorize(texts(pipes, name))
+    return np.asarray(distinct, dtype=object)[codes] if len(distinct) else np.full(len(codes), "", dtype=object)
+
+
 def evaluated(pipes: pd.DataFrame) -> np.ndarray:
     """True where the pipe's hydraulics ran (its status is one of ``EVALUATED_STATUSES``)."""
     return texts(pipes, "hydraulic_status").isin(EVALUATED_STATUSES).to_numpy()
@@ -66,7 +74,7 @@ def evaluated(pipes: pd.DataFrame) -> np.ndarray:
 
 def map_classes(pipes: pd.DataFrame) -> np.ndarray:
     """The map class of every pipe (see the module docstring), as strings."""
-    severity = texts(pipes, "severity").to_numpy(dtype=object)
+    severity = text_array(pipes, "severity")
     urgent = np.isin(severity, ("high", "medium"))
     return np.select(
         [urgent, ~evaluated(pipes), severity == "low"], [severity, "not_evaluated", "low"], "none"
@@ -75,8 +83,7 @@ def map_classes(pipes: pd.DataFrame) -> np.ndarray:
 
 def pipes_flags(pipes: pd.DataFrame) -> np.ndarray:
     """The set of flag codes of every pipe (an object array of frozensets), from the ``flags`` text."""
-    text = texts(pipes, "flags").to_numpy(dtype=object)
-    distinct, which = np.unique(text, return_inverse=True)  # a handful of distinct flag sets
+    which, distinct = pd.factorize(texts(pipes, "flags"))  # a handful of distinct flag sets, by one hash
     sets = np.empty(distinct.size, dtype=object)
     sets[:] = [frozenset(code for code in str(words).split(";") if code) for words in distinct]
     return sets[which.ravel()]
