@@ -15,7 +15,7 @@ import pytest
 import shapely
 from _small_town import write_town
 
-import audit.outputs.writing
+import audit.outputs.geopackage
 import audit.pipeline
 from audit import cli
 from audit.errors import InputError
@@ -47,7 +47,7 @@ def test_a_full_disk_is_said_as_such_and_leaves_no_output(
     def full(*args: object, **kwargs: object) -> None:
         raise failure
 
-    monkeypatch.setattr(audit.outputs.writing, "_write_geopackage", full)
+    monkeypatch.setattr(audit.outputs.geopackage, "write_layer", full)
     free = shutil.disk_usage(tmp_path)
     # SQLite names a full disk only by what failed next, so the free space is asked: here, none
     monkeypatch.setattr(shutil, "disk_usage", lambda path: free._replace(free=4096))
@@ -68,7 +68,7 @@ def test_a_write_error_on_a_roomy_disk_gives_the_library_s_first_line_only(
     def locked(*args: object, **kwargs: object) -> None:
         raise pyogrio.errors.DataSourceError(statement + "\nsecond line")
 
-    monkeypatch.setattr(audit.outputs.writing, "_write_geopackage", locked)
+    monkeypatch.setattr(audit.outputs.geopackage, "write_layer", locked)
     assert cli.main(["run", str(config), "-o", str(tmp_path / "out"), "-q"]) == cli.EXIT_BAD_INPUT
     message = capsys.readouterr().err
     assert message.startswith(f"sewer-audit: {tmp_path / 'out'}: cannot write the outputs: sqlite3_exec(CREATE TABLE pipes (")

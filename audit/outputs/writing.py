@@ -35,7 +35,6 @@ from pathlib import Path
 import geopandas as gpd
 import numpy as np
 import pandas as pd
-import pyarrow as pa
 import pyogrio
 import pyogrio.errors
 import shapely
@@ -46,6 +45,7 @@ from audit.outputs.candidates import rank_candidates, write_candidates
 from audit.outputs.descriptions import FLAG_PREFIX, layer_texts, write_caution, write_descriptions
 from audit.outputs.flag_columns import with_flag_columns
 from audit.outputs.folder import problem, staged_folder
+from audit.outputs.geopackage import Layer, LayerWriteError, LayerWriter
 from audit.outputs.schemes import write_schemes
 from audit.outputs.styles import finding_style, manhole_style, pipe_style, write_styles
 from audit.outputs.summary import (
@@ -64,11 +64,8 @@ __all__ = ["CAUTION", "OUTPUT_FILES", "print_summary_table", "rank_candidates", 
 OUTPUT_FILES: Mapping[str, str] = {"geopackage": "audit.gpkg", "summary": "summary.json", "candidates": "candidates.csv", "schemes": "schemes.csv"}
 
 CANONICAL_FOR_CANDIDATES = ("pipe_id", "shape", "diameter", "height", "install_year", "material")
-_ID_NAMES = ("fid", "gpkg_fid", "feature_fid")
-_GEOMETRY_NAMES = ("geom", "geometry", "feature_geom")
-_ARROW_ERRORS = (pa.ArrowException, TypeError)
 _WRITE_ERRORS = (OSError, sqlite3.Error, pyogrio.errors.DataSourceError, pyogrio.errors.DataLayerError,
-                 pyogrio.errors.FieldError, pyogrio.errors.GeometryError)  # fmt: skip
+                 pyogrio.errors.FieldError, pyogrio.errors.GeometryError, LayerWriteError)  # fmt: skip
 
 
 def write_outputs(
@@ -116,18 +113,21 @@ def write_outputs(
     with tqdm(total=steps, desc="writing outputs", unit="part", file=sys.stderr, disable=not progress) as bar, \
             staged_folder(outdir, overwrite=overwrite, keep=inputs, names=[*OUTPUT_FILES.values(), *(name for name, _ in later.values())]) as stage:  # fmt: skip
         try:
-            _write_geopackage(stage / OUTPUT_FILES["geopackage"], pipes=pipes, manholes=manholes, findings=findings, step=bar.update)
-            _describe_geopackage(stage / OUTPUT_FILES["geopackage"], pipes=pipes, manholes=manholes, texts=texts, units=result.units)
-            summary = build_summary(result, pipes=result.pipe_results, findings=findings, created=created)
-            write_summary(summary, stage / OUTPUT_FILES["summary"])
-            bar.update()
-            write_candidates(rank_candidates(_with_canonical(result), include_low=include_low), stage / OUTPUT_FILES["candidates"],
-                             units=result.units)  # fmt: skip
-            write_schemes(result.schemes if result.schemes is not None else pd.DataFrame(), stage / OUTPUT_FILES["schemes"], units=result.units)
-            bar.update()
-            for role, (_, write) in later.items():
-                written[role] = write(stage)
+            layers = [Layer("pipes", pipes), *([Layer("manholes", manholes)] if manholes is not None else []), Layer("findings", findings, "Point")]
+            # the GeoPackage is written by a second process while this one writes the other files
+            with LayerWriter(stage / OUTPUT_FILES["geopackage"], layers, scratch=stage):
+                summary = build_summary(result, pipes=result.pipe_results, findings=findings, created=created)
+                write_summary(summary, stage / OUTPUT_FILES["summary"])
                 bar.update()
+                write_candidates(rank_candidates(_with_canonical(result), include_low=include_low), stage / OUTPUT_FILES["candidates"],
+                                 units=result.units)  # fmt: skip
+                write_schemes(result.schemes if result.schemes is not None else pd.DataFrame(), stage / OUTPUT_FILES["schemes"], units=result.units)
+                bar.update()
+                for role, (_, write) in later.items():
+                    written[role] = write(stage)
+                    bar.update()
+            bar.update(len(layers))
+            _describe_geopackage(stage / OUTPUT_FILES["geopackage"], pipes=pipes, manholes=manholes, texts=texts, units=result.units)
         except _WRITE_ERRORS as error:
             raise AuditError(f"{outdir}: cannot write the outputs: {problem(error, stage)}") from error
     return {**targets, **{role: outdir / path.name for role, path in written.items()}}
@@ -170,9 +170,9 @@ def _with_canonical(result: AuditResult) -> pd.DataFrame:
     if result.canonical_pipes is None:
         return result.pipe_results
     wanted = [name for name in CANONICAL_FOR_CANDIDATES if name in result.canonical_pipes.columns]
-    canonical = result.canonical_pipes[wanted].reset_index(drop=True)
-    computed = pd.DataFrame(result.pipe_results.drop(columns=wanted, errors="ignore")).reset_index(drop=True)
-    return pd.concat([computed, canonical], axis=1)
+    pipes = result.pipe_results
+    columns = {**{name: pipes[name].array for name in pipes.columns if name not in wanted}, **{name: result.canonical_pipes[name].array for name in wanted}}
+    return pd.DataFrame(columns, copy=False)  # the columns side by side, not copied
 
 
 def _optional(path: Path | None) -> tuple[Path, ...]:
@@ -291,16 +291,6 @@ def _point_geometry(findings: gpd.GeoDataFrame) -> gpd.GeoDataFrame:
     return findings.set_geometry(gpd.GeoSeries(cleaned, index=findings.index, crs=findings.crs))
 
 
-def _write_geopackage(path: Path, *, pipes: gpd.GeoDataFrame, manholes: gpd.GeoDataFrame | None,
-                      findings: gpd.GeoDataFrame, step: Callable[[], object]) -> None:  # fmt: skip
-    path.unlink(missing_ok=True)  # GDAL creates the file itself
-    layers = {"pipes": (pipes, None), "manholes": (manholes, None), "findings": (findings, "Point")}
-    for layer, (frame, geometry_type) in layers.items():
-        if frame is not None:
-            _write_layer(frame, path, layer=layer, geometry_type=geometry_type)
-            step()
-
-
 def _describe_geopackage(path: Path, *, pipes: gpd.GeoDataFrame, manholes: gpd.GeoDataFrame | None,
                          texts: Mapping[str, Mapping[str, tuple[str, str]]], units: UnitSystem) -> None:  # fmt: skip
     """The default style of each layer (``layer_styles``), what each computed field means (``gpkg_data_columns``) and the
@@ -311,26 +301,3 @@ def _describe_geopackage(path: Path, *, pipes: gpd.GeoDataFrame, manholes: gpd.G
         write_descriptions(connection, texts)
         write_caution(connection, CAUTION, ["pipes", "findings"] if manholes is None else ["pipes", "manholes", "findings"])
     connection.close()
-
-
-def _write_layer(frame: gpd.GeoDataFrame, path: Path, *, layer: str, geometry_type: str | None) -> None:
-    """Write one layer by pyogrio: through Arrow where the columns convert, else feature by feature."""
-    fields = [str(name) for name in frame.columns if name != frame.geometry.name]
-    options = {"FID": _free_name(_ID_NAMES, fields), "GEOMETRY_NAME": _free_name(_GEOMETRY_NAMES, fields)}
-    try:
-        pyogrio.write_dataframe(frame, path, layer=layer, driver="GPKG", use_arrow=True,
-                                layer_options=options, geometry_type=geometry_type)  # fmt: skip
-    except _ARROW_ERRORS:
-        pyogrio.write_dataframe(frame, path, layer=layer, driver="GPKG", use_arrow=False,
-                                layer_options={**options, "OVERWRITE": "YES"}, geometry_type=geometry_type)  # fmt: skip
-
-
-def _free_name(candidates: tuple[str, ...], fields: list[str]) -> str:
-    """The first candidate that no field uses, ignoring case."""
-    used = {name.casefold() for name in fields}
-    free = [name for name in candidates if name not in used]
-    suffix = 2
-    while not free:
-        free = [f"{candidates[0]}_{suffix}"] if f"{candidates[0]}_{suffix}" not in used else []
-        suffix += 1
-    return free[0]

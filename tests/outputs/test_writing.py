@@ -15,6 +15,7 @@ import shapely
 from audit.about import CAUTION
 from audit.errors import AuditError, OutputExistsError
 from audit.outputs import print_summary_table, rank_candidates, write_outputs
+from audit.outputs import geopackage
 from audit.outputs import writing as outputs
 from audit.result import COLUMN_UNITS, FINDING_COLUMNS, PIPE_COLUMNS, AuditResult, output_name
 from audit.rules import FLAG_CODES, RuleSettings
@@ -201,18 +202,42 @@ def test_an_output_folder_that_is_a_file_is_refused(tmp_path: Path) -> None:
         _written(tmp_path)
 
 
-def test_a_failure_midway_leaves_no_file_and_keeps_the_old_ones(tmp_path: Path, monkeypatch: pytest.MonkeyPatch) -> None:
+def test_a_failure_in_the_writing_process_leaves_no_file_and_keeps_the_old_ones(tmp_path: Path, monkeypatch: pytest.MonkeyPatch) -> None:
     out = tmp_path / "out"
     out.mkdir()
     (out / "audit.gpkg").write_bytes(b"good old file")
-    real = outputs._write_layer
+    real = geopackage.arrow_layer
+
+    def no_such_type_for_manholes(frame: gpd.GeoDataFrame, *, geometry_type: str | None) -> tuple[object, str, str | None]:
+        table, kind, crs = real(frame, geometry_type=geometry_type)
+        return table, ("NoSuchType" if "MH_REF" in frame.columns else kind), crs  # GDAL refuses it, in the second process
+
+    monkeypatch.setattr(geopackage, "SECOND_PROCESS_FROM", 0)  # even these few features
+    monkeypatch.setattr(geopackage, "arrow_layer", no_such_type_for_manholes)
+    with pytest.raises(AuditError, match="cannot write the outputs: .*NoSuchType"):
+        write_outputs(_result(tmp_path), out, overwrite=True)
+    assert _listing(out) == ["audit.gpkg"]
+    assert (out / "audit.gpkg").read_bytes() == b"good old file"
+    assert [path.name for path in tmp_path.iterdir() if path.name.startswith(".out.")] == []  # no staging, no scratch left
+
+
+def test_a_full_disk_midway_in_process_leaves_no_file_and_keeps_the_old_ones(tmp_path: Path, monkeypatch: pytest.MonkeyPatch) -> None:
+    out = tmp_path / "out"
+    out.mkdir()
+    (out / "audit.gpkg").write_bytes(b"good old file")
+    real = geopackage.write_layer
+
+    def cannot_start(*_: object) -> None:
+        raise OSError(11, "Resource temporarily unavailable")  # no second process: the layers are written here
 
     def fail_on_manholes(frame: gpd.GeoDataFrame, path: Path, *, layer: str, geometry_type: str | None) -> None:
         if layer == "manholes":
             raise OSError(28, "No space left on device")
         real(frame, path, layer=layer, geometry_type=geometry_type)
 
-    monkeypatch.setattr(outputs, "_write_layer", fail_on_manholes)
+    monkeypatch.setattr(geopackage, "SECOND_PROCESS_FROM", 0)
+    monkeypatch.setattr(geopackage.LayerWriter, "_start", cannot_start)
+    monkeypatch.setattr(geopackage, "write_layer", fail_on_manholes)
     with pytest.raises(AuditError, match="cannot write the outputs: .*No space left"):
         write_outputs(_result(tmp_path), out, overwrite=True)
     assert _listing(out) == ["audit.gpkg"]

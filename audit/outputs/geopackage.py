@@ -1,0 +1,251 @@
+"""The GeoPackage's layers, written by a second process while this one writes the other files.
+
+GDAL's write of a million features holds Python's interpreter lock from start to end (about
+10 s for the pipes of a million-pipe audit), so no thread can work beside it; a second process
+can, on the machine's second core. :class:`LayerWriter` turns each layer into an Arrow table
+here, as ``pyogrio.write_dataframe`` does (geometry as WKB; the layer's geometry type and CRS;
+text for a column Arrow cannot hold, marked as a date and time where it holds them), saves it as
+an Arrow IPC file in a scratch folder, and starts :mod:`audit.outputs.layer_process`, which hands
+the files to ``pyogrio.write_arrow``. The block inside the writer writes the other files
+meanwhile; leaving it waits for the GeoPackage (tests/outputs/test_geopackage.py checks that the
+file is the one ``write_dataframe`` writes).
+
+Small layers (fewer than ``SECOND_PROCESS_FROM`` features in all) are written in this process,
+one after the other, before the block runs: starting a second Python costs more than their
+write. So are layers with columns Arrow cannot take, and any where the second process cannot
+start.
+"""
+
+from __future__ import annotations
+
+import json
+import os
+import shutil
+import subprocess
+import sys
+import tempfile
+from collections.abc import Sequence
+from dataclasses import dataclass
+from pathlib import Path
+from types import TracebackType
+
+import geopandas as gpd
+import numpy as np
+import pandas as pd
+import pyarrow as pa
+import pyogrio
+import shapely
+
+from audit.outputs import layer_process
+
+ID_NAMES = ("fid", "gpkg_fid", "feature_fid")
+GEOMETRY_NAMES = ("geom", "geometry", "feature_geom")
+ARROW_ERRORS = (pa.ArrowException, TypeError)
+_BATCH_ROWS = 65_536  # rows per record batch of the IPC files
+SECOND_PROCESS_FROM = 100_000
+"""Features, all layers together, from which a second process writes the GeoPackage (about 1 s of GDAL's work)."""
+_MULTI = {"Point": shapely.multipoints, "LineString": shapely.multilinestrings, "Polygon": shapely.multipolygons}
+_DATETIME = {b"GDAL:OGR:type": b"DateTime"}
+
+
+@dataclass(frozen=True)
+class Layer:
+    """One layer of the GeoPackage: its name, features and geometry type (None: as the features have)."""
+
+    name: str
+    frame: gpd.GeoDataFrame
+    geometry_type: str | None = None
+
+
+class LayerWriteError(Exception):
+    """The second process could not write the GeoPackage; the message says why."""
+
+
+def layer_options(frame: gpd.GeoDataFrame) -> dict[str, str]:
+    """The layer's id and geometry column names: the first of each that no field uses, ignoring case."""
+    fields = [str(name) for name in frame.columns if name != frame.geometry.name]
+    return {"FID": free_name(ID_NAMES, fields), "GEOMETRY_NAME": free_name(GEOMETRY_NAMES, fields)}
+
+
+def free_name(candidates: tuple[str, ...], fields: list[str]) -> str:
+    """The first candidate that no field uses, ignoring case; else the first with ``_2``, ``_3``, ..."""
+    used = {name.casefold() for name in fields}
+    free = [name for name in candidates if name not in used]
+    suffix = 2
+    while not free:
+        free = [f"{candidates[0]}_{suffix}"] if f"{candidates[0]}_{suffix}" not in used else []
+        suffix += 1
+    return free[0]
+
+
+def write_layer(frame: gpd.GeoDataFrame, path: Path, *, layer: str, geometry_type: str | None) -> None:
+    """Write one layer in this process by pyogrio: through Arrow where the columns convert, else feature by feature."""
+    options = layer_options(frame)
+    try:
+        pyogrio.write_dataframe(frame, path, layer=layer, driver="GPKG", use_arrow=True, layer_options=options, geometry_type=geometry_type)
+    except ARROW_ERRORS:
+        pyogrio.write_dataframe(frame, path, layer=layer, driver="GPKG", use_arrow=False,
+                                layer_options={**options, "OVERWRITE": "YES"}, geometry_type=geometry_type)  # fmt: skip
+
+
+def arrow_layer(frame: gpd.GeoDataFrame, *, geometry_type: str | None) -> tuple[pa.Table, str, str | None]:
+    """The layer as the Arrow table ``pyogrio.write_dataframe`` would hand to GDAL, its geometry
+    type and its CRS (an EPSG code, else WKT1 as GDAL reads it).
+
+    As pyogrio 0.13 does for a GeoPackage: single geometries mixed with their multi kind are
+    promoted to multi; the type is the one kind present (``Unknown`` for several or none), with
+    `` Z`` where any geometry has heights; object columns of date and time values, and date and
+    time columns in a zone other than UTC, become text marked ``GDAL:OGR:type = DateTime``; other
+    object columns Arrow cannot hold become text; a column of nulls becomes text.
+
+    Raises ``pyarrow.ArrowException`` or ``TypeError`` where a column cannot be converted.
+    """
+    name = frame.geometry.name
+    geometry = frame.geometry
+    inferred, promote = _geometry_type(geometry)
+    values = np.asarray(geometry.values, dtype=object)
+    if promote:
+        kinds = geometry.geom_type.to_numpy(dtype=object)
+        values = values.copy()
+        for single, make in _MULTI.items():
+            chosen = kinds == single
+            if chosen.any():
+                values[chosen] = make(np.atleast_2d(values[chosen]), axis=0)
+    data = pd.DataFrame(frame, copy=False)
+    data[name] = shapely.to_wkb(values)
+    marked = []
+    for column, dtype in data.dtypes.items():
+        if column == name:
+            continue
+        if dtype == "object":
+            kind = pd.api.types.infer_dtype(data[column])
+            if kind == "datetime":
+                data[column] = data[column].astype("string")
+                marked.append(column)
+            elif kind != "string":
+                try:
+                    pa.Schema.from_pandas(data[[column]])
+                except pa.ArrowInvalid:
+                    data[column] = data[column].astype("string")
+        elif isinstance(dtype, pd.DatetimeTZDtype) and str(dtype.tz) != "UTC":
+            data[column] = data[column].astype("string")
+            marked.append(column)
+    table = pa.Table.from_pandas(data, preserve_index=False)
+    for place, field in enumerate(table.schema):
+        if field.name in marked:
+            table = table.set_column(place, field.with_metadata({**(field.metadata or {}), **_DATETIME}), table[place])
+        elif pa.types.is_null(field.type):
+            table = table.set_column(place, field.with_type(pa.string()), table[place].cast(pa.string()))
+        elif pa.types.is_dictionary(field.type) and pa.types.is_null(field.type.value_type):
+            text = pa.dictionary(field.type.index_type, pa.string())
+            table = table.set_column(place, field.with_type(text), table[place].cast(text))
+    where = table.schema.get_field_index(name)
+    if not pa.types.is_binary(table.schema.field(where).type):
+        table = table.set_column(where, table.schema.field(where).with_type(pa.binary()), table[where].cast(pa.binary()))
+    return table, geometry_type or inferred, _crs(geometry)
+
+
+def _geometry_type(geometry: gpd.GeoSeries) -> tuple[str, bool]:
+    """The layer's geometry type as pyogrio infers it for a GeoPackage, and whether singles are promoted to multi."""
+    if not len(geometry):
+        return "Unknown", False
+    present = geometry.notna().to_numpy() & ~geometry.is_empty.to_numpy()
+    has_z = bool(shapely.has_z(np.asarray(geometry.values, dtype=object)[present]).any())
+    kinds = pd.Series(geometry.geom_type.unique()).dropna().tolist()
+    kind, promote = "Unknown", False
+    if len(kinds) == 1:
+        kind = str(kinds[0])
+    elif len(kinds) == 2:
+        for single in _MULTI:
+            if single in kinds and f"Multi{single}" in kinds:
+                kind, promote = f"Multi{single}", True
+    return (f"{kind} Z" if has_z and kind != "Unknown" else kind), promote
+
+
+def _crs(geometry: gpd.GeoSeries) -> str | None:
+    if not geometry.crs:
+        return None
+    code = geometry.crs.to_epsg()
+    return f"EPSG:{code}" if code else str(geometry.crs.to_wkt("WKT1_GDAL"))
+
+
+class LayerWriter:
+    """Write ``layers`` into the GeoPackage ``path`` beside the ``with`` block (see the module docstring).
+
+    ``scratch`` is a folder for the Arrow files (removed when the block ends). Leaving the block
+    normally waits for the GeoPackage and raises :class:`LayerWriteError` (or ``OSError`` with the
+    system's error number) when it could not be written; leaving it by an exception, an
+    interrupt among them, stops the second process first.
+    """
+
+    def __init__(self, path: Path, layers: Sequence[Layer], *, scratch: Path) -> None:
+        self.path, self.layers, self.scratch = Path(path), list(layers), Path(scratch)
+        self._process: subprocess.Popen[bytes] | None = None
+        self._folder: Path | None = None
+
+    def __enter__(self) -> LayerWriter:
+        self.path.unlink(missing_ok=True)  # GDAL creates the file itself
+        prepared = None
+        if sum(len(layer.frame) for layer in self.layers) >= SECOND_PROCESS_FROM:
+            try:
+                prepared = [(layer, *arrow_layer(layer.frame, geometry_type=layer.geometry_type)) for layer in self.layers]
+            except ARROW_ERRORS:
+                prepared = None
+        if prepared is not None:
+            self._folder = Path(tempfile.mkdtemp(prefix="layers-", dir=self.scratch))
+            try:
+                self._process = self._start(prepared, self._folder)
+            except OSError:
+                self._tidy()
+        if self._process is None:
+            for layer in self.layers:
+                write_layer(layer.frame, self.path, layer=layer.name, geometry_type=layer.geometry_type)
+        return self
+
+    def _start(self, prepared: list[tuple[Layer, pa.Table, str, str | None]], folder: Path) -> subprocess.Popen[bytes]:
+        planned = []
+        for place, (layer, table, geometry_type, crs) in enumerate(prepared):
+            arrow = folder / f"{place}.arrow"
+            with pa.OSFile(str(arrow), "wb") as sink, pa.ipc.new_file(sink, table.schema) as writer:
+                writer.write_table(table, max_chunksize=_BATCH_ROWS)
+            planned.append({"name": layer.name, "arrow": str(arrow), "geometry_name": layer.frame.geometry.name, "geometry_type": geometry_type,
+                            "crs": crs, "options": layer_options(layer.frame)})  # fmt: skip
+        plan = folder / "plan.json"
+        plan.write_text(json.dumps({"path": str(self.path), "layers": planned, "error": str(folder / "error.json"), "parent": os.getpid()}), encoding="utf-8")
+        return subprocess.Popen([sys.executable, layer_process.__file__, str(plan)], stdin=subprocess.DEVNULL, stdout=subprocess.DEVNULL,
+                                stderr=subprocess.DEVNULL)  # fmt: skip
+
+    def finish(self) -> None:
+        """Wait for the second process; raise what stopped it from writing the GeoPackage."""
+        if self._process is None:
+            return
+        code = self._process.wait()
+        self._process = None
+        error = self._folder / "error.json" if self._folder is not None else None
+        said = json.loads(error.read_text(encoding="utf-8")) if error is not None and error.exists() else None
+        self._tidy()
+        if code == 0:
+            return
+        if said is None:
+            raise LayerWriteError(f"the process writing {self.path.name} stopped (exit status {code})")
+        if said.get("errno"):
+            raise OSError(said["errno"], said.get("strerror") or said["message"], str(self.path))
+        raise LayerWriteError(said["message"])
+
+    def _stop(self) -> None:
+        if self._process is not None:
+            self._process.kill()
+            self._process.wait()
+            self._process = None
+        self._tidy()
+
+    def _tidy(self) -> None:
+        if self._folder is not None:
+            shutil.rmtree(self._folder, ignore_errors=True)
+            self._folder = None
+
+    def __exit__(self, kind: type[BaseException] | None, error: BaseException | None, trace: TracebackType | None) -> None:
+        if kind is None:
+            self.finish()
+        else:
+            self._stop()

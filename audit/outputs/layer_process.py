@@ -1,0 +1,75 @@
+"""The second process that writes the GeoPackage's layers: ``python layer_process.py <plan.json>``.
+
+The plan (written by :mod:`audit.outputs.geopackage`) names the GeoPackage and, per layer, an
+Arrow IPC file of its features prepared as ``pyogrio.write_dataframe`` prepares them, with the
+layer's name, geometry column and type, CRS and creation options. Each file is read
+memory-mapped and handed to ``pyogrio.write_arrow`` batch by batch, in the plan's order.
+
+The module imports nothing of the audit package (it runs by its path, so starting it costs only
+pyarrow's and pyogrio's imports). It exits 0 when every layer is written; on a failure it writes
+what went wrong as JSON (``errno``, ``strerror``, ``message``) into the plan's ``error`` file and
+exits 2; interrupted, it exits 130. On Linux it dies with the process that started it, so a
+killed run leaves no writer behind.
+"""
+
+from __future__ import annotations
+
+import ctypes
+import json
+import os
+import signal
+import sys
+import warnings
+from pathlib import Path
+from typing import Any
+
+EXIT_FAILED = 2
+EXIT_INTERRUPTED = 130
+_PR_SET_PDEATHSIG = 1  # Linux, include/uapi/linux/prctl.h
+
+
+def _die_with_parent(parent: int) -> None:
+    """Ask Linux to kill this process when its parent ends; elsewhere nothing is done."""
+    if not sys.platform.startswith("linux"):
+        return
+    try:
+        ctypes.CDLL(None, use_errno=True).prctl(_PR_SET_PDEATHSIG, signal.SIGKILL)
+    except (OSError, AttributeError):
+        return
+    if os.getppid() != parent:  # the parent ended before the request took effect
+        os._exit(EXIT_INTERRUPTED)
+
+
+def write_planned_layers(plan: dict[str, Any]) -> None:
+    """Write every layer of ``plan`` into its GeoPackage, one after the other."""
+    import pyarrow as pa
+    import pyogrio
+
+    for layer in plan["layers"]:
+        with pa.memory_map(layer["arrow"]) as source:
+            reader = pa.ipc.open_file(source)
+            batches = (reader.get_batch(place) for place in range(reader.num_record_batches))
+            pyogrio.write_arrow(
+                pa.RecordBatchReader.from_batches(reader.schema, batches), plan["path"], layer=layer["name"], driver="GPKG",
+                geometry_name=layer["geometry_name"], geometry_type=layer["geometry_type"], crs=layer["crs"], layer_options=layer["options"],
+            )  # fmt: skip
+
+
+def main(argv: list[str]) -> int:
+    """Run the plan whose path is ``argv[0]``; return the exit code."""
+    plan = json.loads(Path(argv[0]).read_text(encoding="utf-8"))
+    _die_with_parent(int(plan["parent"]))
+    warnings.simplefilter("ignore")  # as the command line: GDAL's notices are not the user's concern
+    try:
+        write_planned_layers(plan)
+    except KeyboardInterrupt:
+        return EXIT_INTERRUPTED
+    except Exception as error:  # every failure goes back to the parent as words, never as a traceback
+        said = {"errno": getattr(error, "errno", None), "strerror": getattr(error, "strerror", None), "message": str(error) or type(error).__name__}
+        Path(plan["error"]).write_text(json.dumps(said), encoding="utf-8")
+        return EXIT_FAILED
+    return 0
+
+
+if __name__ == "__main__":
+    sys.exit(main(sys.argv[1:]))
