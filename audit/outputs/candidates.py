@@ -67,11 +67,31 @@ def rank_candidates(pipes: pd.DataFrame, *, include_low: bool = False) -> pd.Dat
     one row per candidate, best first; ``rank`` counts from 1; numbers rounded per ``DECIMALS``
     """
     rows, action = candidate_rows(pipes, include_low=include_low)
+    return _candidate_table(pipes, rows, action, first_rank=1)
+
+
+def _candidate_table(pipes: pd.DataFrame, rows: np.ndarray, action: np.ndarray, *, first_rank: int) -> pd.DataFrame:
+    """The candidates at positions ``rows`` of ``pipes`` as rows of candidates.csv, ranked from ``first_rank``."""
     used = [name for name in (*CANDIDATE_COLUMNS, *_SOURCES) if name in pipes.columns]
     picked = pipes[list(dict.fromkeys(used))].iloc[rows].assign(action=action)  # convert the candidates only, not every pipe
     table = pd.DataFrame({name: _output_column(picked, name) for name in CANDIDATE_COLUMNS[1:]})
-    table.insert(0, "rank", np.arange(1, len(rows) + 1))
+    table.insert(0, "rank", np.arange(first_rank, first_rank + len(rows)))
     return table
+
+
+CHUNK_ROWS = 100_000
+"""Candidates made and written at a time by :func:`write_ranked_candidates` (bounds its memory)."""
+
+
+def write_ranked_candidates(pipes: pd.DataFrame, path: Path, *, include_low: bool = False, units: UnitSystem = SI) -> None:
+    """Rank the candidates among ``pipes`` and write them, ``CHUNK_ROWS`` at a time: the file
+    ``write_candidates(rank_candidates(pipes), path)`` writes, without holding every row at once
+    (a million-pipe programme is a few hundred megabytes of text)."""
+    rows, action = candidate_rows(pipes, include_low=include_low)
+    with pa.OSFile(str(path), "wb") as sink:
+        for start in range(0, max(len(rows), 1), CHUNK_ROWS):  # one pass even without a candidate: the header
+            chunk = slice(start, start + CHUNK_ROWS)
+            _write_rows(_candidate_table(pipes, rows[chunk], action[chunk], first_rank=start + 1), sink, units=units, header=start == 0)
 
 
 def candidate_rows(pipes: pd.DataFrame, *, include_low: bool = False) -> tuple[np.ndarray, np.ndarray]:
@@ -130,6 +150,11 @@ def write_candidates(table: pd.DataFrame, path: Path, *, units: UnitSystem = SI)
     one, ``225.0``, as before; other numbers in their shortest form (``1`` for 1.0). Columns with
     a unit are written in ``units`` and named with it (``v_design_m_s``, ``diameter_in``).
     """
+    with pa.OSFile(str(path), "wb") as sink:
+        _write_rows(table, sink, units=units, header=True)
+
+
+def _write_rows(table: pd.DataFrame, sink: pa.NativeFile, *, units: UnitSystem, header: bool) -> None:
     columns = {}
     for name in table.columns:
         values = table[name]
@@ -140,7 +165,7 @@ def write_candidates(table: pd.DataFrame, path: Path, *, units: UnitSystem = SI)
             continue
         label = f"{_UNITS[name][0]}_{units.suffix(_UNITS[name][1])}" if name in _UNITS else name
         columns[label] = csv_column(values, whole=DECIMALS.get(name) == 0)
-    pacsv.write_csv(pa.table(columns), path, pacsv.WriteOptions(quoting_style="needed"))
+    pacsv.write_csv(pa.table(columns), sink, pacsv.WriteOptions(quoting_style="needed", include_header=header))
 
 
 _US_DECIMALS = {"velocity": 2, "size": 1, "length": 1}

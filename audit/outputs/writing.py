@@ -41,7 +41,7 @@ import shapely
 from tqdm import tqdm
 
 from audit.errors import AuditError, OutputExistsError
-from audit.outputs.candidates import rank_candidates, write_candidates
+from audit.outputs.candidates import rank_candidates, write_ranked_candidates
 from audit.outputs.descriptions import FLAG_PREFIX, layer_texts, write_caution, write_descriptions
 from audit.outputs.flag_columns import with_flag_columns
 from audit.outputs.folder import problem, staged_folder
@@ -119,8 +119,7 @@ def write_outputs(
                 summary = build_summary(result, pipes=result.pipe_results, findings=findings, created=created)
                 write_summary(summary, stage / OUTPUT_FILES["summary"])
                 bar.update()
-                write_candidates(rank_candidates(_with_canonical(result), include_low=include_low), stage / OUTPUT_FILES["candidates"],
-                                 units=result.units)  # fmt: skip
+                write_ranked_candidates(_with_canonical(result), stage / OUTPUT_FILES["candidates"], include_low=include_low, units=result.units)
                 write_schemes(result.schemes if result.schemes is not None else pd.DataFrame(), stage / OUTPUT_FILES["schemes"], units=result.units)
                 bar.update()
                 for role, (_, write) in later.items():

@@ -5,6 +5,7 @@ from pathlib import Path
 
 import numpy as np
 import pandas as pd
+import pytest
 
 from audit.outputs.candidates import write_candidates
 from audit.units import US
@@ -66,3 +67,24 @@ def test_pipes_whose_only_serious_flags_are_grades_come_after_as_levels_to_verif
     # a reverse or zero grade is most often a survey error: verify the levels before renewing
     assert table["pipe_id"].tolist() == ["RS", "S", "R", "Z"]
     assert table["action"].tolist() == ["consider renewal", "consider renewal", "verify levels", "verify levels"]
+
+
+def test_candidates_written_in_pieces_are_the_file_written_at_once(tmp_path: Path, monkeypatch: pytest.MonkeyPatch) -> None:
+    from audit.outputs import candidates
+    from audit.outputs.candidates import rank_candidates, write_ranked_candidates
+
+    pipes = pd.DataFrame({
+        "pipe_id": [f"P{place}" for place in range(7)],
+        "severity": ["high", "medium", "low", "high", "medium", "high", "none"],
+        "flags": ["surcharge", "silting", "long_spacing", "surcharge", "silting", "reverse_grade", ""],
+        "load_ratio": [1.5, 0.2, 0.4, 2.5, np.nan, np.nan, 0.3],
+        "reasons": ["load ratio 1.50 > 1.00", "v 0.20 < 0.75", "", 'a "quoted" reason, with a comma', "", "", ""],
+    })  # fmt: skip
+    write_candidates(rank_candidates(pipes), tmp_path / "whole.csv")
+    monkeypatch.setattr(candidates, "CHUNK_ROWS", 2)  # five candidates: three pieces
+    write_ranked_candidates(pipes, tmp_path / "pieces.csv")
+    assert (tmp_path / "pieces.csv").read_bytes() == (tmp_path / "whole.csv").read_bytes()
+    lines = (tmp_path / "pieces.csv").read_text(encoding="utf-8").splitlines()
+    assert [line.split(",")[0] for line in lines] == ["\"rank\"", "1", "2", "3", "4", "5"]
+    write_ranked_candidates(pipes.iloc[6:], tmp_path / "none.csv")  # no candidate: the header alone
+    assert (tmp_path / "none.csv").read_text(encoding="utf-8").splitlines() == lines[:1]

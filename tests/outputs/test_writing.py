@@ -14,8 +14,7 @@ import shapely
 
 from audit.about import CAUTION
 from audit.errors import AuditError, OutputExistsError
-from audit.outputs import print_summary_table, rank_candidates, write_outputs
-from audit.outputs import geopackage
+from audit.outputs import geopackage, print_summary_table, rank_candidates, write_outputs
 from audit.outputs import writing as outputs
 from audit.result import COLUMN_UNITS, FINDING_COLUMNS, PIPE_COLUMNS, AuditResult, output_name
 from audit.rules import FLAG_CODES, RuleSettings
@@ -248,7 +247,7 @@ def test_a_failure_in_the_last_file_replaces_nothing(tmp_path: Path, monkeypatch
     def fail(*_: object, **__: object) -> None:
         raise OSError(5, "Input/output error")
 
-    monkeypatch.setattr(outputs, "write_candidates", fail)
+    monkeypatch.setattr(outputs, "write_ranked_candidates", fail)
     with pytest.raises(AuditError, match="Input/output error"):
         _written(tmp_path)
     assert not (tmp_path / "out").exists()  # nothing at all: not even an empty folder
