@@ -49,8 +49,8 @@ def test_the_benchmark_prints_a_row_per_size_and_a_column_per_stage(bench: Modul
     assert bench.main(["--sizes", "1500", "2500"]) == 0
     lines = capsys.readouterr().out.strip().splitlines()
     head = [cell.strip() for cell in lines[0].strip("|").split("|")]
-    assert head[:6] == ["pipes", "floor s", "audit s", "ratio", "floor peak MB", "audit peak MB"]
-    assert head[6:] == [*STAGES, "writing outputs", "other"]
+    assert head[:7] == ["pipes", "floor s", "audit s", "ratio", "floor peak MB", "audit peak MB", "writer peak MB"]
+    assert head[7:] == [*STAGES, "writing outputs", "other"]
     rows = [[cell.strip() for cell in line.strip("|").split("|")] for line in lines[2:]]
     assert [row[0] for row in rows] == ["1,500", "2,500"]
     numbers = np.array([[float(cell) for cell in row[1:]] for row in rows])

@@ -106,9 +106,15 @@ def test_the_layer_geometry_type_is_inferred_as_pyogrio_does() -> None:
 def test_an_interrupted_block_stops_the_second_process(tmp_path: Path, monkeypatch: pytest.MonkeyPatch) -> None:
     monkeypatch.setattr(geopackage, "SECOND_PROCESS_FROM", 0)
     writer = LayerWriter(tmp_path / "out.gpkg", [Layer("findings", _points(), "Point")], scratch=tmp_path)
-    with pytest.raises(KeyboardInterrupt), writer:
-        process = writer._process
-        assert process is not None
-        raise KeyboardInterrupt
-    assert process.returncode is not None  # stopped and waited for: no writer left behind
+    started = []
+
+    def interrupted_while_writing() -> None:
+        with writer:
+            started.append(writer._process)
+            raise KeyboardInterrupt
+
+    with pytest.raises(KeyboardInterrupt):
+        interrupted_while_writing()
+    assert started[0] is not None
+    assert started[0].returncode is not None  # stopped and waited for: no writer left behind
     assert [path.name for path in tmp_path.iterdir() if path.name.startswith("layers-")] == []
