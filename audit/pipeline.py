@@ -139,20 +139,33 @@ def run(config: Config | str | Path, *, progress: bool = False) -> AuditResult:
         _step(bar, 6)
         computed = _computed_columns(ready, flows, state, height=height).assign(v_cleansing=cleansing.velocity, shear_cleansing=cleansing.shear)
         computed = computed.assign(**_grade_line_columns(grade, ready.levels))
-        checks = check_pipes(
-            _metrics(pipes, computed, state, flows, height=height, labels=labels, sections=hydraulics.sections, grade=grade),
-            upstream=network.upstream,
-            downstream=network.downstream,
-            node_access=network.nodes["access"].to_numpy(dtype=bool),
-            settings=ready.config.rules,
-            units=ready.config.output_units,
-        )
+        computed = _checked(ready, computed, _metrics(pipes, computed, state, flows, height=height, labels=labels, sections=hydraulics.sections, grade=grade))
         _step(bar, 7)
-        computed = computed.join(checks[["flags", "severity", "reasons", "access_run_m"]])
-        programme = _programme(ready, flows, computed, hydraulics, grade=grade, labels=labels)
-        computed = computed.assign(**_programme_columns(programme))
+        computed, schemes = _with_programme(ready, flows, computed, hydraulics, grade=grade, labels=labels)
         _step(bar, 8)
-        return _result(ready, flows, computed, grade=grade, schemes=programme.schemes)
+        return _result(ready, flows, computed, grade=grade, schemes=schemes)
+
+
+def _checked(ready: Prepared, computed: pd.DataFrame, metrics: pd.DataFrame) -> pd.DataFrame:
+    """The computed columns with the design rules' flags, severity, reasons and access runs (the rest of the rules' frame is let go here)."""
+    network = ready.network
+    checks = check_pipes(
+        metrics,
+        upstream=network.upstream,
+        downstream=network.downstream,
+        node_access=network.nodes["access"].to_numpy(dtype=bool),
+        settings=ready.config.rules,
+        units=ready.config.output_units,
+    )
+    return computed.join(checks[["flags", "severity", "reasons", "access_run_m"]])
+
+
+def _with_programme(ready: Prepared, flows: DesignFlows, computed: pd.DataFrame, hydraulics: PipeHydraulics, *, grade: GradeLine,
+                    labels: np.ndarray) -> tuple[pd.DataFrame, pd.DataFrame]:  # fmt: skip
+    """The computed columns with the renewal programme's, and its schemes. The programme's own
+    arrays (a million remedies as Python text) end here, once its columns hold them as Arrow text."""
+    programme = _programme(ready, flows, computed, hydraulics, grade=grade, labels=labels)
+    return computed.assign(**_programme_columns(programme)), programme.schemes
 
 
 def _grade_line(ready: Prepared, flow: np.ndarray, hydraulics: PipeHydraulics, *, uniform: FlowState, evaluate: np.ndarray) -> GradeLine:
