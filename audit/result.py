@@ -211,12 +211,16 @@ def with_columns(original: gpd.GeoDataFrame, computed: pd.DataFrame, findings: F
 def finding_codes(findings: FindingLog, layer: str, ids: pd.Series) -> np.ndarray:
     """The codes of the data findings about each feature of ``layer``, joined by ';' in the order found (empty for none).
 
-    Findings name a feature by its id, so features that share an id share their codes.
+    Findings name a feature by its id, so features that share an id share their codes. Only the
+    features a finding names are looked up one by one (a few thousand of a million).
     """
     frame = findings.to_frame()
     about = frame[frame["layer"] == layer].groupby("feature")["code"].agg(lambda codes: ";".join(dict.fromkeys(codes)))
-    codes = ids.astype(str).map(about.astype(object)).astype(object)
-    return codes.where(codes.notna(), "").to_numpy(dtype=object)
+    text = ids.astype(str)
+    out = np.full(len(text), "", dtype=object)
+    named = np.flatnonzero(text.isin(about.index).to_numpy(dtype=bool))
+    out[named] = text.iloc[named].map(about.astype(object)).to_numpy(dtype=object)
+    return out
 
 
 def manhole_output(
