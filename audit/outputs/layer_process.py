@@ -2,8 +2,9 @@
 
 The plan (written by :mod:`audit.outputs.geopackage`) names the GeoPackage and, per layer, an
 Arrow IPC file of its features prepared as ``pyogrio.write_dataframe`` prepares them, with the
-layer's name, geometry column and type, CRS and creation options. Each file is read
-memory-mapped and handed to ``pyogrio.write_arrow`` batch by batch, in the plan's order.
+layer's name, geometry column and type, CRS and creation options. Each file is read and handed
+to ``pyogrio.write_arrow`` one record batch at a time, in the plan's order (not memory-mapped:
+a mapped file's pages stay in the process's memory until the whole layer is written).
 
 The module imports nothing of the audit package (it runs by its path, so starting it costs only
 pyarrow's and pyogrio's imports). It exits 0 when every layer is written; on a failure it writes
@@ -46,7 +47,7 @@ def write_planned_layers(plan: dict[str, Any]) -> None:
     import pyogrio
 
     for layer in plan["layers"]:
-        with pa.memory_map(layer["arrow"]) as source:
+        with pa.OSFile(layer["arrow"]) as source:  # read batch by batch: only the batch GDAL is writing is in memory
             reader = pa.ipc.open_file(source)
             batches = (reader.get_batch(place) for place in range(reader.num_record_batches))
             pyogrio.write_arrow(
