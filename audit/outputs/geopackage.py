@@ -13,7 +13,9 @@ file is the one ``write_dataframe`` writes).
 Small layers (fewer than ``SECOND_PROCESS_FROM`` features in all) are written in this process,
 one after the other, before the block runs: starting a second Python costs more than their
 write. So are layers with columns Arrow cannot take, and any where the second process cannot
-start.
+start; and so is everything where this process is not a plain Python interpreter (the audit
+called from inside a GIS or a frozen application, whose ``sys.executable`` would start the
+application again, not Python).
 """
 
 from __future__ import annotations
@@ -169,6 +171,19 @@ def _crs(geometry: gpd.GeoSeries) -> str | None:
     return f"EPSG:{code}" if code else str(geometry.crs.to_wkt("WKT1_GDAL"))
 
 
+def python_interpreter() -> str | None:
+    """The Python that runs this process, to start the writer with; None where ``sys.executable``
+    is not a Python interpreter (empty, a frozen application, a GIS that embeds Python).
+
+    >>> python_interpreter() is not None  # the tests run in plain Python
+    True
+    """
+    executable = sys.executable
+    if not executable or getattr(sys, "frozen", False):
+        return None
+    return executable if Path(executable).name.lower().startswith("python") else None
+
+
 class LayerWriter:
     """Write ``layers`` into the GeoPackage ``path`` beside the ``with`` block (see the module docstring).
 
@@ -186,7 +201,7 @@ class LayerWriter:
     def __enter__(self) -> LayerWriter:
         self.path.unlink(missing_ok=True)  # GDAL creates the file itself
         prepared = None
-        if sum(len(layer.frame) for layer in self.layers) >= SECOND_PROCESS_FROM:
+        if sum(len(layer.frame) for layer in self.layers) >= SECOND_PROCESS_FROM and python_interpreter() is not None:
             try:
                 prepared = [(layer, *arrow_layer(layer.frame, geometry_type=layer.geometry_type)) for layer in self.layers]
             except ARROW_ERRORS:
@@ -212,8 +227,8 @@ class LayerWriter:
                             "crs": crs, "options": layer_options(layer.frame)})  # fmt: skip
         plan = folder / "plan.json"
         plan.write_text(json.dumps({"path": str(self.path), "layers": planned, "error": str(folder / "error.json"), "parent": os.getpid()}), encoding="utf-8")
-        return subprocess.Popen([sys.executable, layer_process.__file__, str(plan)], stdin=subprocess.DEVNULL, stdout=subprocess.DEVNULL,
-                                stderr=subprocess.DEVNULL)  # fmt: skip
+        return subprocess.Popen([str(python_interpreter()), layer_process.__file__, str(plan)], stdin=subprocess.DEVNULL,
+                                stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL)  # fmt: skip
 
     def finish(self) -> None:
         """Wait for the second process; raise what stopped it from writing the GeoPackage."""

@@ -118,3 +118,14 @@ def test_an_interrupted_block_stops_the_second_process(tmp_path: Path, monkeypat
     assert started[0] is not None
     assert started[0].returncode is not None  # stopped and waited for: no writer left behind
     assert [path.name for path in tmp_path.iterdir() if path.name.startswith("layers-")] == []
+
+
+def test_inside_an_application_that_embeds_python_the_layers_are_written_here(tmp_path: Path, monkeypatch: pytest.MonkeyPatch) -> None:
+    # a GIS's Python console: sys.executable is the GIS itself, which must never be started again
+    monkeypatch.setattr(geopackage, "SECOND_PROCESS_FROM", 0)
+    monkeypatch.setattr(geopackage.sys, "executable", "/opt/some-gis/bin/some-gis")
+    with LayerWriter(tmp_path / "out.gpkg", [Layer("findings", _points(), "Point")], scratch=tmp_path) as writer:
+        assert writer._process is None  # written in this process, before the block
+        assert pyogrio.read_info(tmp_path / "out.gpkg", layer="findings")["features"] == 2
+    monkeypatch.setattr(geopackage.sys, "executable", "")
+    assert geopackage.python_interpreter() is None
