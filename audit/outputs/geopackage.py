@@ -20,9 +20,12 @@ application again, not Python).
 
 from __future__ import annotations
 
+import contextlib
+import errno
 import json
 import os
 import shutil
+import sqlite3
 import subprocess
 import sys
 import tempfile
@@ -30,6 +33,7 @@ from collections.abc import Sequence
 from dataclasses import dataclass
 from pathlib import Path
 from types import TracebackType
+from typing import Any
 
 import geopandas as gpd
 import numpy as np
@@ -39,6 +43,7 @@ import pyogrio
 import shapely
 
 from audit.outputs import layer_process
+from audit.outputs.folder import disk_full
 
 ID_NAMES = ("fid", "gpkg_fid", "feature_fid")
 GEOMETRY_NAMES = ("geom", "geometry", "feature_geom")
@@ -189,8 +194,12 @@ class LayerWriter:
 
     ``scratch`` is a folder for the Arrow files (removed when the block ends). Leaving the block
     normally waits for the GeoPackage and raises :class:`LayerWriteError` (or ``OSError`` with the
-    system's error number) when it could not be written; leaving it by an exception, an
-    interrupt among them, stops the second process first.
+    system's error number, ``ENOSPC`` where the disk filled) when it could not be written;
+    leaving it by an exception, an interrupt among them, or interrupted while it waits, stops
+    the second process first. Where the second process cannot even start its work (it finds no
+    pyarrow or pyogrio), the layers are written in this process when the block ends. Either way
+    the GeoPackage is checked for each layer's spatial index, which GDAL leaves out without a
+    word when the disk fills while it builds it.
     """
 
     def __init__(self, path: Path, layers: Sequence[Layer], *, scratch: Path) -> None:
@@ -200,35 +209,42 @@ class LayerWriter:
 
     def __enter__(self) -> LayerWriter:
         self.path.unlink(missing_ok=True)  # GDAL creates the file itself
-        prepared = None
         if sum(len(layer.frame) for layer in self.layers) >= SECOND_PROCESS_FROM and python_interpreter() is not None:
             try:
-                prepared = [(layer, *arrow_layer(layer.frame, geometry_type=layer.geometry_type)) for layer in self.layers]
-            except ARROW_ERRORS:
-                prepared = None
-        if prepared is not None:
-            self._folder = Path(tempfile.mkdtemp(prefix="layers-", dir=self.scratch))
-            try:
-                self._process = self._start(prepared, self._folder)
-            except OSError:
+                self._process = self._start()
+            except (OSError, *ARROW_ERRORS):  # a column Arrow cannot take or save, or no process: written here instead
                 self._tidy()
+            except BaseException:
+                self._stop()
+                raise
         if self._process is None:
-            for layer in self.layers:
-                write_layer(layer.frame, self.path, layer=layer.name, geometry_type=layer.geometry_type)
+            self._write_here()
         return self
 
-    def _start(self, prepared: list[tuple[Layer, pa.Table, str, str | None]], folder: Path) -> subprocess.Popen[bytes]:
+    def _write_here(self) -> None:
+        self.path.unlink(missing_ok=True)
+        for layer in self.layers:
+            write_layer(layer.frame, self.path, layer=layer.name, geometry_type=layer.geometry_type)
+        check_spatial_indexes(self.path, self.layers)
+
+    def _start(self) -> subprocess.Popen[bytes]:
+        """Save each layer as an Arrow file in a scratch folder and start the second process on them."""
+        self._folder = folder = Path(tempfile.mkdtemp(prefix="layers-", dir=self.scratch))
         planned = []
-        for place, (layer, table, geometry_type, crs) in enumerate(prepared):
+        for place, layer in enumerate(self.layers):
+            table, geometry_type, crs = arrow_layer(layer.frame, geometry_type=layer.geometry_type)
             arrow = folder / f"{place}.arrow"
             with pa.OSFile(str(arrow), "wb") as sink, pa.ipc.new_file(sink, table.schema) as writer:
                 writer.write_table(table, max_chunksize=_BATCH_ROWS)
+            del table  # one layer's table at a time
             planned.append({"name": layer.name, "arrow": str(arrow), "geometry_name": layer.frame.geometry.name, "geometry_type": geometry_type,
                             "crs": crs, "options": layer_options(layer.frame)})  # fmt: skip
         plan = folder / "plan.json"
         plan.write_text(json.dumps({"path": str(self.path), "layers": planned, "error": str(folder / "error.json"), "parent": os.getpid()}), encoding="utf-8")
+        # the same import path as this process, whatever put pyarrow and pyogrio on it
+        environment = {**os.environ, "PYTHONPATH": os.pathsep.join(entry for entry in sys.path if entry)}
         return subprocess.Popen([str(python_interpreter()), layer_process.__file__, str(plan)], stdin=subprocess.DEVNULL,
-                                stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL)  # fmt: skip
+                                stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL, env=environment)  # fmt: skip
 
     def finish(self) -> None:
         """Wait for the second process; raise what stopped it from writing the GeoPackage."""
@@ -236,16 +252,33 @@ class LayerWriter:
             return
         code = self._process.wait()
         self._process = None
-        error = self._folder / "error.json" if self._folder is not None else None
-        said = json.loads(error.read_text(encoding="utf-8")) if error is not None and error.exists() else None
+        said = self._said()
+        # whether the disk is full is judged before the Arrow files are removed, which frees space
+        full = code != 0 and disk_full(LayerWriteError(said.get("message", "")), self.path.parent)
         self._tidy()
-        if code == 0:
+        if code == layer_process.EXIT_CANNOT_START:
+            self._write_here()
             return
-        if said is None:
-            raise LayerWriteError(f"the process writing {self.path.name} stopped (exit status {code})")
+        if code == 0:
+            check_spatial_indexes(self.path, self.layers)
+            return
+        if full:
+            raise OSError(errno.ENOSPC, said.get("strerror") or "No space left on device", str(self.path))
         if said.get("errno"):
             raise OSError(said["errno"], said.get("strerror") or said["message"], str(self.path))
-        raise LayerWriteError(said["message"])
+        if "message" in said:
+            raise LayerWriteError(said["message"])
+        stopped = f"was stopped by signal {-code}" if code < 0 else f"stopped (exit status {code})"
+        raise LayerWriteError(f"the process writing {self.path.name} {stopped}")
+
+    def _said(self) -> dict[str, Any]:
+        """What the second process wrote about its failure; empty where it wrote nothing readable."""
+        error = self._folder / "error.json" if self._folder is not None else None
+        try:
+            said = json.loads(error.read_text(encoding="utf-8")) if error is not None and error.exists() else {}
+        except (OSError, ValueError):
+            return {}
+        return said if isinstance(said, dict) else {}
 
     def _stop(self) -> None:
         if self._process is not None:
@@ -260,7 +293,30 @@ class LayerWriter:
             self._folder = None
 
     def __exit__(self, kind: type[BaseException] | None, error: BaseException | None, trace: TracebackType | None) -> None:
-        if kind is None:
-            self.finish()
-        else:
+        if kind is not None:
             self._stop()
+            return
+        try:
+            self.finish()
+        except BaseException:  # interrupted while waiting, or failed: no writer left behind
+            self._stop()
+            raise
+
+
+def check_spatial_indexes(path: Path, layers: Sequence[Layer]) -> None:
+    """Raise where a layer of the GeoPackage has no spatial index, or GDAL left its scratch file of
+    one beside it: GDAL builds the index after the features and, when the disk fills meanwhile,
+    leaves it out without an error. ``ENOSPC`` where the disk is full, else :class:`LayerWriteError`."""
+    with contextlib.closing(sqlite3.connect(path)) as connection:
+        columns = dict(connection.execute("SELECT table_name, column_name FROM gpkg_geometry_columns").fetchall())
+        tables = {str(name) for (name,) in connection.execute("SELECT name FROM sqlite_master WHERE type = 'table'")}
+    missing = [layer.name for layer in layers if len(layer.frame) and f"rtree_{layer.name}_{columns.get(layer.name)}" not in tables]
+    leftovers = sorted(path.parent.glob(f"{path.name}.tmp_rtree_*"))
+    if not missing and not leftovers:
+        return
+    for leftover in leftovers:
+        leftover.unlink(missing_ok=True)
+    problem = LayerWriteError(f"{path.name}: the spatial index of {', '.join(missing) or 'a layer'} was not written")
+    if disk_full(problem, path.parent):
+        raise OSError(errno.ENOSPC, "No space left on device", str(path))
+    raise problem

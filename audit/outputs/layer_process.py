@@ -9,7 +9,8 @@ a mapped file's pages stay in the process's memory until the whole layer is writ
 The module imports nothing of the audit package (it runs by its path, so starting it costs only
 pyarrow's and pyogrio's imports). It exits 0 when every layer is written; on a failure it writes
 what went wrong as JSON (``errno``, ``strerror``, ``message``) into the plan's ``error`` file and
-exits 2; interrupted, it exits 130. On Linux it dies with the process that started it, so a
+exits 2; without pyarrow or pyogrio it exits 3 before writing anything (the parent then writes
+the layers itself); interrupted, it exits 130. On Linux it dies with the process that started it, so a
 killed run leaves no writer behind.
 """
 
@@ -25,6 +26,7 @@ from pathlib import Path
 from typing import Any
 
 EXIT_FAILED = 2
+EXIT_CANNOT_START = 3  # pyarrow or pyogrio cannot be imported here: the parent writes the layers itself
 EXIT_INTERRUPTED = 130
 _PR_SET_PDEATHSIG = 1  # Linux, include/uapi/linux/prctl.h
 
@@ -61,6 +63,11 @@ def main(argv: list[str]) -> int:
     plan = json.loads(Path(argv[0]).read_text(encoding="utf-8"))
     _die_with_parent(int(plan["parent"]))
     warnings.simplefilter("ignore")  # as the command line: GDAL's notices are not the user's concern
+    try:
+        import pyarrow  # noqa: F401
+        import pyogrio  # noqa: F401
+    except ImportError:
+        return EXIT_CANNOT_START
     try:
         write_planned_layers(plan)
     except KeyboardInterrupt:

@@ -5,20 +5,24 @@ dates and times as objects and in a zone, nullable integers, a column of nulls, 
 gaps); the two files must hold the same tables, column types, geometry types, CRS and values.
 """
 
+import errno
+import shutil
 import sqlite3
+import sys
 from datetime import date, datetime
 from pathlib import Path
 
 import geopandas as gpd
 import numpy as np
 import pandas as pd
+import pyarrow as pa
 import pyogrio
 import pytest
 import shapely
 from pandas.testing import assert_frame_equal
 
 from audit.outputs import geopackage
-from audit.outputs.geopackage import Layer, LayerWriter, arrow_layer
+from audit.outputs.geopackage import Layer, LayerWriteError, LayerWriter, arrow_layer
 
 CRS = "EPSG:27700"
 
@@ -129,3 +133,75 @@ def test_inside_an_application_that_embeds_python_the_layers_are_written_here(tm
         assert pyogrio.read_info(tmp_path / "out.gpkg", layer="findings")["features"] == 2
     monkeypatch.setattr(geopackage.sys, "executable", "")
     assert geopackage.python_interpreter() is None
+
+
+def test_interrupted_while_waiting_the_second_process_is_stopped(tmp_path: Path, monkeypatch: pytest.MonkeyPatch) -> None:
+    monkeypatch.setattr(geopackage, "SECOND_PROCESS_FROM", 0)
+    writer = LayerWriter(tmp_path / "out.gpkg", [Layer("findings", _points(), "Point")], scratch=tmp_path)
+    started = []
+
+    def wait_interrupted() -> None:
+        with writer:
+            process = writer._process
+            assert process is not None
+            started.append(process)
+            real_wait, calls = process.wait, []
+
+            def interrupted_once(timeout: float | None = None) -> int:
+                calls.append(timeout)
+                if len(calls) == 1:
+                    raise KeyboardInterrupt  # Ctrl-C while the block waits for the writer
+                return real_wait(timeout)
+
+            monkeypatch.setattr(process, "wait", interrupted_once)
+
+    with pytest.raises(KeyboardInterrupt):
+        wait_interrupted()
+    assert started[0].returncode is not None  # killed and waited for
+    assert writer._process is None
+    assert [path.name for path in tmp_path.iterdir() if path.name.startswith("layers-")] == []
+
+
+def test_a_full_disk_in_the_second_process_is_said_as_such(tmp_path: Path, monkeypatch: pytest.MonkeyPatch) -> None:
+    # the free space is judged while the Arrow files still take their room, before they are removed
+    monkeypatch.setattr(geopackage, "SECOND_PROCESS_FROM", 0)
+    real = geopackage.arrow_layer
+    monkeypatch.setattr(geopackage, "arrow_layer", lambda frame, *, geometry_type: (real(frame, geometry_type=geometry_type)[0], "NoSuchType", CRS))
+    free = shutil.disk_usage(tmp_path)
+    monkeypatch.setattr(shutil, "disk_usage", lambda path: free._replace(free=4096))
+    with pytest.raises(OSError, match="No space left") as raised, LayerWriter(tmp_path / "out.gpkg", [Layer("findings", _points(), "Point")], scratch=tmp_path):
+        pass
+    assert raised.value.errno == errno.ENOSPC
+
+
+def test_a_second_process_without_pyarrow_leaves_the_layers_to_this_one(tmp_path: Path, monkeypatch: pytest.MonkeyPatch) -> None:
+    # a Python that cannot import the libraries (no site-packages): the writer says so at once and the layers are written here
+    bare = tmp_path / "python-bare"
+    bare.write_text(f'#!/bin/sh\nexec "{sys.executable}" -I -S "$@"\n', encoding="utf-8")
+    bare.chmod(0o755)
+    monkeypatch.setattr(geopackage, "SECOND_PROCESS_FROM", 0)
+    monkeypatch.setattr(geopackage, "python_interpreter", lambda: str(bare))
+    with LayerWriter(tmp_path / "out.gpkg", [Layer("findings", _points(), "Point")], scratch=tmp_path) as writer:
+        assert writer._process is not None
+    assert pyogrio.read_info(tmp_path / "out.gpkg", layer="findings")["features"] == 2
+
+
+def test_a_layer_arrow_cannot_save_is_written_here(tmp_path: Path, monkeypatch: pytest.MonkeyPatch) -> None:
+    def cannot(*_: object, **__: object) -> None:
+        raise pa.ArrowInvalid("Dictionary replacement detected when writing IPC file format")
+
+    monkeypatch.setattr(geopackage, "SECOND_PROCESS_FROM", 0)
+    monkeypatch.setattr(geopackage, "arrow_layer", cannot)
+    with LayerWriter(tmp_path / "out.gpkg", [Layer("findings", _points(), "Point")], scratch=tmp_path) as writer:
+        assert writer._process is None
+    assert pyogrio.read_info(tmp_path / "out.gpkg", layer="findings")["features"] == 2
+    assert [path.name for path in tmp_path.iterdir() if path.name.startswith("layers-")] == []
+
+
+def test_a_layer_left_without_its_spatial_index_is_an_error(tmp_path: Path) -> None:
+    # GDAL leaves the index out, without an error, when the disk fills while it builds it
+    path = tmp_path / "out.gpkg"
+    pyogrio.write_dataframe(_points(), path, layer="findings", driver="GPKG", layer_options={"SPATIAL_INDEX": "NO"})
+    with pytest.raises(LayerWriteError, match="spatial index of findings"):
+        geopackage.check_spatial_indexes(path, [Layer("findings", _points(), "Point")])
+    geopackage.check_spatial_indexes(path, [Layer("findings", _points().iloc[:0], "Point")])  # an empty layer needs none
