@@ -75,6 +75,8 @@ def _candidate_table(pipes: pd.DataFrame, rows: np.ndarray, action: np.ndarray, 
     used = [name for name in (*CANDIDATE_COLUMNS, *_SOURCES) if name in pipes.columns]
     picked = pipes[list(dict.fromkeys(used))].iloc[rows].assign(action=action)  # convert the candidates only, not every pipe
     table = pd.DataFrame({name: _output_column(picked, name) for name in CANDIDATE_COLUMNS[1:]})
+    if "pipe_id" not in pipes.columns:  # named by its row in the layer, as the layers stage names it
+        table["pipe_id"] = ("#" + pd.Index(np.asarray(rows)).astype(str)).to_numpy(dtype=object)
     table.insert(0, "rank", np.arange(first_rank, first_rank + len(rows)))
     return table
 
@@ -88,10 +90,13 @@ def write_ranked_candidates(pipes: pd.DataFrame, path: Path, *, include_low: boo
     ``write_candidates(rank_candidates(pipes), path)`` writes, without holding every row at once
     (a million-pipe programme is a few hundred megabytes of text)."""
     rows, action = candidate_rows(pipes, include_low=include_low)
+    objects = [name for name in CANDIDATE_COLUMNS if name in pipes.columns and pipes[name].dtype == object]
+    mixed = mixed_columns(pipes[objects].iloc[rows])  # judged over all the candidates, not a piece; only columns of Python objects
     with pa.OSFile(str(path), "wb") as sink:
         for start in range(0, max(len(rows), 1), CHUNK_ROWS):  # one pass even without a candidate: the header
             chunk = slice(start, start + CHUNK_ROWS)
-            _write_rows(_candidate_table(pipes, rows[chunk], action[chunk], first_rank=start + 1), sink, units=units, header=start == 0)
+            table = _candidate_table(pipes, rows[chunk], action[chunk], first_rank=start + 1)
+            _write_rows(table, sink, units=units, header=start == 0, mixed=mixed)
 
 
 def candidate_rows(pipes: pd.DataFrame, *, include_low: bool = False) -> tuple[np.ndarray, np.ndarray]:
@@ -151,10 +156,23 @@ def write_candidates(table: pd.DataFrame, path: Path, *, units: UnitSystem = SI)
     a unit are written in ``units`` and named with it (``v_design_m_s``, ``diameter_in``).
     """
     with pa.OSFile(str(path), "wb") as sink:
-        _write_rows(table, sink, units=units, header=True)
+        _write_rows(table, sink, units=units, header=True, mixed=mixed_columns(table))
 
 
-def _write_rows(table: pd.DataFrame, sink: pa.NativeFile, *, units: UnitSystem, header: bool) -> None:
+def mixed_columns(frame: pd.DataFrame) -> frozenset[str]:
+    """The columns of Python objects that Arrow cannot hold as one type (text mixed with numbers): written as text."""
+    mixed = set()
+    for name in frame.columns:
+        if frame[name].dtype == object:
+            try:
+                pa.array(frame[name], from_pandas=True)
+            except (pa.ArrowInvalid, pa.ArrowTypeError):
+                mixed.add(str(name))
+    return frozenset(mixed)
+
+
+def _write_rows(table: pd.DataFrame, sink: pa.NativeFile, *, units: UnitSystem, header: bool, mixed: frozenset[str]) -> None:
+    """``table``'s rows as CSV into ``sink``; the columns ``mixed`` as text whatever a piece holds."""
     columns = {}
     for name in table.columns:
         values = table[name]
@@ -164,7 +182,7 @@ def _write_rows(table: pd.DataFrame, sink: pa.NativeFile, *, units: UnitSystem, 
             columns[f"{base}_{units.suffix(quantity)}"] = csv_column(values, whole=False)
             continue
         label = f"{_UNITS[name][0]}_{units.suffix(_UNITS[name][1])}" if name in _UNITS else name
-        columns[label] = csv_column(values, whole=DECIMALS.get(name) == 0)
+        columns[label] = csv_column(values.astype(str).where(values.notna(), None) if name in mixed else values, whole=DECIMALS.get(name) == 0)
     pacsv.write_csv(pa.table(columns), sink, pacsv.WriteOptions(quoting_style="needed", include_header=header))
 
 
@@ -222,12 +240,6 @@ def _size_mm(pipes: pd.DataFrame) -> np.ndarray:
     return np.where(circular, diameter, height) * 1000.0
 
 
-def _pipe_ids(pipes: pd.DataFrame) -> np.ndarray:
-    if "pipe_id" in pipes.columns:
-        return _text(pipes, "pipe_id")
-    return ("#" + pd.RangeIndex(len(pipes)).astype(str)).to_numpy(dtype=object)
-
-
 def _output_column(pipes: pd.DataFrame, name: str) -> np.ndarray | pd.Series:
     """One output column; a column of strings is taken as it is (no object round trip)."""
     if name in pipes.columns and name not in DECIMALS and isinstance(pipes[name].dtype, pd.StringDtype):
@@ -237,7 +249,7 @@ def _output_column(pipes: pd.DataFrame, name: str) -> np.ndarray | pd.Series:
 
 def _column(pipes: pd.DataFrame, name: str) -> np.ndarray:
     if name == "pipe_id":
-        return _pipe_ids(pipes)
+        return _text(pipes, "pipe_id")  # without the column: filled by the caller from the rows
     if name == "diameter_mm":
         return np.round(_size_mm(pipes), DECIMALS[name])
     if name in DECIMALS:

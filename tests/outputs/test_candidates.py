@@ -88,3 +88,23 @@ def test_candidates_written_in_pieces_are_the_file_written_at_once(tmp_path: Pat
     assert [line.split(",")[0] for line in lines] == ["\"rank\"", "1", "2", "3", "4", "5"]
     write_ranked_candidates(pipes.iloc[6:], tmp_path / "none.csv")  # no candidate: the header alone
     assert (tmp_path / "none.csv").read_text(encoding="utf-8").splitlines() == lines[:1]
+
+
+def test_pieces_keep_the_row_names_and_the_text_of_a_mixed_column(tmp_path: Path, monkeypatch: pytest.MonkeyPatch) -> None:
+    # a frame without pipe ids names each pipe by its row; a column of text and numbers is text in every piece
+    from audit.outputs import candidates
+    from audit.outputs.candidates import rank_candidates, write_ranked_candidates
+
+    pipes = pd.DataFrame({
+        "severity": ["high"] * 6,
+        "flags": ["surcharge"] * 6,
+        "load_ratio": [6.0, 5.0, 4.0, 3.0, 2.0, 1.5],
+        "material": np.array(["clay", "pvc", 7, 8, 9, 10], dtype=object),
+    })  # fmt: skip
+    write_candidates(rank_candidates(pipes), tmp_path / "whole.csv")
+    monkeypatch.setattr(candidates, "CHUNK_ROWS", 2)
+    write_ranked_candidates(pipes, tmp_path / "pieces.csv")
+    assert (tmp_path / "pieces.csv").read_bytes() == (tmp_path / "whole.csv").read_bytes()
+    rows = _rows(tmp_path / "pieces.csv")
+    assert [row["pipe_id"] for row in rows] == ["#0", "#1", "#2", "#3", "#4", "#5"]
+    assert '"7"' in (tmp_path / "pieces.csv").read_text(encoding="utf-8")  # quoted as text, as in the file written at once
