@@ -251,7 +251,7 @@ def manhole_output(
         per_manhole[name] = column if numeric else pd.array(column, dtype="str")
     codes = finding_codes(findings, "manholes", canonical["manhole_id"])
     columns = {"pipes_in": pipes_in, "pipes_out": pipes_out, "flow_out": total, **per_manhole, "findings": codes}
-    computed = pd.DataFrame({name: columns[name] for name in MANHOLE_COLUMNS if name in columns}, index=canonical.index)
+    computed = pd.DataFrame({name: columns[name] for name in MANHOLE_COLUMNS if name in columns}, index=canonical.index, copy=False)
     joined = with_columns(original, computed, findings, layer="manholes")
     return gpd.GeoDataFrame(joined, geometry=original.geometry.name, crs=original.crs)
 

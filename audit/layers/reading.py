@@ -401,7 +401,7 @@ def _read_layer(source: LayerSource, key: str, *, options: InputOptions, finding
     id_column, order = _ORDER[key]
     columns[id_column] = ids
     columns["drawn_length"] = clean.drawn_length
-    canonical = gpd.GeoDataFrame({name: columns[name] for name in order}, geometry=geometry, index=frame.index)
+    canonical = gpd.GeoDataFrame({name: columns[name] for name in order}, geometry=geometry, index=frame.index, copy=False)  # the arrays as made, not copied into blocks
     mapping = {id_column: "id"}
     derived = ("shape", "drawn_length")  # filled whether or not a field is mapped
     absent = tuple(name for name in order if mapping.get(name, name) not in source.fields and name not in derived)

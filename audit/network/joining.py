@@ -91,7 +91,7 @@ def _manhole_nodes(
         table[name] = manholes[name].to_numpy(dtype=float)[keep] if name in manholes else np.nan
     access = manholes["access"].to_numpy(dtype=object)[keep] if "access" in manholes else np.full(keep.sum(), True)
     table["access"] = np.where(pd.isna(access), True, access).astype(bool)
-    nodes = pd.DataFrame(table, index=range(len(rows)))
+    nodes = pd.DataFrame(table, index=range(len(rows)), copy=False)
     return nodes, np.flatnonzero(repeated & keep_first), node_of_code
 
 

@@ -149,6 +149,7 @@ def derive_levels(
             "down_cover": np.where(channel, np.nan, _at(rim, network.downstream) - (down + height)),
         },
         index=pipes.index,
+        copy=False,
     )
     _report(levels, attribute, pipes=pipes, network=network, ratio=length_tolerance_ratio,
             tolerance_m=length_tolerance_m, findings=findings)

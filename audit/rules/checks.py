@@ -435,4 +435,5 @@ def _assemble(
             "access_run_m": run_length,
         },
         index=index,
+        copy=False,
     )
