@@ -263,9 +263,10 @@ def _peak_rss_mb() -> float:
 
 
 class ChildrenPeak:
-    """The largest peak resident memory [MB] of this process's child processes (the GeoPackage writer), read from
-    /proc every 0.1 s while they run; 0 when none ran. (``getrusage`` cannot tell it: a child's figure there counts
-    this whole process as it was when the child was forked, before it started its own program.)"""
+    """The largest peak resident memory [MB] of the GeoPackage writer processes this process starts, read from
+    /proc every 0.1 s while they run (once they run the writer's program); 0 when none ran. (``getrusage`` cannot
+    tell it: a child's figure there counts this whole process as it was when the child was forked, before it
+    started its own program.)"""
 
     def __init__(self) -> None:
         self.peak_mb = 0.0
@@ -285,9 +286,12 @@ class ChildrenPeak:
             for listing in Path("/proc/self/task").glob("*/children"):
                 for pid in listing.read_text(encoding="utf-8").split():
                     try:
+                        started = b"layer_process" in Path(f"/proc/{pid}/cmdline").read_bytes()
                         status = Path(f"/proc/{pid}/status").read_text(encoding="utf-8")
                     except OSError:
                         continue  # it ended meanwhile
+                    if not started:
+                        continue  # forked but not yet the writer: its figure is still this whole process's
                     for line in status.splitlines():
                         if line.startswith("VmHWM:"):
                             self.peak_mb = max(self.peak_mb, int(line.split()[1]) / 1024.0)
