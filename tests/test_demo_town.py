@@ -5,6 +5,7 @@ from pathlib import Path
 import pytest
 
 import audit
+import audit.result
 
 SAMPLE = Path(__file__).resolve().parent.parent / "sample_gis"
 
