@@ -22,7 +22,7 @@ FINDING_CODES: frozenset[str] = frozenset({
     # the network, its lengths and levels
     "unknown_node", "unplaced_pipe", "direction_fallback", "reversed_by_inverts", "self_loop", "cycle",
     "separate_components", "outfall", "dangling_end", "orphan_manhole", "drawn_against_flow", "length_mismatch",
-    "zero_length", "missing_invert",
+    "zero_length", "missing_invert", "invert_below_manhole",
     # design flows
     "flow_split", "loop_flow", "unknown_outlet", "catchment_unplaced", "no_runoff_coefficient", "runoff_out_of_range",
     "tc_not_settled", "catchment_at_outfall",

@@ -67,6 +67,14 @@ def test_every_planted_error_is_reported(demo: audit.result.AuditResult, code: s
     assert FLAG_FOR[code] in flags, (code, ref, flags)
 
 
+def test_the_planted_grade_errors_are_also_found_below_their_manholes(demo: audit.result.AuditResult) -> None:
+    # the reverse grade (P0014) and the flat grade (P0280) were planted by lowering the pipe's upstream
+    # invert, which then lies below the invert of the manhole it leaves: the finding says which level is wrong
+    found = demo.findings[demo.findings["code"] == "invert_below_manhole"]
+    assert sorted(found["feature"]) == ["P0014", "P0280"]
+    assert found["message"].str.contains("upstream invert as recorded").all()
+
+
 @pytest.mark.parametrize("column", ["population_served", "area_served_ha", "tc_min"])
 def test_served_totals_and_tc_never_fall_downstream(demo: audit.result.AuditResult, column: str) -> None:
     pipes = demo.pipe_results.reset_index(drop=True)

@@ -108,7 +108,8 @@ def derive_levels(
         depth are read from it through ``network.nodes.manhole_row``
     length_tolerance_ratio : share of the geometry length the length attribute may differ [-]
     length_tolerance_m : difference that is always tolerated [m]
-    findings : log that receives ``length_mismatch``, ``missing_invert`` and ``zero_length``
+    findings : log that receives ``length_mismatch``, ``missing_invert``, ``zero_length`` and
+        ``invert_below_manhole``
 
     Returns
     -------
@@ -152,7 +153,7 @@ def derive_levels(
         copy=False,
     )
     _report(levels, attribute, pipes=pipes, network=network, ratio=length_tolerance_ratio,
-            tolerance_m=length_tolerance_m, findings=findings)
+            tolerance_m=length_tolerance_m, node_invert=invert, node_rim=rim, findings=findings)
     return levels
 
 
@@ -198,16 +199,21 @@ def _flow_inverts(
 ) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     """Upstream and downstream invert in flow direction and where they came from."""
     turned = network.reversed
-    end_node = np.stack(
-        [np.where(turned, network.downstream, network.upstream), np.where(turned, network.upstream, network.downstream)],
-        axis=1,
-    )
-    levels, from_pipe = digitised_end_levels(pipes, end_node, node_invert, node_rim)
+    levels, from_pipe = digitised_end_levels(pipes, _drawn_end_nodes(network), node_invert, node_rim)
     up = np.where(turned, levels[:, 1], levels[:, 0])
     down = np.where(turned, levels[:, 0], levels[:, 1])
     known = ~(np.isnan(up) | np.isnan(down))
     source = np.where(from_pipe.all(axis=1), "pipe", "manhole")
     return up, down, np.where(known, source, "").astype(object)
+
+
+def _drawn_end_nodes(network: Network) -> np.ndarray:
+    """int64 (n, 2): the node at the first and at the last vertex of each pipe as drawn, -1 where unknown."""
+    turned = network.reversed
+    return np.stack(
+        [np.where(turned, network.downstream, network.upstream), np.where(turned, network.upstream, network.downstream)],
+        axis=1,
+    )
 
 
 def _height(pipes: pd.DataFrame) -> np.ndarray:
@@ -234,9 +240,11 @@ def _report(
     network: Network,
     ratio: float,
     tolerance_m: float,
+    node_invert: np.ndarray,
+    node_rim: np.ndarray,
     findings: FindingLog,
 ) -> None:
-    """``length_mismatch``, ``zero_length`` and ``missing_invert`` findings."""
+    """``length_mismatch``, ``zero_length``, ``missing_invert`` and ``invert_below_manhole`` findings."""
     names = pd.Series(pipe_labels(pipes), dtype=object)
     lines = np.asarray(pipes.geometry.values, dtype=object)
     drawn = levels["geometry_length_m"].to_numpy()
@@ -253,6 +261,42 @@ def _report(
     messages = "pipe " + names[rows].reset_index(drop=True) + ": length is " + _fixed(length[rows]) + " m"
     findings.add_many("pipes", names[rows], "zero_length", messages, **_placed(lines, rows))
     _report_missing(levels, names=names, network=network, lines=lines, findings=findings)
+    _report_below_manholes(pipes, network, node_invert, node_rim, names=names, lines=lines, findings=findings)
+
+
+INVERT_BELOW_TOLERANCE_M = 0.05
+"""How far a pipe's own invert may lie below the invert of the manhole at that end before it is a
+finding [m]: levels typed to the centimetre, and benching, leave a few centimetres either way
+(common practice, no source)."""
+
+
+def _report_below_manholes(
+    pipes: gpd.GeoDataFrame, network: Network, node_invert: np.ndarray, node_rim: np.ndarray, *, names: pd.Series, lines: np.ndarray,
+    findings: FindingLog,
+) -> None:  # fmt: skip
+    """``invert_below_manhole``: a pipe's own invert level (its field, or its depth below the rim)
+    more than ``INVERT_BELOW_TOLERANCE_M`` below the invert of the manhole at that end.
+
+    No pipe can leave or enter a manhole below the manhole's lowest point, so one of the two
+    levels is wrong: often the pipe's, where the same pipe also shows a reverse or flat grade.
+    """
+    end_node = _drawn_end_nodes(network)
+    level, from_pipe = digitised_end_levels(pipes, end_node, np.full(len(node_invert), np.nan), node_rim)
+    manhole = _at(np.asarray(node_invert, dtype=float), end_node)
+    with np.errstate(invalid="ignore"):
+        below = from_pipe & (manhole - level > INVERT_BELOW_TOLERANCE_M)
+    rows, end = np.nonzero(below)
+    if not rows.size:
+        return
+    node_names = network.nodes["node_id"].to_numpy(dtype=object)[end_node[rows, end]]
+    words = np.array(["upstream", "downstream"], dtype=object)[end]  # the pipe's own fields, which follow its drawing
+    messages = (
+        "pipe " + names[rows].reset_index(drop=True) + ": its " + pd.Series(words, dtype=object) + " invert as recorded, "
+        + _fixed(level[rows, end]) + " m, lies " + _fixed(manhole[rows, end] - level[rows, end]) + " m below the invert of manhole '"
+        + pd.Series(node_names, dtype=object).astype(str) + "', " + _fixed(manhole[rows, end])
+        + " m: one of the two levels is wrong"
+    )
+    findings.add_many("pipes", names[rows], "invert_below_manhole", messages, **_placed(lines, rows))
 
 
 def _placed(lines: np.ndarray, rows: np.ndarray) -> dict[str, np.ndarray]:

@@ -93,7 +93,9 @@ def test_cover_to_the_crown(levels_and_log: tuple[pd.DataFrame, FindingLog]) -> 
 def test_findings_name_the_pipe_and_the_numbers(levels_and_log: tuple[pd.DataFrame, FindingLog]) -> None:
     _, log = levels_and_log
     frame = log.to_frame()
-    assert log.codes() == {"length_mismatch": 1, "zero_length": 1, "missing_invert": 1}
+    # P2 leaves manhole C at 9.4 m, 0.1 m below C's invert of 9.5 m: one of the two is wrong
+    assert log.codes() == {"length_mismatch": 1, "zero_length": 1, "missing_invert": 1, "invert_below_manhole": 1}
+    assert frame[frame["code"] == "invert_below_manhole"]["feature"].tolist() == ["P2"]
     mismatch = frame[frame["code"] == "length_mismatch"].iloc[0]
     assert mismatch["feature"] == "P3"
     assert "36.000" in mismatch["message"]
@@ -149,3 +151,25 @@ def test_bad_tolerance_and_foreign_network_are_errors() -> None:
         derive_levels(PIPES, network, MANHOLES, length_tolerance_ratio=-0.1, findings=FindingLog())
     with pytest.raises(InputError, match="pipes layer"):
         derive_levels(PIPES.iloc[:2], network, MANHOLES, findings=FindingLog())
+
+
+def test_a_pipe_invert_below_its_manholes_invert_is_a_finding() -> None:
+    # A -> B -> C; the first pipe's downstream invert lies 0.40 m below B's invert, the second's
+    # upstream invert 0.03 m below it (within the 0.05 m of typing and benching): one finding
+    pipes = gpd.GeoDataFrame(
+        {"pipe_id": ["P1", "P2"], "from_node": ["A", "B"], "to_node": ["B", "C"], "upstream_invert": [10.5, 9.97],
+         "downstream_invert": [9.6, 9.5], "diameter": [0.3, 0.3], "height": [0.3, 0.3], "shape": ["circular", "circular"]},
+        geometry=[LineString([(0, 0), (40, 0)]), LineString([(40, 0), (80, 0)])], crs="EPSG:27700",
+    )  # fmt: skip
+    manholes = gpd.GeoDataFrame(
+        {"manhole_id": ["A", "B", "C"], "rim": [12.0, 12.0, 12.0], "invert": [10.5, 10.0, 9.5]},
+        geometry=[Point(0, 0), Point(40, 0), Point(80, 0)], crs="EPSG:27700",
+    )  # fmt: skip
+    findings = FindingLog()
+    network = build_network(pipes, manholes, findings=findings)
+    derive_levels(pipes, network, manholes, findings=findings)
+    found = findings.to_frame()
+    found = found[found["code"] == "invert_below_manhole"]
+    assert found["feature"].tolist() == ["P1"]
+    assert found["message"].iloc[0] == ("pipe P1: its downstream invert as recorded, 9.600 m, lies 0.400 m below the invert of manhole 'B', "
+                                        "10.000 m: one of the two levels is wrong")
