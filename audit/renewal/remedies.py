@@ -67,7 +67,7 @@ REMEDY_KINDS: tuple[str, ...] = ("verify", "capacity", "downstream", "silting", 
 VERIFY_FLAGS: Mapping[str, str] = {"reverse_grade": "reverse grade", "zero_grade": "zero grade", "missing_data": "missing data",
                                    "diameter_decrease": "smaller than the pipe upstream"}  # fmt: skip
 VERIFY_FINDINGS: Mapping[str, str] = {"length_mismatch": "length mismatch", "zero_length": "zero length", "missing_invert": "missing invert",
-                                      "duplicate_id": "id shared with another pipe"}  # fmt: skip
+                                      "duplicate_id": "id shared with another pipe", "invert_below_manhole": "invert below the manhole's"}  # fmt: skip
 
 #: Flags that call for capacity works when the pipe cannot carry its own flow.
 CAPACITY_FLAGS: tuple[str, ...] = ("surcharge", "backwater_surcharge")
