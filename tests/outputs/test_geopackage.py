@@ -76,6 +76,12 @@ def _schema(path: Path) -> list[tuple[object, ...]]:
     return [*tables, *columns]
 
 
+def _points_writer(tmp_path: Path, monkeypatch: pytest.MonkeyPatch) -> LayerWriter:
+    """A writer of the two points that uses the second process, however few the features."""
+    monkeypatch.setattr(geopackage, "SECOND_PROCESS_FROM", 0)
+    return LayerWriter(tmp_path / "out.gpkg", [Layer("findings", _points(), "Point")], scratch=tmp_path)
+
+
 # GDAL notes, as it reads them back, that a time with a zone offset is stored as text it could parse (both files alike)
 @pytest.mark.filterwarnings("ignore::RuntimeWarning", "ignore::pytest.PytestUnraisableExceptionWarning")
 def test_the_second_process_writes_the_same_geopackage(tmp_path: Path, monkeypatch: pytest.MonkeyPatch) -> None:
@@ -108,8 +114,7 @@ def test_the_layer_geometry_type_is_inferred_as_pyogrio_does() -> None:
 
 
 def test_an_interrupted_block_stops_the_second_process(tmp_path: Path, monkeypatch: pytest.MonkeyPatch) -> None:
-    monkeypatch.setattr(geopackage, "SECOND_PROCESS_FROM", 0)
-    writer = LayerWriter(tmp_path / "out.gpkg", [Layer("findings", _points(), "Point")], scratch=tmp_path)
+    writer = _points_writer(tmp_path, monkeypatch)
     started = []
 
     def interrupted_while_writing() -> None:
@@ -136,8 +141,7 @@ def test_inside_an_application_that_embeds_python_the_layers_are_written_here(tm
 
 
 def test_interrupted_while_waiting_the_second_process_is_stopped(tmp_path: Path, monkeypatch: pytest.MonkeyPatch) -> None:
-    monkeypatch.setattr(geopackage, "SECOND_PROCESS_FROM", 0)
-    writer = LayerWriter(tmp_path / "out.gpkg", [Layer("findings", _points(), "Point")], scratch=tmp_path)
+    writer = _points_writer(tmp_path, monkeypatch)
     started = []
 
     def wait_interrupted() -> None:
