@@ -206,6 +206,7 @@ class LayerWriter:
         self.path, self.layers, self.scratch = Path(path), list(layers), Path(scratch)
         self._process: subprocess.Popen[bytes] | None = None
         self._folder: Path | None = None
+        self.written_here = False  # True once the layers were written in this process (small layers, or a fallback)
 
     def __enter__(self) -> LayerWriter:
         self.path.unlink(missing_ok=True)  # GDAL creates the file itself
@@ -222,6 +223,7 @@ class LayerWriter:
         return self
 
     def _write_here(self) -> None:
+        self.written_here = True
         self.path.unlink(missing_ok=True)
         for layer in self.layers:
             write_layer(layer.frame, self.path, layer=layer.name, geometry_type=layer.geometry_type)
@@ -243,7 +245,8 @@ class LayerWriter:
         plan.write_text(json.dumps({"path": str(self.path), "layers": planned, "error": str(folder / "error.json"), "parent": os.getpid()}), encoding="utf-8")
         # the same import path as this process, whatever put pyarrow and pyogrio on it
         environment = {**os.environ, "PYTHONPATH": os.pathsep.join(entry for entry in sys.path if entry)}
-        return subprocess.Popen([str(python_interpreter()), layer_process.__file__, str(plan)], stdin=subprocess.DEVNULL,
+        # -P: the writer's own folder (audit/outputs, whose module names are common words) is not put on its import path
+        return subprocess.Popen([str(python_interpreter()), "-P", layer_process.__file__, str(plan)], stdin=subprocess.DEVNULL,
                                 stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL, env=environment)  # fmt: skip
 
     def finish(self) -> None:

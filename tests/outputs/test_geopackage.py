@@ -64,6 +64,7 @@ def _both(tmp_path: Path, monkeypatch: pytest.MonkeyPatch, layers: list[Layer]) 
     second = tmp_path / "second.gpkg"
     with LayerWriter(second, layers, scratch=tmp_path) as writer:
         assert writer._process is not None  # the second process is at work while the block runs
+    assert not writer.written_here  # and it, not a fallback here, wrote the file
     assert [path.name for path in tmp_path.iterdir() if path.name.startswith("layers-")] == []  # the Arrow files are gone
     return in_process, second
 
@@ -187,6 +188,7 @@ def test_a_second_process_without_pyarrow_leaves_the_layers_to_this_one(tmp_path
     monkeypatch.setattr(geopackage, "python_interpreter", lambda: str(bare))
     with LayerWriter(tmp_path / "out.gpkg", [Layer("findings", _points(), "Point")], scratch=tmp_path) as writer:
         assert writer._process is not None
+    assert writer.written_here
     assert pyogrio.read_info(tmp_path / "out.gpkg", layer="findings")["features"] == 2
 
 
