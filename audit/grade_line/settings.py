@@ -32,6 +32,7 @@ import pandas as pd
 from numpy.typing import ArrayLike, NDArray
 
 from audit.errors import ConfigProblems
+from audit.network import first_places
 
 
 class BoundaryKind(IntEnum):
@@ -187,12 +188,11 @@ def node_boundaries(
     levels = np.where(outfall & (settings.outfall.kind == BoundaryKind.FIXED), settings.outfall.level, np.nan)
     if not settings.outfalls:  # nothing named: no need to look at a million ids
         return codes, levels, ()
-    ids = pd.Series(np.asarray(node_ids, dtype=object)).astype(str)
-    named = ids[ids.isin(list(settings.outfalls))]  # one hash lookup per node against the few names
-    first = named[~named.duplicated()]  # the first node of a repeated id
-    for row, name in zip(first.index, first, strict=True):  # a loop over the config's entries
-        entry = settings.outfalls[name]
-        codes[row] = int(entry.kind)
-        levels[row] = entry.level if entry.kind == BoundaryKind.FIXED else np.nan
-    found = set(first)
-    return codes, levels, tuple(name for name in settings.outfalls if name not in found)
+    names = pd.Index(list(settings.outfalls))
+    rows = first_places(pd.Series(np.asarray(node_ids, dtype=object)).astype(str), names)  # the first node of a repeated id
+    for row, name in zip(rows, names, strict=True):  # a loop over the config's entries
+        if row >= 0:
+            entry = settings.outfalls[name]
+            codes[row] = int(entry.kind)
+            levels[row] = entry.level if entry.kind == BoundaryKind.FIXED else np.nan
+    return codes, levels, tuple(str(name) for name, row in zip(names, rows, strict=True) if row < 0)

@@ -14,7 +14,7 @@ cover), ``settings`` (``[network]``).
 
 from audit.network.build import build_network
 from audit.network.graph import Network, nodes_upstream
-from audit.network.ids import arrow_text, pipe_labels
+from audit.network.ids import arrow_text, first_places, pipe_labels
 from audit.network.levels import LEVEL_COLUMNS, derive_levels
 from audit.network.settings import DIRECTIONS, NetworkOptions, parse_network
 
@@ -26,6 +26,7 @@ __all__ = [
     "arrow_text",
     "build_network",
     "derive_levels",
+    "first_places",
     "nodes_upstream",
     "parse_network",
     "pipe_labels",

@@ -105,6 +105,26 @@ def first_appearance(codes: np.ndarray) -> np.ndarray:
     return codes > before
 
 
+def first_places(values: pd.Series | np.ndarray, wanted: pd.Index) -> np.ndarray:
+    """The position of the first of ``values`` equal to each of ``wanted``; -1 where none is.
+
+    One hash lookup of every value among the few wanted, then the first of each among those found.
+
+    Examples
+    --------
+    >>> first_places(np.array(["b", "a", "b", "c"], dtype=object), pd.Index(["b", "c", "x", "a"])).tolist()
+    [0, 3, -1, 1]
+    """
+    values = pd.Series(values)
+    hit = np.flatnonzero(values.isin(wanted).to_numpy())
+    found = pd.Index(values.iloc[hit].to_numpy(dtype=object))
+    first = ~found.duplicated()
+    at = found[first].get_indexer(wanted)
+    places = np.full(at.size, -1, dtype=np.intp)
+    places[at >= 0] = hit[first][at[at >= 0]]
+    return places
+
+
 def pipe_labels(pipes: pd.DataFrame) -> np.ndarray:
     """The id that names each pipe in findings: ``pipe_id``, or ``#<row>`` where it is missing.
 

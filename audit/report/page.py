@@ -17,6 +17,7 @@ import pandas as pd
 import shapely
 
 from audit.about import __version__
+from audit.network import first_places
 from audit.outputs import candidate_rows
 from audit.renewal import Programme
 from audit.report.charts import flag_bars, part_full_chart, velocity_histogram
@@ -276,13 +277,13 @@ def _outfall_marks(result: AuditResult, pipes: pd.DataFrame, geometry: np.ndarra
     flow = pd.to_numeric(pipes["q_design"].iloc[into], errors="coerce").fillna(-1.0).to_numpy(dtype=float)
     node = pipes["to_node_id"].iloc[into].astype(str).to_numpy(dtype=object)
     largest = pd.Series(flow).groupby(node).max().sort_values(ascending=False, kind="stable").index[:OUTFALLS_LABELLED]  # several pipes may end at one
-    ends = np.asarray(geometry, dtype=object)[into[_first_places(node, largest)]]
+    ends = np.asarray(geometry, dtype=object)[into[first_places(node, largest)]]
     xy = np.full((len(ends), 2), np.nan)
     lines = shapely.get_type_id(ends) == 1
     last = shapely.get_point(ends[lines], -1)
     xy[lines, 0], xy[lines, 1] = shapely.get_x(last), shapely.get_y(last)
     if result.manholes is not None and result.canonical_manholes is not None:
-        row = _first_places(result.canonical_manholes["manhole_id"].astype(str), largest)
+        row = first_places(result.canonical_manholes["manhole_id"].astype(str), largest)
         known = row >= 0
         if known.any():
             points, _ = metric_geometry(result.manholes.iloc[row[known]], working_crs=result.settings.get("working_crs"))
@@ -290,21 +291,6 @@ def _outfall_marks(result: AuditResult, pipes: pd.DataFrame, geometry: np.ndarra
             found = np.isfinite(at).all(axis=1)
             xy[np.flatnonzero(known)[found]] = at[found]
     return (MapMarks(xy, OUTFALL_COLOUR, "outfall", labels=tuple(str(name) for name in largest), radius_px=5.0),)
-
-
-def _first_places(values: pd.Series | np.ndarray, wanted: pd.Index) -> np.ndarray:
-    """The position of the first of ``values`` equal to each of ``wanted``; -1 where none is.
-
-    One hash lookup of every value among the few wanted, then the first of each among those found.
-    """
-    values = pd.Series(values)
-    hit = np.flatnonzero(values.isin(wanted).to_numpy())
-    found = pd.Index(values.iloc[hit].to_numpy(dtype=object))
-    first = ~found.duplicated()
-    at = found[first].get_indexer(wanted)
-    places = np.full(at.size, -1, dtype=np.intp)
-    places[at >= 0] = hit[first][at[at >= 0]]
-    return places
 
 
 def _flooding_marks(result: AuditResult) -> tuple[MapMarks, ...]:

@@ -16,6 +16,7 @@ from shapely import LineString, Point
 
 from audit.errors import ConfigError, InputError
 from audit.findings import FindingLog
+from audit.network import first_places
 from audit.network.build import Network, build_network
 
 # A Y-shaped tree: A and B drain to C, C drains to the outfall D.
@@ -359,3 +360,9 @@ def test_a_pipe_drawn_against_its_ids_is_reported_and_the_ids_keep_the_direction
     digitised = FindingLog()
     build_network(pipe_layer(Y_PIPES, ids=False), manhole_layer(MANHOLE_XY), findings=digitised)
     assert "drawn_against_flow" not in set(digitised.to_frame()["code"])
+
+
+def test_the_first_place_of_each_wanted_value_or_minus_one() -> None:
+    values = np.array(["b", "a", "b", "c"], dtype=object)
+    assert first_places(values, pd.Index(["b", "c", "x", "a"])).tolist() == [0, 3, -1, 1]
+    assert first_places(np.array([], dtype=object), pd.Index(["b"])).tolist() == [-1]  # no manhole at all (a fuzz case)

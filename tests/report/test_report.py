@@ -22,7 +22,6 @@ import shapely
 from audit.errors import InputError, OutputExistsError
 from audit.pipeline import run
 from audit.report import part_full_curve, render_report, write_report
-from audit.report.page import _first_places
 from audit.result import PIPE_COLUMNS, AuditResult
 from audit.rules import RuleSettings
 
@@ -490,9 +489,3 @@ def test_nested_flow_settings_are_shown_as_dotted_rows(town: AuditResult) -> Non
     assert ">rainfall.a<" in assumptions
     assert ">rainfall.inlet_time_min<" in assumptions
     assert "{&#x27;a&#x27;" not in assumptions
-
-
-def test_the_first_place_of_each_wanted_value_or_minus_one() -> None:
-    values = np.array(["b", "a", "b", "c"], dtype=object)
-    assert _first_places(values, pd.Index(["b", "c", "x", "a"])).tolist() == [0, 3, -1, 1]
-    assert _first_places(np.array([], dtype=object), pd.Index(["b"])).tolist() == [-1]  # no manhole at all (a fuzz case)
