@@ -133,7 +133,9 @@ def derive_levels(
     attribute = _column(pipes, "length")
     length = np.where(np.isnan(attribute), drawn, attribute)
     rim, invert = _node_levels(network, manholes)
-    up, down, source = _flow_inverts(pipes, network, invert, rim)
+    end_node = _drawn_end_nodes(network)
+    ends, from_pipe = digitised_end_levels(pipes, end_node, invert, rim)
+    up, down, source = _flow_inverts(network, ends, from_pipe)
     with np.errstate(divide="ignore", invalid="ignore"):
         slope = np.where(length > 0, (up - down) / length, np.nan)
     height = _height(pipes)
@@ -153,7 +155,8 @@ def derive_levels(
         copy=False,
     )
     _report(levels, attribute, pipes=pipes, network=network, ratio=length_tolerance_ratio,
-            tolerance_m=length_tolerance_m, node_invert=invert, node_rim=rim, findings=findings)
+            tolerance_m=length_tolerance_m, findings=findings)
+    _report_below_manholes(pipes, network, invert, end_node, ends, from_pipe, findings=findings)
     return levels
 
 
@@ -194,12 +197,10 @@ def _node_levels(network: Network, manholes: gpd.GeoDataFrame | None) -> tuple[n
     return nodes["rim"].to_numpy(dtype=float), node_invert_levels(nodes)
 
 
-def _flow_inverts(
-    pipes: pd.DataFrame, network: Network, node_invert: np.ndarray, node_rim: np.ndarray
-) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
-    """Upstream and downstream invert in flow direction and where they came from."""
+def _flow_inverts(network: Network, levels: np.ndarray, from_pipe: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Upstream and downstream invert in flow direction and where they came from, from the levels
+    at the drawn ends (:func:`digitised_end_levels`)."""
     turned = network.reversed
-    levels, from_pipe = digitised_end_levels(pipes, _drawn_end_nodes(network), node_invert, node_rim)
     up = np.where(turned, levels[:, 1], levels[:, 0])
     down = np.where(turned, levels[:, 0], levels[:, 1])
     known = ~(np.isnan(up) | np.isnan(down))
@@ -240,11 +241,9 @@ def _report(
     network: Network,
     ratio: float,
     tolerance_m: float,
-    node_invert: np.ndarray,
-    node_rim: np.ndarray,
     findings: FindingLog,
 ) -> None:
-    """``length_mismatch``, ``zero_length``, ``missing_invert`` and ``invert_below_manhole`` findings."""
+    """``length_mismatch``, ``zero_length`` and ``missing_invert`` findings."""
     names = pd.Series(pipe_labels(pipes), dtype=object)
     lines = np.asarray(pipes.geometry.values, dtype=object)
     drawn = levels["geometry_length_m"].to_numpy()
@@ -261,7 +260,6 @@ def _report(
     messages = "pipe " + names[rows].reset_index(drop=True) + ": length is " + _fixed(length[rows]) + " m"
     findings.add_many("pipes", names[rows], "zero_length", messages, **_placed(lines, rows))
     _report_missing(levels, names=names, network=network, lines=lines, findings=findings)
-    _report_below_manholes(pipes, network, node_invert, node_rim, names=names, lines=lines, findings=findings)
 
 
 INVERT_BELOW_TOLERANCE_M = 0.05
@@ -271,23 +269,23 @@ finding [m]: levels typed to the centimetre, and benching, leave a few centimetr
 
 
 def _report_below_manholes(
-    pipes: gpd.GeoDataFrame, network: Network, node_invert: np.ndarray, node_rim: np.ndarray, *, names: pd.Series, lines: np.ndarray,
+    pipes: gpd.GeoDataFrame, network: Network, node_invert: np.ndarray, end_node: np.ndarray, level: np.ndarray, from_pipe: np.ndarray, *,
     findings: FindingLog,
 ) -> None:  # fmt: skip
-    """``invert_below_manhole``: a pipe's own invert level (its field, or its depth below the rim)
-    more than ``INVERT_BELOW_TOLERANCE_M`` below the invert of the manhole at that end.
+    """``invert_below_manhole``: a pipe's own invert level (its field, or its depth below the rim;
+    ``level`` where ``from_pipe``, at the drawn ends ``end_node``) more than
+    ``INVERT_BELOW_TOLERANCE_M`` below the invert of the manhole at that end.
 
     No pipe can leave or enter a manhole below the manhole's lowest point, so one of the two
     levels is wrong: often the pipe's, where the same pipe also shows a reverse or flat grade.
     """
-    end_node = _drawn_end_nodes(network)
-    level, from_pipe = digitised_end_levels(pipes, end_node, np.full(len(node_invert), np.nan), node_rim)
     manhole = _at(np.asarray(node_invert, dtype=float), end_node)
     with np.errstate(invalid="ignore"):
         below = from_pipe & (manhole - level > INVERT_BELOW_TOLERANCE_M)
     rows, end = np.nonzero(below)
     if not rows.size:
         return
+    names = pd.Series(pipe_labels(pipes), dtype=object)
     node_names = network.nodes["node_id"].to_numpy(dtype=object)[end_node[rows, end]]
     words = np.array(["upstream", "downstream"], dtype=object)[end]  # the pipe's own fields, which follow its drawing
     messages = (
@@ -296,7 +294,7 @@ def _report_below_manholes(
         + pd.Series(node_names, dtype=object).astype(str) + "', " + _fixed(manhole[rows, end])
         + " m: one of the two levels is wrong"
     )
-    findings.add_many("pipes", names[rows], "invert_below_manhole", messages, **_placed(lines, rows))
+    findings.add_many("pipes", names[rows], "invert_below_manhole", messages, **_placed(np.asarray(pipes.geometry.values, dtype=object), rows))
 
 
 def _placed(lines: np.ndarray, rows: np.ndarray) -> dict[str, np.ndarray]:
