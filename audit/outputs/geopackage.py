@@ -45,9 +45,9 @@ import shapely
 from audit.outputs import layer_process
 from audit.outputs.folder import disk_full
 
-ID_NAMES = ("fid", "gpkg_fid", "feature_fid")
-GEOMETRY_NAMES = ("geom", "geometry", "feature_geom")
-ARROW_ERRORS = (pa.ArrowException, TypeError)
+_ID_NAMES = ("fid", "gpkg_fid", "feature_fid")
+_GEOMETRY_NAMES = ("geom", "geometry", "feature_geom")
+_ARROW_ERRORS = (pa.ArrowException, TypeError)
 _BATCH_ROWS = 65_536  # rows per record batch of the IPC files
 SECOND_PROCESS_FROM = 100_000
 """Features, all layers together, from which a second process writes the GeoPackage (about 1 s of GDAL's work)."""
@@ -68,13 +68,13 @@ class LayerWriteError(Exception):
     """The second process could not write the GeoPackage; the message says why."""
 
 
-def layer_options(frame: gpd.GeoDataFrame) -> dict[str, str]:
+def _layer_options(frame: gpd.GeoDataFrame) -> dict[str, str]:
     """The layer's id and geometry column names: the first of each that no field uses, ignoring case."""
     fields = [str(name) for name in frame.columns if name != frame.geometry.name]
-    return {"FID": free_name(ID_NAMES, fields), "GEOMETRY_NAME": free_name(GEOMETRY_NAMES, fields)}
+    return {"FID": _free_name(_ID_NAMES, fields), "GEOMETRY_NAME": _free_name(_GEOMETRY_NAMES, fields)}
 
 
-def free_name(candidates: tuple[str, ...], fields: list[str]) -> str:
+def _free_name(candidates: tuple[str, ...], fields: list[str]) -> str:
     """The first candidate that no field uses, ignoring case; else the first with ``_2``, ``_3``, ..."""
     used = {name.casefold() for name in fields}
     free = [name for name in candidates if name not in used]
@@ -87,10 +87,10 @@ def free_name(candidates: tuple[str, ...], fields: list[str]) -> str:
 
 def write_layer(frame: gpd.GeoDataFrame, path: Path, *, layer: str, geometry_type: str | None) -> None:
     """Write one layer in this process by pyogrio: through Arrow where the columns convert, else feature by feature."""
-    options = layer_options(frame)
+    options = _layer_options(frame)
     try:
         pyogrio.write_dataframe(frame, path, layer=layer, driver="GPKG", use_arrow=True, layer_options=options, geometry_type=geometry_type)
-    except ARROW_ERRORS:
+    except _ARROW_ERRORS:
         pyogrio.write_dataframe(frame, path, layer=layer, driver="GPKG", use_arrow=False,
                                 layer_options={**options, "OVERWRITE": "YES"}, geometry_type=geometry_type)  # fmt: skip
 
@@ -213,7 +213,7 @@ class LayerWriter:
         if sum(len(layer.frame) for layer in self.layers) >= SECOND_PROCESS_FROM and python_interpreter() is not None:
             try:
                 self._process = self._start()
-            except (OSError, *ARROW_ERRORS):  # a column Arrow cannot take or save, or no process: written here instead
+            except (OSError, *_ARROW_ERRORS):  # a column Arrow cannot take or save, or no process: written here instead
                 self._tidy()
             except BaseException:
                 self._stop()
@@ -240,7 +240,7 @@ class LayerWriter:
                 writer.write_table(table, max_chunksize=_BATCH_ROWS)
             del table  # one layer's table at a time
             planned.append({"name": layer.name, "arrow": str(arrow), "geometry_name": layer.frame.geometry.name, "geometry_type": geometry_type,
-                            "crs": crs, "options": layer_options(layer.frame)})  # fmt: skip
+                            "crs": crs, "options": _layer_options(layer.frame)})  # fmt: skip
         plan = folder / "plan.json"
         plan.write_text(json.dumps({"path": str(self.path), "layers": planned, "error": str(folder / "error.json"), "parent": os.getpid()}), encoding="utf-8")
         # the same import path as this process, whatever put pyarrow and pyogrio on it
