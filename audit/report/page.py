@@ -169,11 +169,10 @@ def _summary_words(result: AuditResult, pipes: pd.DataFrame, *, actions: np.ndar
         chosen = severity == word
         amount = _long(float(np.nansum(length[chosen])), result.units)[0] or 0.0
         parts.append(f"{amount:,.2f} {unit} ({plural(int(np.count_nonzero(chosen)), 'pipe')}) of {word} severity")
-    action = actions
-    verify = int(np.count_nonzero(np.isin(action, ("verify data first", "verify levels"))))
-    inspect = int(np.count_nonzero(action == "inspect"))
-    renew = int(np.count_nonzero(np.isin(action, ("consider renewal", "relieve downstream"))))
-    other = action.size - verify - inspect - renew
+    verify = int(np.count_nonzero(np.isin(actions, ("verify data first", "verify levels"))))
+    inspect = int(np.count_nonzero(actions == "inspect"))
+    renew = int(np.count_nonzero(np.isin(actions, ("consider renewal", "relieve downstream"))))
+    other = actions.size - verify - inspect - renew
     schemes = 0 if result.schemes is None else len(result.schemes)
     in_schemes = f" ({plural(schemes, 'scheme')} of work)" if schemes else ""
     unevaluated = int(np.count_nonzero(~evaluated(pipes)))

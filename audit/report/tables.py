@@ -86,7 +86,7 @@ def pipes_flags(pipes: pd.DataFrame) -> np.ndarray:
     which, distinct = pd.factorize(texts(pipes, "flags"))  # a handful of distinct flag sets, by one hash
     sets = np.empty(distinct.size, dtype=object)
     sets[:] = [frozenset(code for code in str(words).split(";") if code) for words in distinct]
-    return sets[which.ravel()]
+    return sets[which]
 
 
 def class_counts(classes: np.ndarray) -> dict[str, int]:
