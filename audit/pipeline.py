@@ -33,6 +33,7 @@ from audit.hydraulics import (
     water_density,
     water_kinematic_viscosity,
 )
+from audit.labels import as_labels
 from audit.layers import Layers, read_layers
 from audit.network import Network, arrow_text, build_network, derive_levels, nodes_upstream, pipe_labels
 from audit.renewal import Programme, cleansing_criterion, read_condition, read_critical_areas, renewal_programme
@@ -157,7 +158,8 @@ def _checked(ready: Prepared, computed: pd.DataFrame, metrics: pd.DataFrame) -> 
         settings=ready.config.rules,
         units=ready.config.output_units,
     )
-    return computed.join(checks[["flags", "severity", "reasons", "access_run_m"]])
+    labels = {name: as_labels(pa.array(checks[name])) for name in ("flags", "severity", "reasons")}
+    return computed.assign(**labels, access_run_m=checks["access_run_m"].to_numpy())
 
 
 def _with_programme(ready: Prepared, flows: DesignFlows, computed: pd.DataFrame, hydraulics: PipeHydraulics, *, grade: GradeLine,
@@ -310,13 +312,13 @@ def _computed_columns(ready: Prepared, flows: DesignFlows, state: FlowState, *, 
         "q_full": state.q_full,
         "v_full": state.v_full,
         "q_design": flows.q_design,
-        "flow_source": _as_column(pa.array(flows.source)),
+        "flow_source": as_labels(pa.array(flows.source)),
         "load_ratio": flows.q_design / state.q_full,
         "depth_ratio": state.depth_ratio,
         "v_design": state.velocity,
         "shear": state.shear,
-        "hydraulic_status": _as_column(_status_labels(state, ready.layers.pipes.canonical["kind"].to_numpy(dtype=object))),
-        "pipe_kind": _as_column(pa.array(ready.layers.pipes.canonical["kind"].to_numpy(dtype=object), type=pa.string())),
+        "hydraulic_status": as_labels(_status_labels(state, ready.layers.pipes.canonical["kind"].to_numpy(dtype=object))),
+        "pipe_kind": as_labels(pa.array(ready.layers.pipes.canonical["kind"].to_numpy(dtype=object), type=pa.string())),
         "from_node_id": _as_column(_node_text(node_ids, network.upstream)),
         "to_node_id": _as_column(_node_text(node_ids, network.downstream)),
         "upstream_length_m": flows.upstream_length,
@@ -339,8 +341,8 @@ def _grade_line_columns(grade: GradeLine, levels: pd.DataFrame) -> dict[str, obj
         "depth_down_m": grade.depth_down,
         "critical_depth_m": grade.critical_depth,
         "froude": grade.froude,
-        "flow_regime": _as_column(pa.array(_REGIME_LABELS[grade.regime].tolist(), type=pa.string())),
-        "full_cause": _as_column(pa.array(_CAUSE_LABELS[grade.full_cause].tolist(), type=pa.string())),
+        "flow_regime": as_labels(pa.array(_REGIME_LABELS[grade.regime].tolist(), type=pa.string())),
+        "full_cause": as_labels(pa.array(_CAUSE_LABELS[grade.full_cause].tolist(), type=pa.string())),
     }
 
 
@@ -450,7 +452,7 @@ def _result(ready: Prepared, flows: DesignFlows, computed: pd.DataFrame, *, grad
     """Put the computed columns beside the original features and gather the totals."""
     layers, config = ready.layers, ready.config
     crs = layers.pipes.original.crs or config.pipes.crs
-    computed = computed.assign(findings=finding_codes(ready.findings, "pipes", layers.pipes.canonical["pipe_id"]))[list(PIPE_COLUMNS)]
+    computed = computed.assign(findings=as_labels(finding_codes(ready.findings, "pipes", layers.pipes.canonical["pipe_id"])))[list(PIPE_COLUMNS)]
     pipes = with_columns(layers.pipes.original, computed, ready.findings, layer="pipes")
     node_columns = _node_columns(ready, grade)
     manholes = manhole_output(layers, ready.network, flows.node_total, ready.findings, node_columns=node_columns) if layers.manholes is not None else None
@@ -494,9 +496,9 @@ def _programme(ready: Prepared, flows: DesignFlows, computed: pd.DataFrame, hydr
     down_rim = np.where(down >= 0, rim[np.maximum(down, 0)], np.nan)
     condition = None if settings.condition is None else read_condition(settings.condition, findings=findings)
     areas = read_critical_areas(settings.critical_areas, crs=layers.crs, findings=findings)
-    status = computed["hydraulic_status"].astype(str).to_numpy()
+    status = computed["hydraulic_status"].to_numpy(dtype=object)  # categories: one Python string per distinct text
     return renewal_programme(
-        pipes=hydraulics, flags=computed["flags"].astype(str).to_numpy(dtype=object), severity=computed["severity"].astype(str).to_numpy(dtype=object),
+        pipes=hydraulics, flags=computed["flags"].to_numpy(dtype=object), severity=computed["severity"].to_numpy(dtype=object),
         q_design=flows.q_design, load_ratio=computed["load_ratio"].to_numpy(dtype=float),
         population_served=computed["population_served"].to_numpy(dtype=float), install_year=pipes["install_year"].to_numpy(dtype=float),
         material=pipes["material"].to_numpy(dtype=object), up_depth_m=up_rim - ready.levels["up_invert"].to_numpy(dtype=float),
@@ -509,7 +511,7 @@ def _programme(ready: Prepared, flows: DesignFlows, computed: pd.DataFrame, hydr
 
 def _programme_columns(programme: Programme) -> dict[str, object]:
     """The programme's pipe columns of ``PIPE_COLUMNS`` (its ``rank`` as ``renewal_rank``)."""
-    text = {name: _as_column(pa.array(getattr(programme, name), type=pa.string()))
+    text = {name: as_labels(getattr(programme, name))
             for name in ("remedy", "remedy_kind", "scheme_id", "likelihood_driver", "consequence_driver", "risk_driver")}  # fmt: skip
     numbers = {name: getattr(programme, name) for name in ("remedy_size_m", "remedy_slope", "scheme_position", "likelihood", "consequence", "risk", "review")}
     return {**text, **numbers, "renewal_rank": programme.rank}

@@ -21,6 +21,7 @@ import pyproj
 import shapely
 
 from audit.findings import FindingLog
+from audit.labels import as_labels
 from audit.layers import Layers
 from audit.network import Network
 from audit.rules import RuleSettings
@@ -248,8 +249,8 @@ def manhole_output(
         numeric = np.issubdtype(np.asarray(values).dtype, np.number)
         column = np.full(count, np.nan) if numeric else np.full(count, "", dtype=object)
         column[row[is_manhole]] = np.asarray(values)[is_manhole]
-        per_manhole[name] = column if numeric else pd.array(column, dtype="str")
-    codes = finding_codes(findings, "manholes", canonical["manhole_id"])
+        per_manhole[name] = column if numeric else as_labels(column)
+    codes = as_labels(finding_codes(findings, "manholes", canonical["manhole_id"]))
     columns = {"pipes_in": pipes_in, "pipes_out": pipes_out, "flow_out": total, **per_manhole, "findings": codes}
     computed = pd.DataFrame({name: columns[name] for name in MANHOLE_COLUMNS if name in columns}, index=canonical.index, copy=False)
     joined = with_columns(original, computed, findings, layer="manholes")
