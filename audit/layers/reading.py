@@ -45,6 +45,7 @@ import shapely
 
 from audit.errors import InputError
 from audit.findings import FindingLog
+from audit.labels import as_labels
 from audit.layers.fields import (
     Quoted,
     Reporter,
@@ -347,19 +348,19 @@ def _access(context: _Context, kind: np.ndarray) -> np.ndarray:
     return ~np.r_[words.isin(ACCESS_NO).to_numpy(dtype=bool), False][which]
 
 
-def _pipe_columns(context: _Context) -> dict[str, np.ndarray | pd.api.extensions.ExtensionArray]:
+def _pipe_columns(context: _Context) -> dict[str, np.ndarray | pd.api.extensions.ExtensionArray | pd.Categorical]:
     numbers = _numbers(context, PIPE_NUMBERS, PIPE_UNITS)
     shape = _shapes(context, numbers)
     circular = shape == "circular"
     fill = np.where(np.isnan(numbers["height"]), numbers["width"], numbers["height"])
     numbers["diameter"] = np.where(circular & np.isnan(numbers["diameter"]), fill, numbers["diameter"])
     texts = _texts(context, ("from_node", "to_node", "material"))
-    return {**texts, "kind": _kinds(context, PIPE_KINDS), "shape": shape, **numbers}
+    return {**texts, "kind": as_labels(_kinds(context, PIPE_KINDS)), "shape": as_labels(shape), **numbers}
 
 
-def _manhole_columns(context: _Context) -> dict[str, np.ndarray]:
+def _manhole_columns(context: _Context) -> dict[str, np.ndarray | pd.Categorical]:
     kind = _kinds(context, NODE_KINDS)
-    return {**_numbers(context, MANHOLE_NUMBERS, MANHOLE_UNITS), "kind": kind, "access": _access(context, kind)}
+    return {**_numbers(context, MANHOLE_NUMBERS, MANHOLE_UNITS), "kind": as_labels(kind), "access": _access(context, kind)}
 
 
 def _catchment_columns(context: _Context) -> dict[str, np.ndarray | pd.api.extensions.ExtensionArray]:
