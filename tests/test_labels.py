@@ -34,7 +34,7 @@ def test_python_text_of_the_labels_shares_one_string_per_category() -> None:
     labels = as_labels(pa.array(["flooding"] * 1000 + ["none"] * 1000))
     back = pd.Series(labels).to_numpy(dtype=object)
     assert len({id(value) for value in back}) == 2
-    assert back[0] == "flooding" and back[-1] == "none"
+    assert (back[0], back[-1]) == ("flooding", "none")
 
 
 def test_all_missing_text_gives_no_category() -> None:
