@@ -10,6 +10,7 @@ whole pixel and scatter marks to a grid of cells, so the page stays bounded by w
 from __future__ import annotations
 
 import html
+import itertools
 
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
@@ -90,6 +91,22 @@ def line_path_data(x: ArrayLike, y: ArrayLike, line: ArrayLike) -> str:
     line = np.asarray(line)
     if line.size == 0:
         return ""
+    x, y = np.asarray(x, dtype=float), np.asarray(y, dtype=float)
+    starts = np.flatnonzero(np.r_[True, line[1:] != line[:-1]])
+    if starts.size <= LINES_AT_ONCE:
+        return "".join(_line_pieces(x, y, line))
+    # a piece of whole lines at a time: what one piece needs in memory is bounded, the text is the same
+    bounds = [*starts[::LINES_AT_ONCE].tolist(), line.size]
+    pieces = [_line_pieces(x[low:high], y[low:high], line[low:high]) for low, high in itertools.pairwise(bounds)]
+    return "".join(drawn for drawn, _ in pieces) + "".join(dots for _, dots in pieces)
+
+
+LINES_AT_ONCE = 65_536
+"""Lines whose path data are made together (a million-pipe map takes a few hundred megabytes at once)."""
+
+
+def _line_pieces(x: Array, y: Array, line: NDArray[np.intp]) -> tuple[str, str]:
+    """The path data of :func:`line_path_data` in two parts: the lines drawn, then the lines drawn as dots."""
     tx, ty = _tenths(x), _tenths(y)
     first = np.r_[True, line[1:] != line[:-1]]
     last = np.r_[line[1:] != line[:-1], True]
@@ -102,7 +119,7 @@ def line_path_data(x: ArrayLike, y: ArrayLike, line: ArrayLike) -> str:
     moved = np.r_[True, (px[1:] != px[:-1]) | (py[1:] != py[:-1])]
     drawn, alone = ~dot & (first | last | moved), dot & first
     lines = _pairs(tx[drawn], ty[drawn], first[drawn])
-    return lines + _pairs(tx[alone], ty[alone], np.ones(int(np.count_nonzero(alone)), dtype=bool), end="h0")
+    return lines, _pairs(tx[alone], ty[alone], np.ones(int(np.count_nonzero(alone)), dtype=bool), end="h0")
 
 
 def dot_path_data(x: ArrayLike, y: ArrayLike, *, cell_px: float = RESOLUTION_PX) -> str:
