@@ -341,8 +341,8 @@ def _part_full(pipes: pd.DataFrame, classes: np.ndarray, canonical: pd.DataFrame
     load, depth = numeric(pipes, "load_ratio"), numeric(pipes, "depth_ratio")
     drawn = np.isfinite(load) & np.isfinite(depth)
     if canonical is not None and {"shape", "height", "width"} <= set(canonical.columns):
-        picked = canonical.iloc[np.flatnonzero(drawn)]
-        curves = report_curves(picked["shape"].to_numpy(dtype=object), picked["height"].to_numpy(dtype=float), picked["width"].to_numpy(dtype=float))
+        rows = np.flatnonzero(drawn)  # the three columns of those rows, not a copy of the whole table
+        curves = report_curves(*(canonical[name].to_numpy(dtype=dtype)[rows] for name, dtype in (("shape", object), ("height", float), ("width", float))))
     else:
         curves = report_curves(["circular"], [1.0], [1.0])
     names = list(curves)
