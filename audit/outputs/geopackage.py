@@ -48,7 +48,7 @@ from audit.outputs.folder import disk_full
 _ID_NAMES = ("fid", "gpkg_fid", "feature_fid")
 _GEOMETRY_NAMES = ("geom", "geometry", "feature_geom")
 _ARROW_ERRORS = (pa.ArrowException, TypeError)
-_BATCH_ROWS = 65_536  # rows per record batch of the IPC files
+_BATCH_ROWS = 16_384  # rows per record batch of the IPC files: the writer holds one batch at a time (65,536 held 60 MB more)
 SECOND_PROCESS_FROM = 100_000
 """Features, all layers together, from which a second process writes the GeoPackage (about 1 s of GDAL's work)."""
 _MULTI = {"Point": shapely.multipoints, "LineString": shapely.multilinestrings, "Polygon": shapely.multipolygons}
