@@ -10,8 +10,8 @@ fields, then measures in fresh subprocesses:
   outside (the pipeline's stage markers and the outputs call are wrapped, not edited).
 
 It prints seconds, the ratio audit / floor, the peak resident memory of each subprocess (and of
-the audit's GeoPackage writer, a process of its own from 100,000 features) and the
-seconds per stage, best of ``--repeat`` runs. It asserts nothing: speed is read, not tested.
+the audit's GeoPackage writer, a process of its own from 100,000 features, and the most the
+audit and its writer held at once, sampled every 0.1 s) and the seconds per stage, best of ``--repeat`` runs. It asserts nothing: speed is read, not tested.
 
     python scripts/bench.py                 # N = 10,000, 100,000 and 1,000,000
     python scripts/bench.py --quick         # the two smaller sizes
@@ -41,6 +41,7 @@ import pyogrio
 import shapely
 
 SIZES = (10_000, 100_000, 1_000_000)
+MEMORY = ("peak_mb", "writer_peak_mb", "together_mb")  # the audit's own peak, its writer's, and the most both held at once
 QUICK_SIZES = (10_000, 100_000)
 SPACING_M = 40.0  # grid spacing between manholes [m]
 CRS = "EPSG:32630"
@@ -256,20 +257,27 @@ def audit_run(config: Path, outdir: Path) -> dict[str, float]:
 
 def _peak_rss_mb() -> float:
     """This process's peak resident memory [MB], from /proc."""
-    for line in Path("/proc/self/status").read_text(encoding="utf-8").splitlines():
-        if line.startswith("VmHWM:"):
+    return _resident_mb(Path("/proc/self/status").read_text(encoding="utf-8"), "VmHWM") or float("nan")
+
+
+def _resident_mb(status: str, field: str) -> float:
+    """A memory figure [MB] of a /proc status text (``VmHWM``, ``VmRSS``); 0 where absent."""
+    for line in status.splitlines():
+        if line.startswith(f"{field}:"):
             return int(line.split()[1]) / 1024.0
-    return float("nan")
+    return 0.0
 
 
 class ChildrenPeak:
     """The largest peak resident memory [MB] of the GeoPackage writer processes this process starts, read from
     /proc every 0.1 s while they run (once they run the writer's program); 0 when none ran. (``getrusage`` cannot
     tell it: a child's figure there counts this whole process as it was when the child was forked, before it
-    started its own program.)"""
+    started its own program.) ``together_mb``: the most this process and its writers held at once, from the
+    same samples (their resident memory summed)."""
 
     def __init__(self) -> None:
         self.peak_mb = 0.0
+        self.together_mb = 0.0
         self._done = threading.Event()
         self._thread = threading.Thread(target=self._watch, daemon=True)
 
@@ -283,6 +291,7 @@ class ChildrenPeak:
 
     def _watch(self) -> None:
         while not self._done.wait(0.1):
+            together = _resident_mb(Path("/proc/self/status").read_text(encoding="utf-8"), "VmRSS")
             for listing in Path("/proc/self/task").glob("*/children"):
                 for pid in listing.read_text(encoding="utf-8").split():
                     try:
@@ -292,9 +301,9 @@ class ChildrenPeak:
                         continue  # it ended meanwhile
                     if not started:
                         continue  # forked but not yet the writer: its figure is still this whole process's
-                    for line in status.splitlines():
-                        if line.startswith("VmHWM:"):
-                            self.peak_mb = max(self.peak_mb, int(line.split()[1]) / 1024.0)
+                    self.peak_mb = max(self.peak_mb, _resident_mb(status, "VmHWM"))
+                    together += _resident_mb(status, "VmRSS")
+            self.together_mb = max(self.together_mb, together)
 
 
 def child(kind: str, config: Path, outdir: Path) -> None:
@@ -302,7 +311,8 @@ def child(kind: str, config: Path, outdir: Path) -> None:
     outdir.mkdir(parents=True, exist_ok=True)
     with ChildrenPeak() as children:
         seconds = floor_run(config, outdir) if kind == "floor" else audit_run(config, outdir)
-    print(json.dumps({**seconds, "peak_mb": _peak_rss_mb(), "writer_peak_mb": children.peak_mb}))
+    own = _peak_rss_mb()
+    print(json.dumps({**seconds, "peak_mb": own, "writer_peak_mb": children.peak_mb, "together_mb": max(own, children.together_mb)}))
 
 
 def measure(kind: str, config: Path, *, repeat: int) -> dict[str, float]:
@@ -317,7 +327,7 @@ def measure(kind: str, config: Path, *, repeat: int) -> dict[str, float]:
         runs.append(json.loads(done.stdout.strip().splitlines()[-1]))
         shutil.rmtree(outdir, ignore_errors=True)
     best = min(runs, key=lambda run: run["total"])
-    return best | {name: max(run[name] for run in runs) for name in ("peak_mb", "writer_peak_mb")}
+    return best | {name: max(run[name] for run in runs) for name in MEMORY}
 
 
 @dataclass
@@ -349,13 +359,13 @@ def table(rows: Sequence[Row]) -> str:
     ``other`` is the audit's time outside the timed stages: the command line's own work after
     the outputs (report.html and the like) and before the pipeline.
     """
-    stages = [name for name in rows[0].audit if name not in ("total", "peak_mb", "writer_peak_mb")] if rows else []
-    head = ["pipes", "floor s", "audit s", "ratio", "floor peak MB", "audit peak MB", "writer peak MB", *stages, "other"]
+    stages = [name for name in rows[0].audit if name not in ("total", *MEMORY)] if rows else []
+    head = ["pipes", "floor s", "audit s", "ratio", "floor peak MB", "audit peak MB", "writer peak MB", "together peak MB", *stages, "other"]
     lines = ["| " + " | ".join(head) + " |", "|" + "---|" * len(head)]
     for row in rows:
         cells = [f"{row.pipes:,}", f"{row.floor['total']:.2f}", f"{row.audit['total']:.2f}",
                  f"{row.audit['total'] / row.floor['total']:.2f}", f"{row.floor['peak_mb']:.0f}",
-                 f"{row.audit['peak_mb']:.0f}", f"{row.audit['writer_peak_mb']:.0f}", *(f"{row.audit.get(name, float('nan')):.2f}" for name in stages),
+                 f"{row.audit['peak_mb']:.0f}", f"{row.audit['writer_peak_mb']:.0f}", f"{row.audit['together_mb']:.0f}", *(f"{row.audit.get(name, float('nan')):.2f}" for name in stages),
                  f"{row.audit['total'] - sum(row.audit.get(name, 0.0) for name in stages):.2f}"]  # fmt: skip
         lines.append("| " + " | ".join(cells) + " |")
     return "\n".join(lines)

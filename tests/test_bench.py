@@ -49,11 +49,12 @@ def test_the_benchmark_prints_a_row_per_size_and_a_column_per_stage(bench: Modul
     assert bench.main(["--sizes", "1500", "2500"]) == 0
     lines = capsys.readouterr().out.strip().splitlines()
     head = [cell.strip() for cell in lines[0].strip("|").split("|")]
-    assert head[:7] == ["pipes", "floor s", "audit s", "ratio", "floor peak MB", "audit peak MB", "writer peak MB"]
-    assert head[7:] == [*STAGES, "writing outputs", "other"]
+    assert head[:8] == ["pipes", "floor s", "audit s", "ratio", "floor peak MB", "audit peak MB", "writer peak MB", "together peak MB"]
+    assert head[8:] == [*STAGES, "writing outputs", "other"]
     rows = [[cell.strip() for cell in line.strip("|").split("|")] for line in lines[2:]]
     assert [row[0] for row in rows] == ["1,500", "2,500"]
     numbers = np.array([[float(cell) for cell in row[1:]] for row in rows])
     assert np.isfinite(numbers).all()
     assert (numbers >= 0).all()
     assert (numbers[:, 1:3] > 0).all()  # audit seconds and the ratio
+    assert (numbers[:, 6] >= numbers[:, 4]).all()  # together: at least the audit's own peak (no writer below 100,000 features)
