@@ -16,7 +16,6 @@ Exit codes, for scripts and data pipelines:
 from __future__ import annotations
 
 import argparse
-import ctypes
 import errno
 import os
 import signal
@@ -173,28 +172,6 @@ def _distance(text: str) -> float:
     return value
 
 
-_M_MMAP_THRESHOLD = -3  # glibc's malloc.h
-_LARGE_BLOCK_BYTES = 1 << 20
-
-
-def _large_blocks_back_when_freed() -> None:
-    """Give every block of 1 MB or more its own mapping, returned to the system when it is freed (glibc only).
-
-    glibc raises its threshold for that up to 32 MB each time such a block is freed; after that
-    the arrays of a million values (8 MB each) are carved from the heap, and the pages of the
-    ones freed stay with the process. A fixed threshold keeps the stages' freed arrays from
-    adding up: the peak of a million-pipe audit fell by about 90 MB and the peak of the audit
-    and its GeoPackage writer together from 3.01 to 2.92 GB, at the same speed
-    (docs/performance.md). Elsewhere, and where the call is not there, nothing is changed.
-    """
-    if not sys.platform.startswith("linux"):
-        return
-    try:
-        ctypes.CDLL(None).mallopt(_M_MMAP_THRESHOLD, _LARGE_BLOCK_BYTES)
-    except (OSError, AttributeError):
-        return
-
-
 def main(argv: Sequence[str] | None = None) -> int:
     """Run the command line; return the exit code (see the module docstring).
 
@@ -207,7 +184,6 @@ def main(argv: Sequence[str] | None = None) -> int:
     input as a message. The Python API keeps them. A full disk is said as such, wherever it
     stops the command.
     """
-    _large_blocks_back_when_freed()
     try:
         try:
             with warnings.catch_warnings():
