@@ -218,21 +218,27 @@ def sequent_depth(
     """
     pipes = _all(sections, index)
     q = np.asarray(flow, dtype=float)
+    depth = np.asarray(depth, dtype=float)
     height = sections.height[pipes]
     table = tables if tables is not None else SectionTables.build(sections, tabulate=False)
-    target = specific_force(sections, q, depth, index=pipes, tables=table)
     out = np.full(pipes.size, np.nan)
-    solve = np.flatnonzero(np.isfinite(target) & (depth < critical) & (critical <= height))
-    if solve.size == 0:
+    with np.errstate(invalid="ignore"):
+        candidate = np.flatnonzero((depth < critical) & (critical <= height))
+    pick, flows, high = pipes[candidate], q[candidate], height[candidate]
+    area, top, moment = table.surface_terms(depth[candidate] / high, pick)  # once: the target and the first guess
+    with np.errstate(divide="ignore", invalid="ignore"):
+        force = flows**2 / (GRAVITY * area) + moment
+    usable = np.flatnonzero(np.isfinite(force))
+    if usable.size == 0:
         return out
-    pick, flows, low, high = pipes[solve], q[solve], critical[solve], height[solve]
-    y = np.clip(_belanger_guess(sections, flows, depth[solve], pick, table), low, high)
+    solve, target, pick, flows, high = candidate[usable], force[usable], pick[usable], flows[usable], high[usable]
+    low = critical[solve]
+    y = np.clip(_belanger_guess(flows, depth[solve], area[usable], top[usable]), low, high)
     step = np.full(y.size, np.inf)
     for _ in range(NEWTON_STEPS):  # Newton on M(y) - M1, with dM/dy = A (1 - Fr^2)
-        area, _, top = table.elements(y / high, pick)
-        force = flows**2 / (GRAVITY * area) + table.moment(y / high, pick)
+        area, top, moment = table.surface_terms(y / high, pick)
         with np.errstate(divide="ignore", invalid="ignore"):
-            step = (force - target[solve]) / (area - flows**2 * top / (GRAVITY * area**2))
+            step = (flows**2 / (GRAVITY * area) + moment - target) / (area - flows**2 * top / (GRAVITY * area**2))
         moved = np.clip(y - np.where(np.isfinite(step), step, 0.0), low, high)
         step, y = moved - y, moved
     settled = np.abs(step) <= 1e-6 * high  # Newton converges quadratically: the next step would be ~1e-12
@@ -241,7 +247,7 @@ def sequent_depth(
     if rest.size:  # a bracketed root where Newton did not settle (a flow close to critical)
 
         def residual(x: Array, i: Index) -> Array:
-            return specific_force(sections, flows[rest[i]], x, index=pick[rest[i]], tables=table) / target[solve[rest[i]]] - 1.0
+            return specific_force(sections, flows[rest[i]], x, index=pick[rest[i]], tables=table) / target[rest[i]] - 1.0
 
         out[solve[rest]] = _root_near(residual, y[rest], low[rest], high[rest], widths=(1e-3, 0.1), xtol=1e-13, ftol=1e-10)
     return out
@@ -251,12 +257,11 @@ NEWTON_STEPS = 4
 """Newton steps toward a sequent depth from Belanger's guess (most settle to about 1e-12 of the height)."""
 
 
-def _belanger_guess(sections: PipeSections, flow: Array, depth: Array, pipes: Index, tables: SectionTables | None) -> Array:
-    r"""A first guess of the sequent depth [m]: Belanger's ratio for a rectangle applied to the
-    section's hydraulic depth :math:`D = A/T` (:math:`y_2 pprox y_1 + D ((\sqrt{1 + 8 Fr^2} - 1)/2 - 1)`);
+def _belanger_guess(flow: Array, depth: Array, area: Array, top: Array) -> Array:
+    r"""A first guess of the sequent depth [m] of ``depth`` [m], whose flow ``area`` [m^2] and
+    ``top`` width [m] are given: Belanger's ratio for a rectangle applied to the section's
+    hydraulic depth :math:`D = A/T` (:math:`y_2 \approx y_1 + D ((\sqrt{1 + 8 Fr^2} - 1)/2 - 1)`);
     within a few per cent for circles below the crown."""
-    eta = depth / sections.height[pipes]
-    area, _, top = sections.elements(eta, pipes) if tables is None else tables.elements(eta, pipes)
     hydraulic = area / top
     froude_sq = flow**2 / (GRAVITY * area**2 * hydraulic)
     return depth + hydraulic * ((np.sqrt(1.0 + 8.0 * froude_sq) - 1.0) / 2.0 - 1.0)

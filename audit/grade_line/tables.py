@@ -115,6 +115,17 @@ class SectionTables:
         a, p = self._read(eta, pipes, (0, 1))
         return a * height**2, p * height
 
+    def surface_terms(self, eta: Array, pipes: Index) -> tuple[Array, Array, Array]:
+        r"""Area [m^2], top width [m] and first moment of the area about the surface
+        :math:`A \bar z` [m^3] of the pipes ``pipes`` at relative depth ``eta``: the terms of
+        the specific force and its slope, read together (one look-up where tabulated)."""
+        if not (self.row[pipes] >= 0).all():
+            area, _, top = self.elements(eta, pipes)
+            return area, top, self.moment(eta, pipes)
+        height = self.sections.height[pipes]
+        a, t, m = self._read(eta, pipes, (0, 2, 3))
+        return a * height**2, t * height, m * height**3
+
     def _mixed(self, eta: Array, pipes: Index, tabulated: NDArray[np.bool_]) -> tuple[Array, Array, Array]:
         area, perimeter, top = self.sections.elements(eta, pipes)
         inside = np.flatnonzero(tabulated)

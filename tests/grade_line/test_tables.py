@@ -116,3 +116,22 @@ def test_without_tabulation_every_reading_is_exact() -> None:
     eta = np.random.default_rng(3).uniform(0.0, 1.0, 200)
     for read, exact in zip(tables.elements(eta, np.arange(200)), pipes.elements(eta), strict=True):
         np.testing.assert_array_equal(read, exact)
+
+
+@pytest.mark.parametrize("tabulate", [True, False], ids=["tabulated", "exact"])
+def test_the_surface_terms_read_together_are_the_area_top_width_and_moment(tabulate: bool) -> None:
+    some = mixed(300)  # every registered shape, and one lens last
+    pipes = PipeSections(np.r_[some.kind, len(SHAPES)], np.r_[some.height, 1.0], np.r_[some.width, 1.5], (*SHAPES, Lens()))
+    tables = SectionTables.build(pipes, tabulate=tabulate)
+    eta = np.random.default_rng(4).uniform(0.0, 1.0, len(pipes))
+    every = np.arange(len(pipes))
+    area, top, moment = tables.surface_terms(eta, every)
+    expected_area, _, expected_top = tables.elements(eta, every)
+    np.testing.assert_array_equal(area, expected_area)
+    np.testing.assert_array_equal(top, expected_top)
+    np.testing.assert_array_equal(moment, tables.moment(eta, every))
+    assert moment[-1] == pytest.approx(1.5**2 * eta[-1] ** 2 / 2.0, rel=1e-12)  # the lens, never tabulated: B^2 y^2 / 2
+    tabulated = every[:-1]
+    area, top, moment = tables.surface_terms(eta[:-1], tabulated)  # every pipe tabulated: one look-up
+    np.testing.assert_array_equal(area, tables.elements(eta[:-1], tabulated)[0])
+    np.testing.assert_array_equal(moment, tables.moment(eta[:-1], tabulated))
