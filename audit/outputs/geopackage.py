@@ -5,8 +5,9 @@ GDAL's write of a million features holds Python's interpreter lock from start to
 can, on the machine's second core. :class:`LayerWriter` turns each layer into an Arrow table
 here, as ``pyogrio.write_dataframe`` does (geometry as WKB; the layer's geometry type and CRS;
 text for a column Arrow cannot hold, marked as a date and time where it holds them), saves it as
-an Arrow IPC file in a scratch folder, and starts :mod:`audit.outputs.layer_process`, which hands
-the files to ``pyogrio.write_arrow``. The block inside the writer writes the other files
+an Arrow IPC file in a scratch folder, and starts :mod:`audit.outputs.layer_process` once the
+first layer is saved, handing it each further layer as soon as that one is saved; it hands the
+files to ``pyogrio.write_arrow``. The block inside the writer writes the other files
 meanwhile; leaving it waits for the GeoPackage (tests/outputs/test_geopackage.py checks that the
 file is the one ``write_dataframe`` writes).
 
@@ -230,23 +231,32 @@ class LayerWriter:
         check_spatial_indexes(self.path, self.layers)
 
     def _start(self) -> subprocess.Popen[bytes]:
-        """Save each layer as an Arrow file in a scratch folder and start the second process on them."""
+        """Save each layer as an Arrow file in a scratch folder; start the second process once the
+        first is saved, and hand it each further layer as soon as that one is saved too."""
         self._folder = folder = Path(tempfile.mkdtemp(prefix="layers-", dir=self.scratch))
-        planned = []
-        for place, layer in enumerate(self.layers):
-            table, geometry_type, crs = arrow_layer(layer.frame, geometry_type=layer.geometry_type)
-            arrow = folder / f"{place}.arrow"
-            with pa.OSFile(str(arrow), "wb") as sink, pa.ipc.new_file(sink, table.schema) as writer:
-                writer.write_table(table, max_chunksize=_BATCH_ROWS)
-            del table  # one layer's table at a time
-            planned.append({"name": layer.name, "arrow": str(arrow), "geometry_name": layer.frame.geometry.name, "geometry_type": geometry_type,
-                            "crs": crs, "options": _layer_options(layer.frame)})  # fmt: skip
+        process: subprocess.Popen[bytes] | None = None
+        try:
+            for place, layer in enumerate(self.layers):
+                planned = _saved_layer(layer, folder / f"{place}.arrow")
+                if process is None:
+                    process = self._process_for(folder)
+                _hand_over(process, planned)
+            assert process is not None  # there is a layer: the writer is not started for none
+            _hand_over(process, None)  # no more layers
+        except BaseException:
+            if process is not None:
+                _kill(process)
+            raise
+        return process
+
+    def _process_for(self, folder: Path) -> subprocess.Popen[bytes]:
+        """The second process, waiting for its layers on its standard input (:mod:`audit.outputs.layer_process`)."""
         plan = folder / "plan.json"
-        plan.write_text(json.dumps({"path": str(self.path), "layers": planned, "error": str(folder / "error.json"), "parent": os.getpid()}), encoding="utf-8")
+        plan.write_text(json.dumps({"path": str(self.path), "error": str(folder / "error.json"), "parent": os.getpid()}), encoding="utf-8")
         # the same import path as this process, whatever put pyarrow and pyogrio on it
         environment = {**os.environ, "PYTHONPATH": os.pathsep.join(entry for entry in sys.path if entry)}
         # -P: the writer's own folder (audit/outputs, whose module names are common words) is not put on its import path
-        return subprocess.Popen([str(python_interpreter()), "-P", layer_process.__file__, str(plan)], stdin=subprocess.DEVNULL,
+        return subprocess.Popen([str(python_interpreter()), "-P", layer_process.__file__, str(plan)], stdin=subprocess.PIPE,
                                 stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL, env=environment)  # fmt: skip
 
     def finish(self) -> None:
@@ -285,8 +295,7 @@ class LayerWriter:
 
     def _stop(self) -> None:
         if self._process is not None:
-            self._process.kill()
-            self._process.wait()
+            _kill(self._process)
             self._process = None
         self._tidy()
 
@@ -304,6 +313,40 @@ class LayerWriter:
         except BaseException:  # interrupted while waiting, or failed: no writer left behind
             self._stop()
             raise
+
+
+def _saved_layer(layer: Layer, arrow: Path) -> dict[str, Any]:
+    """Save ``layer`` as the Arrow IPC file ``arrow`` (batches of ``_BATCH_ROWS``); what the second process needs to write it."""
+    table, geometry_type, crs = arrow_layer(layer.frame, geometry_type=layer.geometry_type)
+    with pa.OSFile(str(arrow), "wb") as sink, pa.ipc.new_file(sink, table.schema) as writer:
+        writer.write_table(table, max_chunksize=_BATCH_ROWS)
+    return {"name": layer.name, "arrow": str(arrow), "geometry_name": layer.frame.geometry.name, "geometry_type": geometry_type,
+            "crs": crs, "options": _layer_options(layer.frame)}  # fmt: skip
+
+
+def _hand_over(process: subprocess.Popen[bytes], layer: dict[str, Any] | None) -> None:
+    """Give the second process one more layer to write (None: there are no more), as a line of JSON.
+
+    Where it has already stopped, nothing more is sent: waiting for it tells why it stopped.
+    """
+    assert process.stdin is not None
+    try:
+        process.stdin.write(json.dumps(layer).encode("utf-8") + b"\n")
+        process.stdin.flush()
+        if layer is None:
+            process.stdin.close()
+    except BrokenPipeError:
+        with contextlib.suppress(OSError):
+            process.stdin.close()
+
+
+def _kill(process: subprocess.Popen[bytes]) -> None:
+    """Stop the second process and wait for it; its standard input is closed."""
+    process.kill()
+    process.wait()
+    if process.stdin is not None:
+        with contextlib.suppress(OSError):
+            process.stdin.close()
 
 
 def check_spatial_indexes(path: Path, layers: Sequence[Layer]) -> None:

@@ -1,10 +1,13 @@
 """The second process that writes the GeoPackage's layers: ``python layer_process.py <plan.json>``.
 
-The plan (written by :mod:`audit.outputs.geopackage`) names the GeoPackage and, per layer, an
-Arrow IPC file of its features prepared as ``pyogrio.write_dataframe`` prepares them, with the
+The plan (written by :mod:`audit.outputs.geopackage`) names the GeoPackage, the file to write a
+failure into and the process that started this one. The layers come on standard input, one
+line of JSON each as soon as the parent has saved it (``null`` when there are no more): an Arrow
+IPC file of the layer's features prepared as ``pyogrio.write_dataframe`` prepares them, with the
 layer's name, geometry column and type, CRS and creation options. Each file is read and handed
-to ``pyogrio.write_arrow`` one record batch at a time, in the plan's order (not memory-mapped:
-a mapped file's pages stay in the process's memory until the whole layer is written).
+to ``pyogrio.write_arrow`` one record batch at a time, in the order they come (not memory-mapped:
+a mapped file's pages stay in the process's memory until the whole layer is written). Standard
+input ending before ``null`` means the parent went away: the writer stops as interrupted.
 
 The module imports nothing of the audit package (it runs by its path, so starting it costs only
 pyarrow's and pyogrio's imports). It exits 0 when every layer is written; on a failure it writes
@@ -22,6 +25,7 @@ import os
 import signal
 import sys
 import warnings
+from collections.abc import Iterable, Iterator
 from pathlib import Path
 from typing import Any
 
@@ -43,12 +47,30 @@ def _die_with_parent(parent: int) -> None:
         os._exit(EXIT_INTERRUPTED)
 
 
-def write_planned_layers(plan: dict[str, Any]) -> None:
-    """Write every layer of ``plan`` into its GeoPackage, one after the other."""
+class ParentGone(Exception):
+    """Standard input ended before the parent said there were no more layers."""
+
+
+def layers_handed_over(lines: Iterable[str]) -> Iterator[dict[str, Any]]:
+    """The layers the parent hands over, one JSON line each, until its ``null``.
+
+    >>> list(layers_handed_over(['{"name": "pipes"}\\n', 'null\\n']))
+    [{'name': 'pipes'}]
+    """
+    for line in lines:
+        layer = json.loads(line)
+        if layer is None:
+            return
+        yield layer
+    raise ParentGone
+
+
+def write_planned_layers(plan: dict[str, Any], layers: Iterable[dict[str, Any]]) -> None:
+    """Write ``layers`` into the GeoPackage of ``plan``, one after the other."""
     import pyarrow as pa
     import pyogrio
 
-    for layer in plan["layers"]:
+    for layer in layers:
         with pa.OSFile(layer["arrow"]) as source:  # read batch by batch: only the batch GDAL is writing is in memory
             reader = pa.ipc.open_file(source)
             batches = (reader.get_batch(place) for place in range(reader.num_record_batches))
@@ -69,8 +91,8 @@ def main(argv: list[str]) -> int:
     except ImportError:
         return EXIT_CANNOT_START
     try:
-        write_planned_layers(plan)
-    except KeyboardInterrupt:
+        write_planned_layers(plan, layers_handed_over(sys.stdin))
+    except (KeyboardInterrupt, ParentGone):
         return EXIT_INTERRUPTED
     except Exception as error:  # every failure goes back to the parent as words, never as a traceback
         said = {"errno": getattr(error, "errno", None), "strerror": getattr(error, "strerror", None), "message": str(error) or type(error).__name__}

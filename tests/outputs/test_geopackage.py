@@ -6,8 +6,11 @@ gaps); the two files must hold the same tables, column types, geometry types, CR
 """
 
 import errno
+import json
+import os
 import shutil
 import sqlite3
+import subprocess
 import sys
 from datetime import date, datetime
 from pathlib import Path
@@ -211,3 +214,69 @@ def test_a_layer_left_without_its_spatial_index_is_an_error(tmp_path: Path) -> N
     with pytest.raises(LayerWriteError, match="spatial index of findings"):
         geopackage.check_spatial_indexes(path, [Layer("findings", _points(), "Point")])
     geopackage.check_spatial_indexes(path, [Layer("findings", _points().iloc[:0], "Point")])  # an empty layer needs none
+
+
+def test_the_second_process_starts_once_the_first_layer_is_saved(tmp_path: Path, monkeypatch: pytest.MonkeyPatch) -> None:
+    """The writer works on the first layer while the others are still turned into Arrow files."""
+    events: list[str] = []
+    save, start = geopackage._saved_layer, LayerWriter._process_for
+
+    def saved(layer: Layer, arrow: Path) -> dict[str, object]:
+        events.append(f"saved {layer.name}")
+        return save(layer, arrow)
+
+    def started(self: LayerWriter, folder: Path) -> object:
+        events.append("started")
+        return start(self, folder)
+
+    monkeypatch.setattr(geopackage, "SECOND_PROCESS_FROM", 0)
+    monkeypatch.setattr(geopackage, "_saved_layer", saved)
+    monkeypatch.setattr(LayerWriter, "_process_for", started)
+    layers = [Layer("pipes", _awkward_pipes().iloc[[0, 3]]), Layer("manholes", _points()), Layer("findings", _points(), "Point")]
+    with LayerWriter(tmp_path / "out.gpkg", layers, scratch=tmp_path) as writer:
+        pass
+    assert events == ["saved pipes", "started", "saved manholes", "saved findings"]
+    assert not writer.written_here
+    assert pyogrio.list_layers(tmp_path / "out.gpkg")[:, 0].tolist() == ["pipes", "manholes", "findings"]
+    assert [pyogrio.read_info(tmp_path / "out.gpkg", layer=name)["features"] for name in ("pipes", "manholes", "findings")] == [2, 2, 2]
+
+
+def test_a_layer_that_cannot_be_saved_after_the_first_stops_the_writer_and_all_are_written_here(tmp_path: Path, monkeypatch: pytest.MonkeyPatch) -> None:
+    real = geopackage.arrow_layer
+
+    def not_the_manholes(frame: gpd.GeoDataFrame, *, geometry_type: str | None) -> object:
+        if "mh" in frame.columns:
+            raise pa.ArrowInvalid("a column Arrow cannot take")
+        return real(frame, geometry_type=geometry_type)
+
+    monkeypatch.setattr(geopackage, "SECOND_PROCESS_FROM", 0)
+    monkeypatch.setattr(geopackage, "arrow_layer", not_the_manholes)
+    manholes = _points().assign(mh=["M1", "M2"])
+    layers = [Layer("pipes", _awkward_pipes().iloc[[0, 3]]), Layer("manholes", manholes), Layer("findings", _points(), "Point")]
+    with LayerWriter(tmp_path / "out.gpkg", layers, scratch=tmp_path) as writer:
+        assert writer._process is None  # the one already started on the pipes was stopped
+    assert writer.written_here
+    assert pyogrio.list_layers(tmp_path / "out.gpkg")[:, 0].tolist() == ["pipes", "manholes", "findings"]
+    assert pyogrio.read_dataframe(tmp_path / "out.gpkg", layer="manholes")["mh"].tolist() == ["M1", "M2"]
+
+
+def test_the_writer_stops_as_interrupted_when_its_parent_goes_away_before_the_last_layer(tmp_path: Path) -> None:
+    layers = tmp_path / "layers"
+    layers.mkdir()
+    table, geometry_type, crs = arrow_layer(_points(), geometry_type="Point")
+    with pa.OSFile(str(layers / "0.arrow"), "wb") as sink, pa.ipc.new_file(sink, table.schema) as ipc:
+        ipc.write_table(table)
+    plan = layers / "plan.json"
+    target = tmp_path / "out.gpkg"
+    plan.write_text(json.dumps({"path": str(target), "error": str(layers / "error.json"), "parent": os.getpid()}), encoding="utf-8")
+    layer = {"name": "findings", "arrow": str(layers / "0.arrow"), "geometry_name": "geometry", "geometry_type": geometry_type, "crs": crs,
+             "options": {"FID": "fid", "GEOMETRY_NAME": "geom"}}  # fmt: skip
+    environment = {**os.environ, "PYTHONPATH": os.pathsep.join(entry for entry in sys.path if entry)}
+    command = [sys.executable, "-P", geopackage.layer_process.__file__, str(plan)]
+    ended = subprocess.run(command, input=json.dumps(layer) + "\n", capture_output=True, text=True, env=environment, timeout=120, check=False)
+    assert ended.returncode == geopackage.layer_process.EXIT_INTERRUPTED  # one layer, then no "null": the parent is gone
+    assert pyogrio.read_info(target, layer="findings")["features"] == 2  # what it had was written; the parent never moves it into place
+    finished = subprocess.run(command, input=json.dumps(layer).replace("findings", "again") + "\nnull\n", capture_output=True, text=True,
+                              env=environment, timeout=120, check=False)  # fmt: skip
+    assert finished.returncode == 0
+    assert pyogrio.list_layers(target)[:, 0].tolist() == ["findings", "again"]
