@@ -113,9 +113,10 @@ def check_pipes(
 def _restrict(hit: Hit, keep: np.ndarray) -> Hit:
     """A rule's hit kept only where ``keep``: its mask and the reasons of the rows that stay."""
     mask, reason = hit
-    if isinstance(reason, str):
+    kept = keep[mask]
+    if isinstance(reason, str) or kept.all():  # every flagged row stays (all pipes judged, as is usual): no reason to drop
         return mask & keep, reason
-    return mask & keep, reason.filter(pa.array(keep[mask]))
+    return mask & keep, reason.filter(pa.array(kept))
 
 
 def worst_severity_at_least(severity_column: pd.Series | np.ndarray, threshold: str) -> np.ndarray:
