@@ -330,6 +330,8 @@ def _hand_over(process: subprocess.Popen[bytes], layer: dict[str, Any] | None) -
     Where it has already stopped, nothing more is sent: waiting for it tells why it stopped.
     """
     assert process.stdin is not None
+    if process.stdin.closed:  # it stopped at an earlier layer
+        return
     try:
         process.stdin.write(json.dumps(layer).encode("utf-8") + b"\n")
         process.stdin.flush()

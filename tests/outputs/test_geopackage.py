@@ -280,3 +280,14 @@ def test_the_writer_stops_as_interrupted_when_its_parent_goes_away_before_the_la
                               env=environment, timeout=120, check=False)  # fmt: skip
     assert finished.returncode == 0
     assert pyogrio.list_layers(target)[:, 0].tolist() == ["findings", "again"]
+
+
+def test_layers_handed_to_a_writer_that_has_stopped_are_not_sent(tmp_path: Path) -> None:
+    """A writer that stopped at one layer is handed no more, and handing them raises nothing: waiting tells why it stopped."""
+    process = subprocess.Popen([sys.executable, "-c", "import sys; sys.exit(2)"], stdin=subprocess.PIPE)
+    process.wait()
+    for layer in ({"name": "manholes"}, {"name": "findings"}, None):
+        geopackage._hand_over(process, layer)
+    assert process.stdin is not None
+    assert process.stdin.closed
+    assert process.returncode == 2
