@@ -158,7 +158,7 @@ def _checked(ready: Prepared, computed: pd.DataFrame, metrics: pd.DataFrame) -> 
         settings=ready.config.rules,
         units=ready.config.output_units,
     )
-    labels = {name: as_labels(pa.array(checks[name])) for name in ("flags", "severity", "reasons")}
+    labels = {name: as_labels(checks[name]) for name in ("flags", "severity", "reasons")}
     return computed.assign(**labels, access_run_m=checks["access_run_m"].to_numpy())
 
 
@@ -301,6 +301,7 @@ def _computed_columns(ready: Prepared, flows: DesignFlows, state: FlowState, *, 
     """
     levels, network = ready.levels, ready.network
     node_ids = arrow_text(network.nodes["node_id"])
+    kind = ready.layers.pipes.canonical["kind"].to_numpy(dtype=object)  # categories: one Python string per kind
     columns = {
         "height_m": height,
         "length_m": levels["length_m"],
@@ -317,8 +318,8 @@ def _computed_columns(ready: Prepared, flows: DesignFlows, state: FlowState, *, 
         "depth_ratio": state.depth_ratio,
         "v_design": state.velocity,
         "shear": state.shear,
-        "hydraulic_status": as_labels(_status_labels(state, ready.layers.pipes.canonical["kind"].to_numpy(dtype=object))),
-        "pipe_kind": as_labels(pa.array(ready.layers.pipes.canonical["kind"].to_numpy(dtype=object), type=pa.string())),
+        "hydraulic_status": as_labels(_status_labels(state, kind)),
+        "pipe_kind": as_labels(kind),
         "from_node_id": _as_column(_node_text(node_ids, network.upstream)),
         "to_node_id": _as_column(_node_text(node_ids, network.downstream)),
         "upstream_length_m": flows.upstream_length,
@@ -341,8 +342,8 @@ def _grade_line_columns(grade: GradeLine, levels: pd.DataFrame) -> dict[str, obj
         "depth_down_m": grade.depth_down,
         "critical_depth_m": grade.critical_depth,
         "froude": grade.froude,
-        "flow_regime": as_labels(pa.array(_REGIME_LABELS[grade.regime].tolist(), type=pa.string())),
-        "full_cause": as_labels(pa.array(_CAUSE_LABELS[grade.full_cause].tolist(), type=pa.string())),
+        "flow_regime": as_labels(_REGIME_LABELS[grade.regime]),
+        "full_cause": as_labels(_CAUSE_LABELS[grade.full_cause]),
     }
 
 
