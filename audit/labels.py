@@ -8,11 +8,13 @@ categories they take a code per row and one copy of each distinct text.
 
 from __future__ import annotations
 
+from collections.abc import Sequence
+
 import numpy as np
 import pandas as pd
 import pyarrow as pa
 
-__all__ = ["as_labels"]
+__all__ = ["as_labels", "labels_from"]
 
 
 def as_labels(text: pa.Array | pd.Series | np.ndarray) -> pd.Categorical:
@@ -26,9 +28,26 @@ def as_labels(text: pa.Array | pd.Series | np.ndarray) -> pd.Categorical:
     >>> labels.codes.tolist(), labels.categories.tolist()
     ([0, 1, -1, 0], ['surcharge', ''])
     """
+    if isinstance(text, pd.Categorical):
+        return text
     if isinstance(text, np.ndarray) and text.dtype == object:
         codes, distinct = pd.factorize(text)  # by hashing, in the order first seen
         return pd.Categorical.from_codes(codes, categories=pd.Index(distinct, dtype=object))
     encoded = pa.array(text).dictionary_encode()
     codes = encoded.indices.fill_null(-1).to_numpy(zero_copy_only=False)
     return pd.Categorical.from_codes(codes, categories=pd.Index(encoded.dictionary.to_pandas(), dtype=object))
+
+
+def labels_from(codes: np.ndarray, words: Sequence[str] | np.ndarray) -> pd.Categorical:
+    """``words[codes]`` as labels (:func:`as_labels`) without a Python string per row: the rows
+    keep their codes into the short table ``words``, whose repeated texts are merged (a code of
+    -1 is a missing value).
+
+    >>> labels = labels_from(np.array([2, 0, 1, -1]), ["", "age x depth", ""])
+    >>> labels.tolist()[:3], labels.codes.tolist(), labels.categories.tolist()
+    (['', '', 'age x depth'], [0, 0, 1, -1], ['', 'age x depth'])
+    """
+    which, distinct = pd.factorize(np.asarray(words, dtype=object))
+    codes = np.asarray(codes)
+    merged = np.where(codes >= 0, which[np.maximum(codes, 0)] if which.size else -1, -1)
+    return pd.Categorical.from_codes(merged, categories=pd.Index(distinct, dtype=object))

@@ -499,7 +499,7 @@ def _programme(ready: Prepared, flows: DesignFlows, computed: pd.DataFrame, hydr
     areas = read_critical_areas(settings.critical_areas, crs=layers.crs, findings=findings)
     status = computed["hydraulic_status"].to_numpy(dtype=object)  # categories: one Python string per distinct text
     return renewal_programme(
-        pipes=hydraulics, flags=computed["flags"].to_numpy(dtype=object), severity=computed["severity"].to_numpy(dtype=object),
+        pipes=hydraulics, flags=computed["flags"].array, severity=computed["severity"].to_numpy(dtype=object),
         q_design=flows.q_design, load_ratio=computed["load_ratio"].to_numpy(dtype=float),
         population_served=computed["population_served"].to_numpy(dtype=float), install_year=pipes["install_year"].to_numpy(dtype=float),
         material=pipes["material"].to_numpy(dtype=object), up_depth_m=up_rim - ready.levels["up_invert"].to_numpy(dtype=float),

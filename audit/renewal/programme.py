@@ -84,7 +84,7 @@ def finding_masks(findings: FindingLog, pipe_ids: NDArray[np.object_], codes: It
 
 
 def renewal_programme(
-    *, pipes: PipeHydraulics, flags: NDArray[np.object_], severity: NDArray[np.object_], q_design: Array, load_ratio: Array,
+    *, pipes: PipeHydraulics, flags: NDArray[np.object_] | pd.Categorical, severity: NDArray[np.object_], q_design: Array, load_ratio: Array,
     population_served: Array, install_year: Array, material: NDArray[np.object_], up_depth_m: Array, down_depth_m: Array,
     upstream: NDArray[np.intp], downstream: NDArray[np.intp], node_flooding: Mask, geometry: NDArray[np.object_],
     pipe_ids: NDArray[np.object_], cleansing: CleansingCriterion, evaluated: Mask, settings: RenewalSettings,
@@ -95,7 +95,7 @@ def renewal_programme(
     Parameters
     ----------
     pipes : sections, slopes [m/m], friction and lengths [m] of every pipe
-    flags : the rule flag codes of each pipe joined by ';' ("" for none); severity : its worst severity
+    flags : the rule flag codes of each pipe joined by ';' ("" for none), as text or labels; severity : its worst severity
     q_design : design flow [m^3/s]; load_ratio : design flow / full-bore capacity [-]
     population_served : persons upstream [-]; install_year : year laid (NaN unknown)
     material : material as typed; up_depth_m, down_depth_m : rim minus invert at each end [m]
@@ -113,7 +113,7 @@ def renewal_programme(
     the :class:`Programme`
     """
     count = q_design.size
-    flag_sets = FlagSets.of(np.asarray(flags, dtype=object))
+    flag_sets = FlagSets.of(flags)
     below = np.asarray(downstream)
     floods_below, floods_above = np.zeros(count, dtype=bool), np.zeros(count, dtype=bool)
     if np.asarray(node_flooding).size:

@@ -51,8 +51,9 @@ from audit.hydraulics import (
     required_slope,
     water_density,
 )
+from audit.labels import as_labels, labels_from
 from audit.renewal.settings import RenewalSettings
-from audit.renewal.wording import amount, few, join, objects, percent, scatter
+from audit.renewal.wording import amount, few, join, percent, scatter
 from audit.rules import CLEANSING_WORDS, RuleSettings
 from audit.units import UnitSystem
 
@@ -309,10 +310,11 @@ class FlagSets:
     sets: tuple[frozenset[str], ...]
 
     @classmethod
-    def of(cls, flags: NDArray[np.object_]) -> FlagSets:
-        """Factorise the ``flags`` column (one hash per pipe, one split per distinct set)."""
-        which, distinct = pd.factorize(pd.Series(flags, dtype=object))  # a missing value is -1: no flag
-        return cls(np.asarray(which, dtype=np.intp), tuple(frozenset(str(text).split(";")) - {""} for text in distinct))
+    def of(cls, flags: NDArray[np.object_] | pd.Categorical) -> FlagSets:
+        """Factorise the ``flags`` column (one hash per pipe, one split per distinct set); a
+        column held as labels is read as it is. A missing value is -1: no flag."""
+        labels = as_labels(flags)
+        return cls(np.asarray(labels.codes, dtype=np.intp), tuple(frozenset(str(text).split(";")) - {""} for text in labels.categories))
 
     def first_pipes(self) -> NDArray[np.intp]:
         """The first pipe of each set, in the order of ``sets``: what follows from the flags alone
@@ -332,12 +334,13 @@ class FlagSets:
 
 @dataclass(frozen=True)
 class Remedies:
-    """Per pipe: the first kind of remedy that applies ("" for none), the words, the size [m] and
+    """Per pipe: the first kind of remedy that applies ("" for none) and its words, as labels
+    (``audit.labels``), the size [m] and
     the slope [m/m] it proposes (NaN where none), whether the data must be verified first, and
     whether it cannot carry its own design flow (a member of a scheme)."""
 
-    kind: NDArray[np.object_]
-    text: NDArray[np.object_]
+    kind: pd.Categorical
+    text: pd.Categorical
     size_m: Array
     slope: Array
     review: Mask
@@ -373,8 +376,9 @@ def plan_remedies(pipes: PipeHydraulics, facts: PipeFacts, *, cleansing: Cleansi
 
     The words with numbers that vary continuously (capacity, silting) are written for their own
     pipes only; every other piece is written once per distinct combination of what it says
-    (the flag set, the verify findings, the age and service life, the grades, the note), so a
-    million pipes cost a few thousand strings plus one join per pipe that has two pieces.
+    (the flag set, the verify findings, the age and service life, the grades, the note), and
+    each pipe holds codes into those tables: the pieces are joined once per distinct pair, so a
+    million pipes cost a few thousand strings plus the distinct capacity and silting words.
     """
     count = facts.q_design.size
     ratio, sizes = settings.design_depth_ratio, settings.sizes_m
@@ -408,18 +412,19 @@ def plan_remedies(pipes: PipeHydraulics, facts: PipeFacts, *, cleansing: Cleansi
     inspect_kind = old | worn | facts.flags.has("high_velocity", "hydraulic_jump")
     other_kind = facts.flags.has(*OTHER_WORDS) | facts.flags.has_other(KNOWN_FLAGS)
     code = np.select([review, short | unsized, downstream, silting, inspect_kind, other_kind], range(1, len(REMEDY_KINDS) + 1), 0)
-    kinds = np.array(["", *REMEDY_KINDS], dtype=object)[code]  # no new string per pipe
+    kinds = labels_from(code, ["", *REMEDY_KINDS])
 
-    lead = np.full(count, None, dtype=object)  # verify, capacity, downstream or silting words
-    lead[review] = _verify_words(facts, np.flatnonzero(review), found)
-    lead[capacity_rows] = objects(_capacity_words(capacity_pipes, facts.q_design[capacity_rows], new_size, new_slope, settings, too_fast=too_fast))
-    lead[unsized] = UNSIZED_WORDS
-    lead[downstream] = f"relieve downstream: it carries its own design flow within {ratio:g} of its depth; the water backs up from below"
-    silt_words = objects(_silting_words(silt_slope, silt_size, cleansing, units=settings.units))
-    after = downstream[silt_rows]  # a pipe can be relieved downstream and silt too
-    silt_words[after] = lead[silt_rows[after]] + "; " + silt_words[after]
-    lead[silt_rows] = silt_words
-    text = _with_tail(lead, review | short | unsized | downstream | silting, facts, old=old, worn=worn, note=note, note_words=note_words, settings=settings)
+    relief = f"relieve downstream: it carries its own design flow within {ratio:g} of its depth; the water backs up from below"
+    silt_words = _silting_words(silt_slope, silt_size, cleansing, units=settings.units)
+    after = pa.array(downstream[silt_rows])  # a pipe can be relieved downstream and silt too
+    lead = _Words.spread(count, [  # verify, capacity, downstream or silting words; a later piece wins
+        (np.flatnonzero(review), _verify_words(facts, np.flatnonzero(review), found)),
+        (capacity_rows, as_labels(_capacity_words(capacity_pipes, facts.q_design[capacity_rows], new_size, new_slope, settings, too_fast=too_fast))),
+        (np.flatnonzero(unsized), labels_from(np.zeros(int(unsized.sum()), dtype=np.intp), [UNSIZED_WORDS])),
+        (np.flatnonzero(downstream), labels_from(np.zeros(int(downstream.sum()), dtype=np.intp), [relief])),
+        (silt_rows, as_labels(pc.if_else(after, join(f"{relief}; ", silt_words), silt_words))),
+    ])  # fmt: skip
+    text = _with_tail(lead, facts, old=old, worn=worn, note=note, note_words=note_words, settings=settings)
     size = scatter(new_size, capacity_rows, count)
     size[silt_rows] = silt_size
     slope = scatter(new_slope, capacity_rows, count)
@@ -427,16 +432,36 @@ def plan_remedies(pipes: PipeHydraulics, facts: PipeFacts, *, cleansing: Cleansi
     return Remedies(kinds, text, size, slope, review, short)
 
 
-def keyed_words(key: NDArray[np.int64], words: Callable[[int], str]) -> NDArray[np.object_]:
-    """``words(row)`` for one row of each distinct ``key`` (the row's position in ``key``), spread to every row with that key."""
+def keyed_words(key: NDArray[np.int64], words: Callable[[int], str]) -> pd.Categorical:
+    """``words(row)`` for one row of each distinct ``key`` (the row's position in ``key``), as
+    labels of every row with that key (``audit.labels``: one string per distinct text)."""
     which, distinct = pd.factorize(key)  # by hashing: no sort
     first = np.zeros(distinct.size, dtype=np.intp)
     first[which[::-1]] = np.arange(which.size - 1, -1, -1)  # the first row of each key
-    table = np.array([words(int(row)) for row in first], dtype=object)  # one string per distinct key
-    return table[which]
+    return labels_from(which, [words(int(row)) for row in first])  # one string per distinct key
 
 
-def _verify_words(facts: PipeFacts, rows: Index, found: Sequence[Mask]) -> NDArray[np.object_]:
+@dataclass(frozen=True)
+class _Words:
+    """Words for every pipe as a code into a short table (-1: none), so that pieces are joined
+    once per distinct combination, not once per pipe."""
+
+    code: NDArray[np.int64]
+    table: list[str]
+
+    @classmethod
+    def spread(cls, count: int, pieces: Sequence[tuple[Index, pd.Categorical]]) -> _Words:
+        """Each piece's labels on its rows (a later piece's rows override an earlier one's)."""
+        code = np.full(count, -1, dtype=np.int64)
+        table: list[str] = []
+        for rows, labels in pieces:  # a loop over the few kinds of words
+            codes = labels.codes.astype(np.int64)
+            code[rows] = np.where(codes >= 0, codes + len(table), -1)
+            table.extend(labels.categories)
+        return cls(code, table)
+
+
+def _verify_words(facts: PipeFacts, rows: Index, found: Sequence[Mask]) -> pd.Categorical:
     """``verify the survey before any renewal (reverse grade, length mismatch)`` for the pipes ``rows``."""
     key = facts.flags.which[rows].astype(np.int64) * 2 ** len(found)
     for place, mask in enumerate(found):
@@ -451,9 +476,9 @@ def _verify_words(facts: PipeFacts, rows: Index, found: Sequence[Mask]) -> NDArr
     return keyed_words(key, words)
 
 
-def _with_tail(lead: NDArray[np.object_], has_lead: Mask, facts: PipeFacts, *, old: Mask, worn: Mask, note: NDArray[np.intp], note_words: Sequence[str],
-               settings: RenewalSettings) -> NDArray[np.object_]:  # fmt: skip
-    """Each pipe's ``lead`` words (where ``has_lead``) followed by its inspection, its other flags' words and its note, joined by "; "."""
+def _with_tail(lead: _Words, facts: PipeFacts, *, old: Mask, worn: Mask, note: NDArray[np.intp], note_words: Sequence[str],
+               settings: RenewalSettings) -> pd.Categorical:  # fmt: skip
+    """Each pipe's ``lead`` words followed by its inspection, its other flags' words and its note, joined by "; " ("" for none)."""
     limit = settings.grade_limit
     tailed = np.flatnonzero(old | worn | facts.flags.has(*OTHER_WORDS) | facts.flags.has_other(KNOWN_FLAGS) | (note > 0))
     aged = old[tailed]
@@ -478,14 +503,11 @@ def _with_tail(lead: NDArray[np.object_], has_lead: Mask, facts: PipeFacts, *, o
         pieces += [note_words[note[pipe]]] if note[pipe] else []
         return "; ".join(pieces)
 
-    tail = np.full(lead.size, "", dtype=object)
-    tail[tailed] = keyed_words(key, words)
-    has_tail = np.zeros(lead.size, dtype=bool)
-    has_tail[tailed] = True
-    text = np.where(has_lead, lead, tail)
-    both = has_lead & has_tail
-    text[both] = lead[both] + "; " + tail[both]
-    return text
+    tail = _Words.spread(lead.code.size, [(tailed, keyed_words(key, words))])
+    pair, distinct = pd.factorize((lead.code + 1) * (len(tail.table) + 1) + tail.code + 1)  # one join per distinct pair
+    heads, tails = ["", *lead.table], ["", *tail.table]
+    joined = ["; ".join(piece for piece in (heads[int(both) // len(tails)], tails[int(both) % len(tails)]) if piece) for both in distinct]
+    return labels_from(pair, joined)
 
 
 def _capacity_words(pipes: PipeHydraulics, q_design: Array, size: Array, slope: Array, settings: RenewalSettings, *, too_fast: Mask) -> pa.Array:

@@ -35,9 +35,11 @@ from collections.abc import Sequence
 from dataclasses import dataclass
 
 import numpy as np
+import pandas as pd
 import shapely
 from numpy.typing import NDArray
 
+from audit.labels import labels_from
 from audit.renewal.inputs import CriticalAreas
 from audit.renewal.settings import CONSEQUENCE_PARTS, LIKELIHOOD_PARTS, RenewalSettings
 
@@ -62,15 +64,15 @@ UNSCORED_WORDS = ("", f"risk not scored: {_NO_LIKELIHOOD}", f"risk not scored: {
 @dataclass(frozen=True)
 class Scores:
     """Per pipe: likelihood, consequence (1 to 5) and risk (1 to 25), NaN where not scored; the
-    words of each driver ("" where not scored); why a pipe is not scored, as an index into
+    words of each driver as labels (``audit.labels``; "" where not scored); why a pipe is not scored, as an index into
     ``UNSCORED_WORDS`` (0 where it is scored)."""
 
     likelihood: Array
     consequence: Array
     risk: Array
-    likelihood_driver: NDArray[np.object_]
-    consequence_driver: NDArray[np.object_]
-    risk_driver: NDArray[np.object_]
+    likelihood_driver: pd.Categorical
+    consequence_driver: pd.Categorical
+    risk_driver: pd.Categorical
     unscored: NDArray[np.intp]
 
 
@@ -148,4 +150,5 @@ def risk_scores(
     both = np.array([f"{a} x {b}" if a and b else "" for a in l_words for b in c_words], dtype=object)  # a few dozen words
     risk = likelihood * consequence
     unscored = np.isnan(likelihood).astype(np.intp) + 2 * np.isnan(consequence).astype(np.intp)
-    return Scores(likelihood, consequence, risk, l_words[l_code], c_words[c_code], both[l_code * len(c_words) + c_code], unscored)
+    drivers = labels_from(l_code, l_words), labels_from(c_code, c_words), labels_from(l_code * len(c_words) + c_code, both)
+    return Scores(likelihood, consequence, risk, *drivers, unscored)

@@ -27,6 +27,7 @@ from numpy.typing import NDArray
 from scipy.sparse import coo_matrix
 from scipy.sparse.csgraph import connected_components, shortest_path
 
+from audit.labels import labels_from
 from audit.renewal.settings import RenewalSettings
 from audit.renewal.wording import DECIMALS, join, number, objects, percent
 
@@ -52,11 +53,11 @@ SCHEME_COLUMNS: dict[str, str] = {
 
 @dataclass(frozen=True)
 class Schemes:
-    """Per pipe: the scheme's number (0 for S001; -1 for none), its id text, and the pipe's place
+    """Per pipe: the scheme's number (0 for S001; -1 for none), its id as labels, and the pipe's place
     in it (1 for the downstream pipe; 0 for none); and the table of schemes (``SCHEME_COLUMNS``)."""
 
     number: NDArray[np.intp]
-    ids: NDArray[np.object_]
+    ids: pd.Categorical
     position: NDArray[np.intp]
     table: pd.DataFrame
 
@@ -122,7 +123,7 @@ def _size_steps(height: Array, new_size: Array, new_slope: Array, settings: Rene
 
 def build_schemes(
     member: Mask, *, upstream: Index, downstream: Index, pipe_ids: NDArray[np.object_], length: Array, height: Array, q_design: Array,
-    new_size: Array, new_slope: Array, risk: Array, risk_driver: NDArray[np.object_], settings: RenewalSettings,
+    new_size: Array, new_slope: Array, risk: Array, risk_driver: NDArray[np.object_] | pd.Categorical, settings: RenewalSettings,
 ) -> Schemes:  # fmt: skip
     """The schemes of the pipes ``member`` (those with a capacity remedy) and their table (SI)."""
     count = member.size
@@ -175,7 +176,7 @@ def build_schemes(
             "risk_driver": np.where(riskiest >= 0, risk_driver[np.maximum(riskiest, 0)], "").astype(object),
         }
     ).iloc[numbering].reset_index(drop=True)
-    return Schemes(number, scheme_ids[np.where(number >= 0, number, groups)], position, table)
+    return Schemes(number, labels_from(np.where(number >= 0, number, groups), scheme_ids), position, table)
 
 
 def _riskiest(group: Index, risk: Array, rows: Index, groups: int) -> Index:

@@ -198,3 +198,20 @@ def test_every_rule_flag_and_an_unknown_one_get_a_remedy() -> None:
     assert remedies.kind[codes.index("hydraulic_jump")] == "inspect"
     assert remedies.text[-1] == "see the a_flag_added_later flag"
     assert remedies.kind[-1] == "other"
+
+
+def test_hundreds_of_distinct_remedies_each_keep_their_own_words() -> None:
+    # 290 surcharged 225 mm pipes, each with its own flow and an old age: more distinct words than a small code holds
+    count = 290
+    flows = 0.030 + 0.0001 * np.arange(count)  # 30.0 to 58.9 l/s: each its own "carries ... l/s"
+    pipes = pipes_of([0.225] * count, [0.004] * count, Friction.uniform("manning", N, count))
+    facts = PipeFacts(FlagSets.of(np.full(count, "surcharge;silting", dtype=object)), {}, flows, np.ones(count, dtype=bool), np.zeros(count, dtype=bool),
+                      np.zeros(count, dtype=bool), np.full(count, 120.0), np.full(count, 100.0), np.full(count, np.nan), np.full(count, np.nan))  # fmt: skip
+    remedies = plan_remedies(pipes, facts, cleansing=criterion("full_velocity", 0.6, None), settings=RenewalSettings(sizes_m=tuple(SIZES)))
+    tail = "; inspect (CCTV), then rehabilitate or replace: age 120 years, beyond the 100-year service life of its material"
+    for place, flow in enumerate(flows):
+        # 0.225 m at 0.4 % carries 0.0278 m3/s at 0.8 depth, 0.3 m 0.0598 (Manning above): every flow here needs 300 mm
+        expected = f"capacity: upsize from 225 to 300 mm: carries {round(1000 * flow, 1):g} l/s within 0.8 of its depth at the present slope 0.4 %"
+        assert remedies.text[place].startswith(expected), (place, remedies.text[place])
+        assert remedies.text[place].endswith(tail)
+    assert len(set(remedies.text)) == count
