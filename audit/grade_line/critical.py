@@ -191,7 +191,7 @@ def specific_force(
     pipes = _all(sections, index)
     eta = np.asarray(depth, dtype=float) / sections.height[pipes]
     table = tables if tables is not None else SectionTables.build(sections, tabulate=False)
-    area, _, _ = table.elements(eta, pipes)
+    area = table.area(eta, pipes)
     moment = table.moment(eta, pipes)
     with np.errstate(divide="ignore"):
         return np.asarray(flow, dtype=float) ** 2 / (GRAVITY * area) + moment

@@ -44,8 +44,9 @@ FINEST_STEP = 1e-2
 NEWTON_STEPS = 3
 r"""Newton steps on the Colebrook equation in :math:`1/\sqrt{\lambda}` (from 8: to about 1e-10 in turbulent flow)."""
 
-ROW_STEPS = 2
-"""Newton steps for the other points of a profile, from its first point's root (to about 1e-6)."""
+ROW_STEPS = 1
+"""Newton steps for the other points of a profile, from its first point's root: one moves a depth by at
+most 1.5e-6 m against two over the benchmark's 216,000 profiles at a million pipes."""
 
 
 def friction_slope(area: Array, radius: Array, flow: Array, friction: Friction, index: Index | None = None) -> Array:

@@ -309,7 +309,7 @@ def _climb(t: _Pipes, rows: Index, pipes: PipeHydraulics, *, start: Array, run: 
 
 def _speed_at(tables: SectionTables, pipe: Index, flow: Array, depth: Array, height: Array, full_area: Array) -> Array:
     """Mean velocity [m/s] at ``depth`` [m] (full bore where the depth reaches the height)."""
-    area, _, _ = tables.elements(depth / height, pipe)
+    area = tables.area(depth / height, pipe)
     area = np.where(depth >= height, full_area, area)
     with np.errstate(divide="ignore", invalid="ignore"):
         return np.where(area > 0, flow / area, 0.0)

@@ -103,6 +103,12 @@ class SectionTables:
         a, p, t = self._read(eta, pipes, (0, 1, 2))
         return a * height**2, p * height, t * height
 
+    def area(self, eta: Array, pipes: Index) -> Array:
+        """Area [m^2] alone (see :meth:`elements`): one quantity read where tabulated."""
+        if not (self.row[pipes] >= 0).all():
+            return self.elements(eta, pipes)[0]
+        return self._read(eta, pipes, (0,))[0] * self.sections.height[pipes] ** 2
+
     def area_perimeter(self, eta: Array, pipes: Index) -> tuple[Array, Array]:
         """Area [m^2] and wetted perimeter [m] alone (see :meth:`elements`); ``eta`` may hold a
         row of relative depths per pipe (shape (pipes, points))."""
