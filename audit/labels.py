@@ -33,21 +33,27 @@ def as_labels(text: pa.Array | pd.Series | np.ndarray) -> pd.Categorical:
     if isinstance(text, np.ndarray) and text.dtype == object:
         codes, distinct = pd.factorize(text)  # by hashing, in the order first seen
         return pd.Categorical.from_codes(codes, categories=pd.Index(distinct, dtype=object))
-    encoded = pa.array(text).dictionary_encode()
+    array = pa.array(text)
+    if isinstance(array, pa.ChunkedArray):  # a column read in batches
+        array = array.combine_chunks()
+    if pa.types.is_null(array.type):  # every value missing: no category
+        array = array.cast(pa.string())
+    encoded = array.dictionary_encode()
     codes = encoded.indices.fill_null(-1).to_numpy(zero_copy_only=False)
     return pd.Categorical.from_codes(codes, categories=pd.Index(encoded.dictionary.to_pandas(), dtype=object))
 
 
-def labels_from(codes: np.ndarray, words: Sequence[str] | np.ndarray) -> pd.Categorical:
+def labels_from(codes: np.ndarray, words: Sequence[str] | np.ndarray | pa.Array) -> pd.Categorical:
     """``words[codes]`` as labels (:func:`as_labels`) without a Python string per row: the rows
-    keep their codes into the short table ``words``, whose repeated texts are merged (a code of
-    -1 is a missing value).
+    keep their codes into the short table ``words`` (Python or Arrow text), whose repeated
+    texts are merged (a code of -1 is a missing value).
 
     >>> labels = labels_from(np.array([2, 0, 1, -1]), ["", "age x depth", ""])
     >>> labels.tolist()[:3], labels.codes.tolist(), labels.categories.tolist()
     (['', '', 'age x depth'], [0, 0, 1, -1], ['', 'age x depth'])
     """
-    which, distinct = pd.factorize(np.asarray(words, dtype=object))
+    table = as_labels(words if isinstance(words, pa.Array) else np.asarray(words, dtype=object))
+    which = np.asarray(table.codes, dtype=np.intp)
     codes = np.asarray(codes)
     merged = np.where(codes >= 0, which[np.maximum(codes, 0)] if which.size else -1, -1)
-    return pd.Categorical.from_codes(merged, categories=pd.Index(distinct, dtype=object))
+    return pd.Categorical.from_codes(merged, categories=table.categories)

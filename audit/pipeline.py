@@ -497,15 +497,14 @@ def _programme(ready: Prepared, flows: DesignFlows, computed: pd.DataFrame, hydr
     down_rim = np.where(down >= 0, rim[np.maximum(down, 0)], np.nan)
     condition = None if settings.condition is None else read_condition(settings.condition, findings=findings)
     areas = read_critical_areas(settings.critical_areas, crs=layers.crs, findings=findings)
-    status = computed["hydraulic_status"].to_numpy(dtype=object)  # categories: one Python string per distinct text
     return renewal_programme(
         pipes=hydraulics, flags=computed["flags"].array, severity=computed["severity"].to_numpy(dtype=object),
         q_design=flows.q_design, load_ratio=computed["load_ratio"].to_numpy(dtype=float),
         population_served=computed["population_served"].to_numpy(dtype=float), install_year=pipes["install_year"].to_numpy(dtype=float),
-        material=pipes["material"].to_numpy(dtype=object), up_depth_m=up_rim - ready.levels["up_invert"].to_numpy(dtype=float),
+        material=pipes["material"], up_depth_m=up_rim - ready.levels["up_invert"].to_numpy(dtype=float),
         down_depth_m=down_rim - ready.levels["down_invert"].to_numpy(dtype=float), upstream=up, downstream=down,
         node_flooding=grade.flood_state == FloodState.FLOODING, geometry=pipes.geometry.to_numpy(), pipe_ids=labels,
-        cleansing=cleansing_criterion(config.rules, flows), evaluated=np.isin(status, ("ok", "above_full_bore", "surcharged")),
+        cleansing=cleansing_criterion(config.rules, flows), evaluated=computed["hydraulic_status"].isin(("ok", "above_full_bore", "surcharged")).to_numpy(),
         settings=settings, condition=condition, critical_areas=areas, findings=findings, max_velocity=config.rules.max_velocity,
     )  # fmt: skip
 

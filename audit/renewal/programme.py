@@ -85,7 +85,7 @@ def finding_masks(findings: FindingLog, pipe_ids: NDArray[np.object_], codes: It
 
 def renewal_programme(
     *, pipes: PipeHydraulics, flags: NDArray[np.object_] | pd.Categorical, severity: NDArray[np.object_], q_design: Array, load_ratio: Array,
-    population_served: Array, install_year: Array, material: NDArray[np.object_], up_depth_m: Array, down_depth_m: Array,
+    population_served: Array, install_year: Array, material: NDArray[np.object_] | pd.Series, up_depth_m: Array, down_depth_m: Array,
     upstream: NDArray[np.intp], downstream: NDArray[np.intp], node_flooding: Mask, geometry: NDArray[np.object_],
     pipe_ids: NDArray[np.object_], cleansing: CleansingCriterion, evaluated: Mask, settings: RenewalSettings,
     condition: Condition | None, critical_areas: CriticalAreas | None, findings: FindingLog, max_velocity: float = np.inf,
@@ -98,7 +98,7 @@ def renewal_programme(
     flags : the rule flag codes of each pipe joined by ';' ("" for none), as text or labels; severity : its worst severity
     q_design : design flow [m^3/s]; load_ratio : design flow / full-bore capacity [-]
     population_served : persons upstream [-]; install_year : year laid (NaN unknown)
-    material : material as typed; up_depth_m, down_depth_m : rim minus invert at each end [m]
+    material : material as typed (text or a text column); up_depth_m, down_depth_m : rim minus invert at each end [m]
     upstream, downstream : node index at each end in the flow direction (-1 none)
     node_flooding : per node, True where the grade line floods it
     geometry : shapely lines in the working CRS [m]; pipe_ids : the pipes' ids (as findings name them)
@@ -123,9 +123,7 @@ def renewal_programme(
     structural, service = condition_grades(condition, pipe_ids, findings=findings)
     year = settings.assessment_year or datetime.now(UTC).year
     age = np.where(np.isfinite(install_year), np.maximum(year - np.asarray(install_year, dtype=float), 0.0), np.nan)
-    dated = np.flatnonzero(np.isfinite(age))  # a service life is needed only where the age is known
-    life = np.full(count, np.nan)
-    life[dated] = settings.service_life(np.asarray(material, dtype=object)[dated])
+    life = np.where(np.isfinite(age), settings.service_life(material), np.nan)  # one look-up per distinct material; needed where the age is known
     facts = PipeFacts(flag_sets, finding_masks(findings, pipe_ids, VERIFY_FINDINGS), np.asarray(q_design, dtype=float), np.asarray(evaluated, dtype=bool), floods_below, floods_above, age, life, structural, service)
     scores = _scores(facts, load_ratio=load_ratio, population=population_served, height=pipes.sections.height, depth=np.fmax(up_depth_m, down_depth_m),
                      geometry=geometry, areas=critical_areas, settings=settings)  # fmt: skip

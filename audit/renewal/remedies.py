@@ -504,10 +504,12 @@ def _with_tail(lead: _Words, facts: PipeFacts, *, old: Mask, worn: Mask, note: N
         return "; ".join(pieces)
 
     tail = _Words.spread(lead.code.size, [(tailed, keyed_words(key, words))])
-    pair, distinct = pd.factorize((lead.code + 1) * (len(tail.table) + 1) + tail.code + 1)  # one join per distinct pair
-    heads, tails = ["", *lead.table], ["", *tail.table]
-    joined = ["; ".join(piece for piece in (heads[int(both) // len(tails)], tails[int(both) % len(tails)]) if piece) for both in distinct]
-    return labels_from(pair, joined)
+    width = len(tail.table) + 1
+    pair, distinct = pd.factorize((lead.code + 1) * width + tail.code + 1)  # one join per distinct pair, in Arrow
+    heads = pa.array(["", *lead.table], pa.string()).take(pa.array(distinct // width))
+    tails = pa.array(["", *tail.table], pa.string()).take(pa.array(distinct % width))
+    both = pc.and_(pc.not_equal(heads, ""), pc.not_equal(tails, ""))
+    return labels_from(pair, pc.if_else(both, join(heads, "; ", tails), join(heads, tails)))
 
 
 def _capacity_words(pipes: PipeHydraulics, q_design: Array, size: Array, slope: Array, settings: RenewalSettings, *, too_fast: Mask) -> pa.Array:

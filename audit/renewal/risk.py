@@ -85,14 +85,15 @@ def combine(parts: Sequence[Array], weights: Sequence[float]) -> tuple[Array, ND
     ([3.0, 1.0, nan], [0, 1, -1])
     """
     # one small integer per pipe and part, score x 16 + (15 - part): the largest wins, and on a tie the earlier part
-    best = np.zeros(parts[0].shape, dtype=np.int16)
+    best = np.zeros(parts[0].shape)
     for place, (part, weight) in enumerate(zip(parts, weights, strict=True)):  # a loop per part, over all pipes
         if weight <= 0:
             continue
         weighted = part if weight == 1.0 else np.ceil(weight * part - 1e-9)  # the parts are whole scores already
-        np.maximum(best, np.nan_to_num(weighted * 16.0 + (15 - place), nan=0.0).astype(np.int16), out=best)
+        np.fmax(best, weighted * 16.0 + (15 - place), out=best)  # an unknown part (NaN) leaves the best as it is
     known = best > 0
-    return np.where(known, best // 16, np.nan), np.where(known, 15 - best % 16, -1).astype(np.intp)
+    whole = best.astype(np.int64)
+    return np.where(known, whole // 16, np.nan), np.where(known, 15 - whole % 16, -1).astype(np.intp)
 
 
 def hydraulic_part(load_ratio: Array, *, evaluated: Mask, floods_below: Mask, backwater: Mask, settings: RenewalSettings) -> tuple[Array, NDArray[np.intp]]:

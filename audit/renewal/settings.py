@@ -44,6 +44,7 @@ import pandas as pd
 from numpy.typing import ArrayLike, NDArray
 
 from audit.errors import ConfigProblems
+from audit.labels import as_labels
 from audit.units import FOOT_M, INCH_M, SI, US, UnitSystem
 
 Array = NDArray[np.float64]
@@ -177,12 +178,12 @@ class RenewalSettings:
     critical_areas: tuple[CriticalAreaSource, ...] = ()
     units: UnitSystem = SI
 
-    def service_life(self, material: ArrayLike) -> Array:
-        """Service life [years] of each pipe by its material as typed; ``other`` where unlisted."""
-        codes, distinct = pd.factorize(pd.Series(np.asarray(material, dtype=object), dtype=object), use_na_sentinel=True)
+    def service_life(self, material: ArrayLike | pd.Categorical | pd.Series) -> Array:
+        """Service life [years] of each pipe by its material as typed (text, or labels); ``other`` where unlisted."""
+        labels = as_labels(material if isinstance(material, pd.Categorical | pd.Series) else np.asarray(material, dtype=object))
         other = float(self.service_life_years.get("other", math.nan))
-        lives = np.array([float(self.service_life_years.get(str(name).strip().lower(), other)) for name in distinct] + [other])
-        return lives[codes]  # code -1 (missing) takes the last entry, "other"
+        lives = np.array([float(self.service_life_years.get(str(name).strip().lower(), other)) for name in labels.categories] + [other])
+        return lives[labels.codes]  # code -1 (missing) takes the last entry, "other"
 
 
 KEYS = ("sizes_mm", "sizes_in", "design_depth_ratio", "service_life_years", "assessment_year", "grade_limit", "costs_per_m",
