@@ -20,7 +20,7 @@ from tqdm import tqdm
 from audit.config import Config, load_config
 from audit.findings import FindingLog
 from audit.flows import DesignFlows, built_flows, flow_assumptions
-from audit.grade_line import BoundaryKind, FloodState, FullCause, GradeLine, Outfall, PipeRegime, grade_line, node_boundaries
+from audit.grade_line import BoundaryKind, FloodState, FullCause, GradeLine, Outfall, PipeRegime, grade_line, node_boundaries, turn_angles
 from audit.hydraulics import (
     GRAVITY,
     FlowState,
@@ -193,6 +193,7 @@ def _grade_line(ready: Prepared, flow: np.ndarray, hydraulics: PipeHydraulics, *
         up_invert=ready.levels["up_invert"].to_numpy(dtype=float), down_invert=ready.levels["down_invert"].to_numpy(dtype=float),
         node_rim=nodes["rim"].to_numpy(dtype=float), boundary=boundary, boundary_level=raw_level * _level_factor(config),
         evaluate=evaluate, settings=config.grade_line, uniform=uniform,
+        turn=turn_angles(network.upstream, network.downstream, flow, nodes["x"].to_numpy(dtype=float), nodes["y"].to_numpy(dtype=float)),
     )  # fmt: skip
     _report_breaks(network, grade.boundary_assumed, findings=findings)
     return grade
@@ -525,4 +526,4 @@ def _grade_line_settings(config: Config) -> dict[str, object]:
         return outfall.level if outfall.kind == BoundaryKind.FIXED else outfall.kind.label
 
     return {"outfall": boundary(settings.outfall), "outfalls": {name: boundary(entry) for name, entry in settings.outfalls.items()},
-            "manhole_loss": settings.manhole_loss, "freeboard_m": settings.freeboard_m, "profile_steps": settings.profile_steps}  # fmt: skip
+            "manhole_loss": settings.manhole_loss, "bend_loss": settings.bend_loss, "freeboard_m": settings.freeboard_m, "profile_steps": settings.profile_steps}  # fmt: skip

@@ -14,13 +14,15 @@ was assumed. Nothing is raised for bad data: pipes that cannot take part are ``n
 
 Modules: ``settings`` (``[grade_line]``, boundary kinds, per-node boundary arrays),
 ``critical`` (critical depth, Froude number, specific force, sequent depth for any section),
-``profile`` (friction slope, the direct step method), ``order`` (levels of the network from its
+``profile`` (friction slope, the direct step method), ``losses`` (the manhole loss by the
+turn the flow makes), ``order`` (levels of the network from its
 ends, cycles left out), ``sweep`` (the level-by-level sweep, manhole losses), ``flooding``
 (flood screening at the nodes). Method and sources: docs/methods.md.
 """
 
 from audit.grade_line.critical import critical_depth, froude_number, sequent_depth, specific_force
 from audit.grade_line.flooding import FloodState, flood_screen
+from audit.grade_line.losses import loss_coefficients, turn_angles
 from audit.grade_line.profile import direct_step, friction_slope, full_bore_slope
 from audit.grade_line.settings import (
     BOUNDARY_NAMES,
@@ -48,8 +50,10 @@ __all__ = [
     "froude_number",
     "full_bore_slope",
     "grade_line",
+    "loss_coefficients",
     "node_boundaries",
     "parse_grade_line",
     "sequent_depth",
     "specific_force",
+    "turn_angles",
 ]

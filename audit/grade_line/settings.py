@@ -9,7 +9,8 @@ converts them to metres when it builds the per-node ``boundary_level`` array
     [grade_line]
     outfall = "free"          # every outfall without its own entry: "free", "normal" or "fixed"
     outfall_level = 12.5      # only with outfall = "fixed" [level units]
-    manhole_loss = 0.15       # k in k v^2 / 2g [-]
+    manhole_loss = 0.15       # k in k v^2 / 2g where the flow goes straight through a node [-]
+    bend_loss = 1.0           # k where it turns through a right angle or more [-]
     freeboard_m = 0.0         # a node floods when its level reaches rim - freeboard [m]
     profile_steps = 16        # depth steps of the direct step method per pipe
 
@@ -66,12 +67,12 @@ class GradeLineSettings:
 
     ``outfall`` is the boundary of every outfall without an entry in ``outfalls`` (node id to
     boundary). Levels are raw numbers in the layer's level units, not metres.
-    ``manhole_loss`` [-] is k in the head loss :math:`k v^2 / 2g` at every node, with v the
-    velocity leaving it; 0.15 is a benched straight-through manhole or a gentle bend, the most
-    common in a register (0.1 to 0.2; a right-angle bend or a junction 0.4 to 1.0; from memory,
-    local design manuals give tables). Set it higher for a network of junctions and bends: with
-    one value for every node, 0.5 would raise the level above every fast outgoing pipe by half
-    its velocity head and drown the outlets of most steep pipes.
+    ``manhole_loss`` [-] is k in the head loss :math:`k v^2 / 2g` at a node the flow goes
+    straight through, with v the velocity leaving it (0.15: a benched straight-through manhole,
+    0.1 to 0.2); ``bend_loss`` [-] is k where the flow turns through a right angle or more (1.0),
+    and k is interpolated linearly in the turn between (:mod:`audit.grade_line.losses`; values
+    from memory, local design manuals give tables). ``bend_loss`` left out is the larger of 1.0
+    and ``manhole_loss``; set it equal to ``manhole_loss`` for one k at every node.
     ``freeboard_m`` [m]: a node floods when its level reaches its rim less this; 0 by default
     (flooding means the level reaches the cover). ``profile_steps``: depth steps of the direct
     step method in each pipe (16 keeps the upstream depth within 0.5 % of an accurate
@@ -81,11 +82,12 @@ class GradeLineSettings:
     outfall: Outfall = Outfall()
     outfalls: Mapping[str, Outfall] = field(default_factory=lambda: MappingProxyType({}))
     manhole_loss: float = 0.15
+    bend_loss: float = 1.0
     freeboard_m: float = 0.0
     profile_steps: int = 16
 
 
-KEYS = ("outfall", "outfall_level", "outfalls", "manhole_loss", "freeboard_m", "profile_steps")
+KEYS = ("outfall", "outfall_level", "outfalls", "manhole_loss", "bend_loss", "freeboard_m", "profile_steps")
 PROFILE_STEPS_RANGE = (4, 200)
 MANHOLE_LOSS_MAX = 10.0  # above this k is a typing error rather than a manhole; common practice, no source
 
@@ -130,6 +132,15 @@ def _outfalls(check: ConfigProblems, data: object) -> Mapping[str, Outfall]:
     return MappingProxyType({name: entry for name, entry in entries.items() if entry is not None})
 
 
+def _loss(check: ConfigProblems, table: dict[str, Any], key: str, default: float) -> float:
+    """A loss coefficient k from 0 to ``MANHOLE_LOSS_MAX``."""
+    value = check.number(table, key, "grade_line", default)
+    if not value <= MANHOLE_LOSS_MAX:
+        check.fail(f"grade_line.{key}", f"a loss coefficient from 0 to {MANHOLE_LOSS_MAX:g}", value)
+        return default
+    return value
+
+
 def _steps(check: ConfigProblems, table: dict[str, Any]) -> int:
     low, high = PROFILE_STEPS_RANGE
     value = table.get("profile_steps", GradeLineSettings.profile_steps)
@@ -143,10 +154,8 @@ def parse_grade_line(check: ConfigProblems, data: object) -> GradeLineSettings:
     """``[grade_line]`` as :class:`GradeLineSettings`; every problem goes to ``check``."""
     table = check.table(data, "grade_line", KEYS)
     defaults = GradeLineSettings()
-    loss = check.number(table, "manhole_loss", "grade_line", defaults.manhole_loss)
-    if not loss <= MANHOLE_LOSS_MAX:
-        check.fail("grade_line.manhole_loss", f"a loss coefficient from 0 to {MANHOLE_LOSS_MAX:g}", loss)
-        loss = defaults.manhole_loss
+    loss = _loss(check, table, "manhole_loss", defaults.manhole_loss)
+    bend = _loss(check, table, "bend_loss", max(defaults.bend_loss, loss))
     freeboard = check.number(table, "freeboard_m", "grade_line", defaults.freeboard_m)
     if not math.isfinite(freeboard):
         check.fail("grade_line.freeboard_m", "a finite number >= 0 [m]", freeboard)
@@ -155,6 +164,7 @@ def parse_grade_line(check: ConfigProblems, data: object) -> GradeLineSettings:
         outfall=_default_outfall(check, table),
         outfalls=_outfalls(check, table["outfalls"]) if "outfalls" in table else MappingProxyType({}),
         manhole_loss=loss,
+        bend_loss=bend,
         freeboard_m=freeboard,
         profile_steps=_steps(check, table),
     )

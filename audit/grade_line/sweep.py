@@ -8,7 +8,8 @@ from its outlet where its own capacity is exceeded). Then one Python turn per le
 network (:mod:`audit.grade_line.order`), lowest first:
 
 1. the nodes of the level get their water level: the highest level their outgoing pipes need,
-   a manhole loss :math:`k v^2/2g` added, raised to a fixed boundary level where one is given;
+   a manhole loss :math:`k v^2/2g` added (k by the turn the flow makes into each pipe,
+   :mod:`audit.grade_line.losses`), raised to a fixed boundary level where one is given;
    the level carried further up is capped at the rim (the water spills there);
 2. the pipes ending at those nodes: a pipe whose downstream depth :math:`y_d` (node level less
    its downstream invert) does not pass its *threshold* keeps its free state; the others, held
@@ -63,6 +64,7 @@ from numpy.typing import NDArray
 
 from audit.grade_line.critical import critical_depth, froude_number, sequent_depth
 from audit.grade_line.flooding import flood_screen, node_soffits
+from audit.grade_line.losses import loss_coefficients
 from audit.grade_line.order import SweepOrder, sweep_order
 from audit.grade_line.profile import direct_step, full_bore_slope
 from audit.grade_line.settings import BoundaryKind, GradeLineSettings
@@ -169,6 +171,7 @@ class _Pipes:
     level: Array  # free state: level needed at the upstream end [m]
     speed: Array  # free state: velocity at the upstream end [m/s]
     need: Array  # free state: level needed in the upstream node, manhole loss included [m]
+    loss: Array  # k of the manhole loss k v^2/2g at the upstream node [-]
     regime: NDArray[np.int8]  # free state regime (mild pipes: settled after the sweep)
     cause: NDArray[np.int8]
     values: Array  # the ``_PACKED`` quantities, one row each (the fields above are views of it)
@@ -178,7 +181,7 @@ class _Pipes:
 # what the sweep reads of a held-up pipe, one row per quantity and one column per pipe, so a
 # level gathers its pipes in one step
 _PACKED = ("up_invert", "down_invert", "height", "length", "slope", "flow", "normal", "sequent", "normal_speed", "full_slope", "full_area",
-           "level", "need")  # fmt: skip
+           "level", "need", "loss")  # fmt: skip
 _DRY, _OWN, _STEEP, _FLAT, _MILD = range(5)
 
 
@@ -219,7 +222,7 @@ def _velocity_head(speed: Array) -> Array:
 
 def _prepare(
     pipes: PipeHydraulics, state: FlowState, order: SweepOrder, *, flow: Array, rank: Index, upstream: Index, downstream: Index,
-    up_invert: Array, down_invert: Array, normal_out: Flags, settings: GradeLineSettings,
+    up_invert: Array, down_invert: Array, normal_out: Flags, loss: Array, settings: GradeLineSettings,
 ) -> _Pipes:  # fmt: skip
     """The swept pipes' hydraulics and free state, computed once for all of them."""
     sections = pipes.sections
@@ -246,7 +249,7 @@ def _prepare(
     packed["up_invert"][:], packed["down_invert"][:], packed["height"][:] = up_invert[p], down_invert[p], height
     packed["length"][:], packed["slope"][:], packed["flow"][:] = pipes.length[p], slope, q
     packed["normal"][:], packed["sequent"][:], packed["normal_speed"][:] = normal, sequent, speed
-    packed["full_slope"][:], packed["full_area"][:] = full_slope, full_area[p]
+    packed["full_slope"][:], packed["full_area"][:], packed["loss"][:] = full_slope, full_area[p], loss[p]
     dry, flat = q == 0, (q > 0) & (slope <= 0)
     group = np.where(dry, _DRY, np.where(own, _OWN, np.where(steep, _STEEP, np.where(flat, _FLAT, _MILD)))).astype(np.int8)
     table = _Pipes(
@@ -290,7 +293,7 @@ def _free_state(t: _Pipes, pipes: PipeHydraulics, settings: GradeLineSettings) -
         t.level[rows], t.speed[rows] = level, speed
         t.regime[rows] = np.where(filled, PipeRegime.PARTLY_PRESSURISED, PipeRegime.FREE_FALL)
         t.cause[rows] = np.where(filled, FullCause.OWN_CAPACITY, FullCause.NONE)
-    t.need[:] = t.level + settings.manhole_loss * _velocity_head(t.speed)
+    t.need[:] = t.level + t.loss * _velocity_head(t.speed)
 
 
 def _climb(t: _Pipes, rows: Index, pipes: PipeHydraulics, *, start: Array, run: Array, steps: int) -> tuple[Array, Array, Flags]:
@@ -323,7 +326,7 @@ def _held_up(
     quantities, one row each): the level at their upstream end, the level each needs in its
     upstream node, the regime, why it runs full and whether the supercritical flow is drowned
     (a jump)."""
-    up_invert, down_invert, height, length, slope, flow, _, _, _, full_slope, full_area, free_level, free_need = values
+    up_invert, down_invert, height, length, slope, flow, _, _, _, full_slope, full_area, free_level, free_need, loss = values
     dry, own = group == _DRY, group == _OWN
     depth = level_below - down_invert
     full = ~dry & (own | (depth >= height))
@@ -341,7 +344,7 @@ def _held_up(
     level = np.maximum(level, free_level)  # profiles do not cross: none lies below the free one (but for rounding)
     running_full = (regime == PipeRegime.PRESSURISED) | (regime == PipeRegime.PARTLY_PRESSURISED)
     cause = np.where(own, FullCause.OWN_CAPACITY, np.where(running_full, FullCause.BACKWATER, FullCause.NONE)).astype(np.int8)
-    need = np.maximum(level + settings.manhole_loss * _velocity_head(speed), free_need)
+    need = np.maximum(level + loss * _velocity_head(speed), free_need)
     return level, need, regime, cause, (group == _STEEP) & ~whole
 
 
@@ -355,7 +358,7 @@ def _free_surface(
     A steep pipe here is drowned: its S1 profile is stepped up toward the sequent depth, where
     the jump stands; if it gets there within the pipe the upstream end stays at normal depth.
     """
-    up_invert, _, height, length, slope, flow, normal, sequent, normal_speed, full_slope, full_area, _, _ = values
+    up_invert, _, height, length, slope, flow, normal, sequent, normal_speed, full_slope, full_area, _, _, _ = values
     flat, steep = group == _FLAT, group == _STEEP
     start = np.where(full, height, depth)
     run = np.where(full, length - fall, length)
@@ -415,6 +418,7 @@ def grade_line(
     evaluate: Flags,
     settings: GradeLineSettings,
     uniform: FlowState | None = None,
+    turn: Array | None = None,
 ) -> GradeLine:
     """The hydraulic grade line through the network at the design flows, and flood screening.
 
@@ -433,6 +437,9 @@ def grade_line(
     settings : ``[grade_line]``
     uniform : the uniform-flow state of these pipes at these flows (``normal_depth``), when the
         caller has it already; computed here otherwise
+    turn : per pipe, the turn [degrees] the flow makes into it at its upstream node
+        (:func:`~audit.grade_line.losses.turn_angles`), which sets k of its manhole loss
+        between ``manhole_loss`` and ``bend_loss``; None: ``manhole_loss`` at every node
 
     Returns
     -------
@@ -451,7 +458,8 @@ def grade_line(
     fixed = np.where((code == BoundaryKind.FIXED) & np.isfinite(boundary_level[order.nodes]), boundary_level[order.nodes], -np.inf)
     normal_out = (terminal & (code == BoundaryKind.NORMAL))[rank[downstream[order.pipes]]]
     t = _prepare(pipes, state, order, flow=q, rank=rank, upstream=upstream, downstream=downstream, up_invert=up_invert,
-                 down_invert=down_invert, normal_out=normal_out, settings=settings)  # fmt: skip
+                 down_invert=down_invert, normal_out=normal_out, settings=settings,
+                 loss=loss_coefficients(np.full(count, np.nan) if turn is None else turn, straight=settings.manhole_loss, right_angle=settings.bend_loss))  # fmt: skip
     need, carried, found = _sweep(t, order, pipes, settings, floor=fixed, rim=node_rim[order.nodes])
     return _assemble(t, order, pipes, found, count=count, node_count=node_count, need=need, carried=carried, fixed=fixed,
                      terminal=terminal, code=code, rim=node_rim, settings=settings)  # fmt: skip

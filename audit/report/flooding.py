@@ -60,8 +60,11 @@ def _settings_words(result: AuditResult) -> str:
     settings = result.settings.get("grade_line") or {}
     outfall = settings.get("outfall", "free")
     boundary = f"a fixed level {outfall:g}" if isinstance(outfall, float | int) else f"a {outfall} outfall"
-    return (f"The grade line starts at every outfall from {boundary} (unless set per outfall) and adds a loss of "
-            f"{settings.get('manhole_loss', 0.15):g} v\u00b2/2g at every manhole ([grade_line], docs/methods.md).")  # fmt: skip
+    straight = settings.get("manhole_loss", 0.15)
+    bend = settings.get("bend_loss", straight)
+    loss = (f"a loss of {straight:g} v\u00b2/2g at every manhole" if bend == straight else
+            f"a loss of k v\u00b2/2g at every manhole, k from {straight:g} where the flow goes straight through to {bend:g} where it turns a right angle")
+    return f"The grade line starts at every outfall from {boundary} (unless set per outfall) and adds {loss} ([grade_line], docs/methods.md)."  # fmt: skip
 
 
 def _section_start(flooding: pd.DataFrame, steps: Steps) -> str:

@@ -25,7 +25,7 @@ def test_an_empty_table_gives_the_defaults() -> None:
     assert settings == GradeLineSettings()
     assert settings.outfall == Outfall(BoundaryKind.FREE)
     assert math.isnan(settings.outfall.level)
-    assert (settings.manhole_loss, settings.freeboard_m, settings.profile_steps) == (0.15, 0.0, 16)
+    assert (settings.manhole_loss, settings.bend_loss, settings.freeboard_m, settings.profile_steps) == (0.15, 1.0, 0.0, 16)
 
 
 def test_every_key_is_read() -> None:
@@ -35,6 +35,7 @@ def test_every_key_is_read() -> None:
         outfall = "fixed"
         outfall_level = -1.25
         manhole_loss = 0.3
+        bend_loss = 0.75
         freeboard_m = 0.15
         profile_steps = 24
         [grade_line.outfalls]
@@ -50,7 +51,14 @@ def test_every_key_is_read() -> None:
         "OF2": Outfall(BoundaryKind.FREE),
         "OF 3": Outfall(BoundaryKind.FIXED, 4.0),
     }
-    assert (settings.manhole_loss, settings.freeboard_m, settings.profile_steps) == (0.3, 0.15, 24)
+    assert (settings.manhole_loss, settings.bend_loss, settings.freeboard_m, settings.profile_steps) == (0.3, 0.75, 0.15, 24)
+
+
+@pytest.mark.parametrize(("text", "bend"), [("manhole_loss = 0.3", 1.0), ("manhole_loss = 2.5", 2.5), ("manhole_loss = 0.3\nbend_loss = 0.3", 0.3)])
+def test_the_bend_loss_left_out_is_never_below_the_straight_one(text: str, bend: float) -> None:
+    settings, problems = parsed(f"[grade_line]\n{text}")
+    assert problems == []
+    assert settings.bend_loss == bend
 
 
 @pytest.mark.parametrize(
@@ -62,6 +70,9 @@ def test_every_key_is_read() -> None:
         ('outfall = "fixed"\noutfall_level = "high"', "grade_line.outfall_level"),
         ("manhole_loss = -0.1", "grade_line.manhole_loss"),
         ("manhole_loss = 25", "grade_line.manhole_loss"),
+        ("bend_loss = -1", "grade_line.bend_loss"),
+        ('bend_loss = "high"', "grade_line.bend_loss"),
+        ("bend_loss = 11", "grade_line.bend_loss"),
         ("freeboard_m = -1", "grade_line.freeboard_m"),
         ("freeboard_m = inf", "grade_line.freeboard_m"),
         ("profile_steps = 2", "grade_line.profile_steps"),

@@ -113,7 +113,7 @@ def test_printed_report_keeps_sections_off_the_foot_of_a_page(report: Path, tmp_
     reader = PdfReader(pdf)
     width, height = PAPERS[paper]
     assert all(abs(float(page.mediabox.width) - width) < 1 and abs(float(page.mediabox.height) - height) < 1 for page in reader.pages)
-    assert 3 <= len(reader.pages) <= 12  # the demo town: a map, three charts and a few tables
+    assert 3 <= len(reader.pages) <= 14  # the demo town: a map, three charts and a few tables (13 pages of Letter since the bends)
     titles = {"Caution", "Summary", "Network totals", "Map of the network by worst flag", "Water levels and flooding", "Flags: pipes and length",
               "Load ratio against depth ratio", "Velocity at design flow", "Top 20 renewal candidates", "Renewal programme", "Data findings",
               "Design flows at the outfalls", "Rules and run"}  # fmt: skip
