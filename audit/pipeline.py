@@ -343,6 +343,8 @@ def _grade_line_columns(grade: GradeLine, levels: pd.DataFrame) -> dict[str, obj
         "depth_down_m": grade.depth_down,
         "critical_depth_m": grade.critical_depth,
         "froude": grade.froude,
+        "turn_deg": grade.turn,
+        "manhole_loss_k": grade.loss_k,
         "flow_regime": as_labels(_REGIME_LABELS[grade.regime]),
         "full_cause": as_labels(_CAUSE_LABELS[grade.full_cause]),
     }

@@ -1,5 +1,6 @@
 """The audit finds every error planted in the invented demo town (sample_gis/ERRORS.md)."""
 
+import math
 from pathlib import Path
 
 import pytest
@@ -90,3 +91,32 @@ def test_the_town_is_a_combined_sewer_of_some_eight_thousand_people(demo: audit.
     assert 6_000 <= outfalls["population_served"].sum() <= 10_000  # the generator's plan, about 8,500 persons
     assert (outfalls["q_storm"] > outfalls["q_sanitary"]).all()  # a combined sewer is sized by the storm
     assert demo.settings["flows"]["kind"] == "combined"
+
+
+def test_the_manhole_loss_follows_the_turn_worked_out_from_the_manholes(demo: audit.result.AuditResult) -> None:
+    # the turn into each pipe, worked out here from the manhole points: the angle between the pipe in with the most
+    # design flow and the pipe out, each as the line from manhole to manhole; k = 0.15 + (1.0 - 0.15) min(turn, 90) / 90
+    where = {row.mh_ref: (row.geometry.x, row.geometry.y) for row in demo.manholes.itertuples()}
+    pipes = demo.pipes
+    mains: dict[str, tuple[float, int]] = {}
+    for place, (end, flow) in enumerate(zip(pipes["to_node_id"], pipes["q_design"], strict=True)):
+        if flow == flow and (end not in mains or flow > mains[end][0]):  # flow == flow: not NaN
+            mains[end] = (flow, place)
+    checked = bends = 0
+    for place, (start, end, k) in enumerate(zip(pipes["from_node_id"], pipes["to_node_id"], pipes["manhole_loss_k"], strict=True)):
+        if k != k or start not in mains:  # not evaluated, or a head of run
+            continue
+        main = mains[start][1]
+        before = (pipes["from_node_id"].iloc[main], pipes["to_node_id"].iloc[main])
+        if not all(node in where for node in (*before, start, end)):  # a junction without a manhole point
+            continue
+        a = (where[before[1]][0] - where[before[0]][0], where[before[1]][1] - where[before[0]][1])
+        b = (where[end][0] - where[start][0], where[end][1] - where[start][1])
+        cosine = (a[0] * b[0] + a[1] * b[1]) / (math.hypot(*a) * math.hypot(*b))
+        turn = math.degrees(math.acos(max(-1.0, min(1.0, cosine))))
+        assert pipes["turn_deg"].iloc[place] == pytest.approx(turn, abs=1e-6)
+        assert k == pytest.approx(0.15 + 0.85 * min(turn, 90.0) / 90.0, rel=1e-9)
+        checked += 1
+        bends += turn > 60.0
+    assert checked > 200
+    assert bends >= 5  # the town has bends and laterals as well as straight runs
