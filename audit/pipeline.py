@@ -20,7 +20,7 @@ from tqdm import tqdm
 from audit.config import Config, load_config
 from audit.findings import FindingLog
 from audit.flows import DesignFlows, built_flows, flow_assumptions
-from audit.grade_line import BoundaryKind, FloodState, FullCause, GradeLine, Outfall, PipeRegime, grade_line, node_boundaries, turn_angles
+from audit.grade_line import BoundaryKind, FloodState, FullCause, GradeLine, Outfall, PipeRegime, grade_line, loss_coefficients, manhole_turns, node_boundaries
 from audit.hydraulics import (
     GRAVITY,
     FlowState,
@@ -135,11 +135,11 @@ def run(config: Config | str | Path, *, progress: bool = False) -> AuditResult:
         state = _gravity_only(uniform, judged=judged)
         cleansing = cleansing_state(ready.config.rules, state=state, flows=flows, pipes=hydraulics)
         _step(bar, 5)
-        grade = _grade_line(ready, flows.q_design, hydraulics, uniform=uniform, evaluate=judged & ~ready.network.left_out)
+        grade, turn = _grade_line(ready, flows.q_design, hydraulics, uniform=uniform, evaluate=judged & ~ready.network.left_out)
         state = replace(state, shear=_shear(state, grade, hydraulics))
         _step(bar, 6)
         computed = _computed_columns(ready, flows, state, height=height).assign(v_cleansing=cleansing.velocity, shear_cleansing=cleansing.shear)
-        computed = computed.assign(**_grade_line_columns(grade, ready.levels))
+        computed = computed.assign(**_grade_line_columns(grade, turn=turn))
         computed = _checked(ready, computed, _metrics(pipes, computed, state, flows, height=height, labels=labels, sections=hydraulics.sections, grade=grade))
         _step(bar, 7)
         computed, schemes = _with_programme(ready, flows, computed, hydraulics, grade=grade, labels=labels)
@@ -170,8 +170,9 @@ def _with_programme(ready: Prepared, flows: DesignFlows, computed: pd.DataFrame,
     return computed.assign(**_programme_columns(programme)), programme.schemes
 
 
-def _grade_line(ready: Prepared, flow: np.ndarray, hydraulics: PipeHydraulics, *, uniform: FlowState, evaluate: np.ndarray) -> GradeLine:
-    """The hydraulic grade line at the design flows, with the outfalls' boundaries from ``[grade_line]``.
+def _grade_line(ready: Prepared, flow: np.ndarray, hydraulics: PipeHydraulics, *, uniform: FlowState, evaluate: np.ndarray) -> tuple[GradeLine, np.ndarray]:
+    """The hydraulic grade line at the design flows, with the outfalls' boundaries from ``[grade_line]``
+    and the manhole losses by the turn the flow makes (returned too: the turn [degrees] per pipe).
 
     Every outfall takes its boundary (the default, or its own entry by node id); a pump station's
     wet well is a free outfall for the gravity pipes that reach it. Anywhere else the grade line
@@ -188,15 +189,19 @@ def _grade_line(ready: Prepared, flow: np.ndarray, hydraulics: PipeHydraulics, *
     for name in unknown:  # a loop over the config's entries
         findings.add("config", f"grade_line.outfalls.{name}", "unusual_setting", f"grade_line.outfalls names node '{name}', which no pipe "
                      "reaches; its boundary is not used")  # fmt: skip
+    up_invert, down_invert = ready.levels["up_invert"].to_numpy(dtype=float), ready.levels["down_invert"].to_numpy(dtype=float)
+    turns = manhole_turns(network.upstream, network.downstream, flow, nodes["x"].to_numpy(dtype=float), nodes["y"].to_numpy(dtype=float),
+                          up_invert=up_invert, down_invert=down_invert, height=hydraulics.sections.height)  # fmt: skip
+    settings = config.grade_line
     grade = grade_line(
         hydraulics, flow=flow, upstream=network.upstream, downstream=network.downstream, node_count=len(nodes),
-        up_invert=ready.levels["up_invert"].to_numpy(dtype=float), down_invert=ready.levels["down_invert"].to_numpy(dtype=float),
+        up_invert=up_invert, down_invert=down_invert,
         node_rim=nodes["rim"].to_numpy(dtype=float), boundary=boundary, boundary_level=raw_level * _level_factor(config),
-        evaluate=evaluate, settings=config.grade_line, uniform=uniform,
-        turn=turn_angles(network.upstream, network.downstream, flow, nodes["x"].to_numpy(dtype=float), nodes["y"].to_numpy(dtype=float)),
+        evaluate=evaluate, settings=settings, uniform=uniform,
+        loss=loss_coefficients(turns, straight=settings.manhole_loss, right_angle=settings.bend_loss),
     )  # fmt: skip
     _report_breaks(network, grade.boundary_assumed, findings=findings)
-    return grade
+    return grade, turns.angle
 
 
 def _level_factor(config: Config) -> float:
@@ -334,8 +339,8 @@ _CAUSE_LABELS = np.array([cause.label for cause in FullCause], dtype=object)
 _FLOOD_LABELS = np.array([state.label for state in FloodState], dtype=object)
 
 
-def _grade_line_columns(grade: GradeLine, levels: pd.DataFrame) -> dict[str, object]:
-    """The grade line's pipe columns of ``PIPE_COLUMNS``."""
+def _grade_line_columns(grade: GradeLine, *, turn: np.ndarray) -> dict[str, object]:
+    """The grade line's pipe columns of ``PIPE_COLUMNS`` (the turn where the pipe was evaluated)."""
     return {
         "water_level_up_m": grade.level_up,
         "water_level_down_m": grade.level_down,
@@ -343,7 +348,7 @@ def _grade_line_columns(grade: GradeLine, levels: pd.DataFrame) -> dict[str, obj
         "depth_down_m": grade.depth_down,
         "critical_depth_m": grade.critical_depth,
         "froude": grade.froude,
-        "turn_deg": grade.turn,
+        "turn_deg": np.where(np.isfinite(grade.loss_k), turn, np.nan),
         "manhole_loss_k": grade.loss_k,
         "flow_regime": as_labels(_REGIME_LABELS[grade.regime]),
         "full_cause": as_labels(_CAUSE_LABELS[grade.full_cause]),

@@ -58,8 +58,10 @@ PIPE_COLUMNS: dict[str, str] = {
     "depth_down_m": "water_level_down_m - downstream invert [m]",
     "critical_depth_m": "critical depth at the design flow [m]",
     "froude": "Froude number at normal depth [-]: above 1 supercritical",
-    "turn_deg": "the turn the flow makes into the pipe at its upstream manhole, from the main pipe in [degrees]; empty for a head of run",
-    "manhole_loss_k": "k of the head loss k v^2/2g at its upstream manhole, by that turn ([grade_line] manhole_loss to bend_loss) [-]",
+    "turn_deg": "the turn the flow makes into the pipe at its upstream manhole, from the main pipe in [degrees]; empty where no "
+                "pipe brings water in, a direction is unknown, or the pipe is not evaluated",
+    "manhole_loss_k": "k of the head loss k v^2/2g at its upstream manhole [-]: [grade_line] manhole_loss straight on, rising with "
+                      "the turn to bend_loss at 90 degrees; bend_loss where the water starts from rest (head of run, a drop, turn unknown)",
     "flow_regime": "subcritical, supercritical, free_fall, partly_pressurised, pressurised, above_bank_full, dry or not_evaluated",
     "full_cause": "why the pipe runs full over some of its length: own_capacity, backwater (held up by the level below), "
                   "or none",

@@ -94,29 +94,48 @@ def test_the_town_is_a_combined_sewer_of_some_eight_thousand_people(demo: audit.
 
 
 def test_the_manhole_loss_follows_the_turn_worked_out_from_the_manholes(demo: audit.result.AuditResult) -> None:
-    # the turn into each pipe, worked out here from the manhole points: the angle between the pipe in with the most
-    # design flow and the pipe out, each as the line from manhole to manhole; k = 0.15 + (1.0 - 0.15) min(turn, 90) / 90
+    # worked out here from the manhole points and the pipes' columns: the main pipe into a manhole brings the most
+    # design flow (of equals, the one that turns most); the turn is the angle between it and the pipe out, each as the
+    # line from manhole to manhole; k = 0.15 + (1.0 - 0.15) min(turn, 90) / 90, or 1.0 where the water starts from rest:
+    # no pipe brings water in (a head of run), or the main pipe's invert stands above the crown of the pipe out (a drop)
     where = {row.mh_ref: (row.geometry.x, row.geometry.y) for row in demo.manholes.itertuples()}
-    pipes = demo.pipes
-    mains: dict[str, tuple[float, int]] = {}
-    for place, (end, flow) in enumerate(zip(pipes["to_node_id"], pipes["q_design"], strict=True)):
-        if flow == flow and (end not in mains or flow > mains[end][0]):  # flow == flow: not NaN
-            mains[end] = (flow, place)
-    checked = bends = 0
-    for place, (start, end, k) in enumerate(zip(pipes["from_node_id"], pipes["to_node_id"], pipes["manhole_loss_k"], strict=True)):
-        if k != k or start not in mains:  # not evaluated, or a head of run
+    rows = list(demo.pipes[["from_node_id", "to_node_id", "q_design", "up_invert_m", "down_invert_m", "height_m", "turn_deg", "manhole_loss_k"]].itertuples(index=False))
+
+    def direction(row: tuple) -> tuple[float, float]:
+        (x0, y0), (x1, y1) = where[row[0]], where[row[1]]
+        return x1 - x0, y1 - y0
+
+    checked = {"straight": 0, "turning": 0, "head": 0, "drop": 0}
+    for row in rows:
+        start, end, _, up_invert, _, height, turn, k = row
+        if k != k or start not in where or end not in where:  # not evaluated, or a junction without a manhole point
             continue
-        main = mains[start][1]
-        before = (pipes["from_node_id"].iloc[main], pipes["to_node_id"].iloc[main])
-        if not all(node in where for node in (*before, start, end)):  # a junction without a manhole point
+        arriving = [other for other in rows if other[1] == start and other[2] > 0]  # NaN > 0 is False
+        if not arriving:
+            assert k == pytest.approx(1.0)
+            assert turn != turn  # NaN: no turn
+            checked["head"] += 1
             continue
-        a = (where[before[1]][0] - where[before[0]][0], where[before[1]][1] - where[before[0]][1])
-        b = (where[end][0] - where[start][0], where[end][1] - where[start][1])
-        cosine = (a[0] * b[0] + a[1] * b[1]) / (math.hypot(*a) * math.hypot(*b))
-        turn = math.degrees(math.acos(max(-1.0, min(1.0, cosine))))
-        assert pipes["turn_deg"].iloc[place] == pytest.approx(turn, abs=1e-6)
-        assert k == pytest.approx(0.15 + 0.85 * min(turn, 90.0) / 90.0, rel=1e-9)
-        checked += 1
-        bends += turn > 60.0
-    assert checked > 200
-    assert bends >= 5  # the town has bends and laterals as well as straight runs
+        if not all(other[0] in where for other in arriving):
+            continue
+        out = direction(row)
+
+        def angle(other: tuple, out: tuple[float, float] = out) -> float:
+            a = direction(other)
+            cosine = (a[0] * out[0] + a[1] * out[1]) / (math.hypot(*a) * math.hypot(*out))
+            return math.degrees(math.acos(max(-1.0, min(1.0, cosine))))
+
+        most = max(other[2] for other in arriving)
+        main = max((other for other in arriving if other[2] == most), key=angle)
+        assert turn == pytest.approx(angle(main), abs=1e-6)
+        if main[4] > up_invert + height:
+            assert k == pytest.approx(1.0)
+            checked["drop"] += 1
+        else:
+            assert k == pytest.approx(0.15 + 0.85 * min(angle(main), 90.0) / 90.0, rel=1e-9)
+            checked["turning" if angle(main) > 60.0 else "straight"] += 1
+    # the town has straight runs, bends, heads of runs and at least one backdrop
+    assert checked["straight"] > 150, checked
+    assert checked["turning"] >= 5, checked
+    assert checked["head"] > 40, checked
+    assert checked["drop"] >= 1, checked

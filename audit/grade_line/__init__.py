@@ -22,7 +22,7 @@ ends, cycles left out), ``sweep`` (the level-by-level sweep, manhole losses), ``
 
 from audit.grade_line.critical import critical_depth, froude_number, sequent_depth, specific_force
 from audit.grade_line.flooding import FloodState, flood_screen
-from audit.grade_line.losses import loss_coefficients, turn_angles
+from audit.grade_line.losses import Turns, loss_coefficients, manhole_turns
 from audit.grade_line.profile import direct_step, friction_slope, full_bore_slope
 from audit.grade_line.settings import (
     BOUNDARY_NAMES,
@@ -43,6 +43,7 @@ __all__ = [
     "GradeLineSettings",
     "Outfall",
     "PipeRegime",
+    "Turns",
     "critical_depth",
     "direct_step",
     "flood_screen",
@@ -51,9 +52,9 @@ __all__ = [
     "full_bore_slope",
     "grade_line",
     "loss_coefficients",
+    "manhole_turns",
     "node_boundaries",
     "parse_grade_line",
     "sequent_depth",
     "specific_force",
-    "turn_angles",
 ]

@@ -69,10 +69,11 @@ class GradeLineSettings:
     boundary). Levels are raw numbers in the layer's level units, not metres.
     ``manhole_loss`` [-] is k in the head loss :math:`k v^2 / 2g` at a node the flow goes
     straight through, with v the velocity leaving it (0.15: a benched straight-through manhole,
-    0.1 to 0.2); ``bend_loss`` [-] is k where the flow turns through a right angle or more (1.0),
-    and k is interpolated linearly in the turn between (:mod:`audit.grade_line.losses`; values
-    from memory, local design manuals give tables). ``bend_loss`` left out is the larger of 1.0
-    and ``manhole_loss``; set it equal to ``manhole_loss`` for one k at every node.
+    0.1 to 0.2); ``bend_loss`` [-] is k where the flow turns through a right angle or more, and
+    where the water leaving starts from rest (a head of run, a drop into the chamber), 1.0; k is
+    interpolated linearly in the turn between (:mod:`audit.grade_line.losses`; values from
+    memory, local design manuals give tables). ``bend_loss`` is never below ``manhole_loss``;
+    left out it is the larger of 1.0 and ``manhole_loss``; equal to it, one k serves every node.
     ``freeboard_m`` [m]: a node floods when its level reaches its rim less this; 0 by default
     (flooding means the level reaches the cover). ``profile_steps``: depth steps of the direct
     step method in each pipe (16 keeps the upstream depth within 0.5 % of an accurate
@@ -156,6 +157,9 @@ def parse_grade_line(check: ConfigProblems, data: object) -> GradeLineSettings:
     defaults = GradeLineSettings()
     loss = _loss(check, table, "manhole_loss", defaults.manhole_loss)
     bend = _loss(check, table, "bend_loss", max(defaults.bend_loss, loss))
+    if bend < loss:
+        check.fail("grade_line.bend_loss", f"a loss coefficient no smaller than manhole_loss ({loss:g}) and at most {MANHOLE_LOSS_MAX:g}", bend)
+        bend = max(defaults.bend_loss, loss)
     freeboard = check.number(table, "freeboard_m", "grade_line", defaults.freeboard_m)
     if not math.isfinite(freeboard):
         check.fail("grade_line.freeboard_m", "a finite number >= 0 [m]", freeboard)

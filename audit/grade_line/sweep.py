@@ -64,7 +64,6 @@ from numpy.typing import NDArray
 
 from audit.grade_line.critical import critical_depth, froude_number, sequent_depth
 from audit.grade_line.flooding import flood_screen, node_soffits
-from audit.grade_line.losses import loss_coefficients
 from audit.grade_line.order import SweepOrder, sweep_order
 from audit.grade_line.profile import direct_step, full_bore_slope
 from audit.grade_line.settings import BoundaryKind, GradeLineSettings
@@ -116,8 +115,8 @@ class GradeLine:
     :class:`PipeRegime`, the :class:`FullCause`, a hydraulic-jump mask, whether its outlet is
     free of the level in its downstream node (a free fall at critical or normal depth above it,
     supercritical flow below it that the level does not drown, or a pipe over its capacity full
-    at its outlet above it), the friction slope where the pipe runs full, the turn into it and
-    the k of its manhole loss (:mod:`audit.grade_line.losses`), and whether it was
+    at its outlet above it), the friction slope where the pipe runs full, the k of its manhole
+    loss (:mod:`audit.grade_line.losses`), and whether it was
     left out for lying on a directed cycle. Per node: the water level, the freeboard below the
     rim (negative above it), the flood depth above the rim, the
     :class:`~audit.grade_line.flooding.FloodState` and whether its boundary was assumed.
@@ -134,7 +133,6 @@ class GradeLine:
     jump: Flags  # the supercritical flow is drowned by the level below: a hydraulic jump
     free_outlet: Flags  # the outlet is not held at its node's level: the level below does not reach it
     full_friction_slope: Array  # friction slope where the pipe runs full [-]; NaN elsewhere
-    turn: Array  # the turn [degrees] the flow makes into the pipe at its upstream node; NaN: none known, or not evaluated
     loss_k: Array  # k of the manhole loss k v^2/2g at its upstream node [-]; NaN where not evaluated
     on_cycle: Flags  # left out: the pipe lies on a directed cycle of the evaluated pipes
     node_level: Array  # water level per node [m]
@@ -421,7 +419,7 @@ def grade_line(
     evaluate: Flags,
     settings: GradeLineSettings,
     uniform: FlowState | None = None,
-    turn: Array | None = None,
+    loss: Array | None = None,
 ) -> GradeLine:
     """The hydraulic grade line through the network at the design flows, and flood screening.
 
@@ -440,9 +438,9 @@ def grade_line(
     settings : ``[grade_line]``
     uniform : the uniform-flow state of these pipes at these flows (``normal_depth``), when the
         caller has it already; computed here otherwise
-    turn : per pipe, the turn [degrees] the flow makes into it at its upstream node
-        (:func:`~audit.grade_line.losses.turn_angles`), which sets k of its manhole loss
-        between ``manhole_loss`` and ``bend_loss``; None: ``manhole_loss`` at every node
+    loss : per pipe, k of the manhole loss k v^2/2g at its upstream node (by the turn the flow
+        makes there: :func:`~audit.grade_line.losses.loss_coefficients`); None: ``manhole_loss``
+        at every node
 
     Returns
     -------
@@ -460,13 +458,12 @@ def grade_line(
     code = boundary[order.nodes]
     fixed = np.where((code == BoundaryKind.FIXED) & np.isfinite(boundary_level[order.nodes]), boundary_level[order.nodes], -np.inf)
     normal_out = (terminal & (code == BoundaryKind.NORMAL))[rank[downstream[order.pipes]]]
-    turn = np.full(count, np.nan) if turn is None else np.asarray(turn, dtype=float)
     t = _prepare(pipes, state, order, flow=q, rank=rank, upstream=upstream, downstream=downstream, up_invert=up_invert,
                  down_invert=down_invert, normal_out=normal_out, settings=settings,
-                 loss=loss_coefficients(turn, straight=settings.manhole_loss, right_angle=settings.bend_loss))  # fmt: skip
+                 loss=np.full(count, settings.manhole_loss) if loss is None else np.asarray(loss, dtype=float))  # fmt: skip
     need, carried, found = _sweep(t, order, pipes, settings, floor=fixed, rim=node_rim[order.nodes])
     return _assemble(t, order, pipes, found, count=count, node_count=node_count, need=need, carried=carried, fixed=fixed,
-                     terminal=terminal, code=code, rim=node_rim, turn=turn, settings=settings)  # fmt: skip
+                     terminal=terminal, code=code, rim=node_rim, settings=settings)  # fmt: skip
 
 
 def _outlet_levels(t: _Pipes, found: _Found, below: Array) -> Array:
@@ -483,7 +480,7 @@ def _outlet_levels(t: _Pipes, found: _Found, below: Array) -> Array:
 
 def _assemble(
     t: _Pipes, order: SweepOrder, pipes: PipeHydraulics, found: _Found, *, count: int, node_count: int, need: Array, carried: Array,
-    fixed: Array, terminal: Flags, code: NDArray[np.int8], rim: Array, turn: Array, settings: GradeLineSettings,
+    fixed: Array, terminal: Flags, code: NDArray[np.int8], rim: Array, settings: GradeLineSettings,
 ) -> GradeLine:  # fmt: skip
     """Per-pipe and per-node results in input order."""
     below = carried[t.down]
@@ -516,6 +513,6 @@ def _assemble(
         depth_down=per_pipe(level_down - t.down_invert), critical_depth=per_pipe(t.critical), froude=per_pipe(t.froude),
         regime=per_pipe(regime, PipeRegime.NOT_EVALUATED), full_cause=per_pipe(np.where(full, cause, FullCause.NONE).astype(np.int8), FullCause.NONE),
         jump=per_pipe(found.jump, False), free_outlet=per_pipe(level_down != below, False), full_friction_slope=per_pipe(np.where(full, t.full_slope, np.nan)),
-        turn=per_pipe(turn[p]), loss_k=per_pipe(t.loss), on_cycle=order.on_cycle,
+        loss_k=per_pipe(t.loss), on_cycle=order.on_cycle,
         node_level=node_level, freeboard=freeboard, flood_depth=flood_depth, flood_state=state, boundary_assumed=assumed,
     )  # fmt: skip

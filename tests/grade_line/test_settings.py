@@ -73,6 +73,7 @@ def test_the_bend_loss_left_out_is_never_below_the_straight_one(text: str, bend:
         ("bend_loss = -1", "grade_line.bend_loss"),
         ('bend_loss = "high"', "grade_line.bend_loss"),
         ("bend_loss = 11", "grade_line.bend_loss"),
+        ("manhole_loss = 0.5\nbend_loss = 0.3", "grade_line.bend_loss"),
         ("freeboard_m = -1", "grade_line.freeboard_m"),
         ("freeboard_m = inf", "grade_line.freeboard_m"),
         ("profile_steps = 2", "grade_line.profile_steps"),
