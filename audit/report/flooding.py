@@ -63,7 +63,8 @@ def _settings_words(result: AuditResult) -> str:
     straight = settings.get("manhole_loss", 0.15)
     bend = settings.get("bend_loss", straight)
     loss = (f"a loss of {straight:g} v\u00b2/2g at every manhole" if bend == straight else
-            f"a loss of k v\u00b2/2g at every manhole, k from {straight:g} where the flow goes straight through to {bend:g} where it turns a right angle")
+            f"a loss of k v\u00b2/2g at every manhole, k from {straight:g} where the flow goes straight through to {bend:g} where it turns a "
+            "right angle or starts from rest (a head of run, a drop)")
     return f"The grade line starts at every outfall from {boundary} (unless set per outfall) and adds {loss} ([grade_line], docs/methods.md)."  # fmt: skip
 
 
