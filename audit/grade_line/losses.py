@@ -15,8 +15,10 @@ loss): at the head of a run or where no pipe brings water in, where the main pip
 the chamber (its invert at the node above the crown of the pipe leaving: a backdrop or a
 cascade), and where the turn is unknown (a node without coordinates, two nodes at one place).
 Laterals add no loss of their own (a choice of this tool: a lateral bringing a large share of
-the flow in at a right angle would add to it), nor do bends drawn inside a pipe (the chord from
-manhole to manhole is its direction).
+the flow in at a right angle would add to it), nor do bends drawn inside a pipe: its direction
+is the chord from manhole to manhole, since sewers are laid straight between manholes (common
+practice) and a chord is not thrown by a digitising kink beside a manhole (a choice of this
+tool; a sewer laid on a curve turns by more at its manhole than its chord shows).
 
 Values (from memory; local design manuals give tables): a benched straight-through manhole 0.1 to
 0.2, a 45 degree bend about 0.5, a right-angle bend 1.0 and more where the benching is poor.
@@ -65,6 +67,8 @@ def manhole_turns(upstream: Index, downstream: Index, flow: Array, x: Array, y: 
     ([nan, 90.0, nan], [True, False, True])
     """
     up, down = np.asarray(upstream, dtype=np.intp), np.asarray(downstream, dtype=np.intp)
+    flow, x, y = (np.asarray(values, dtype=float) for values in (flow, x, y))
+    up_invert, down_invert, height = (np.asarray(values, dtype=float) for values in (up_invert, down_invert, height))
     count = up.size
     placed = (up >= 0) & (down >= 0)
     dx = np.where(placed, x[np.maximum(down, 0)] - x[np.maximum(up, 0)], np.nan) if count else np.zeros(0)

@@ -101,3 +101,10 @@ def test_a_surcharged_chain_round_a_right_angle_bend_by_hand() -> None:
     )  # fmt: skip
     assert result.node_level[1] == pytest.approx(node_1, rel=1e-12)
     assert result.node_level[2] == pytest.approx(node_2, rel=1e-12)
+
+
+def test_plain_lists_are_taken() -> None:
+    turns = manhole_turns([1, 2], [0, 1], [0.2, 0.1], [0.0, 10.0, 10.0], [0.0, 0.0, 10.0], up_invert=[10.0, 10.0], down_invert=[10.0, 10.0],  # type: ignore[arg-type]
+                          height=[0.3, 0.3])  # fmt: skip
+    assert turns.angle[0] == pytest.approx(90.0)
+    assert turns.from_rest.tolist() == [False, True]
