@@ -20,7 +20,7 @@ from tqdm import tqdm
 from audit.config import Config, load_config
 from audit.findings import FindingLog
 from audit.flows import DesignFlows, built_flows, flow_assumptions
-from audit.grade_line import BoundaryKind, FloodState, FullCause, GradeLine, Outfall, PipeRegime, grade_line, loss_coefficients, manhole_turns, node_boundaries
+from audit.grade_line import BoundaryKind, FloodState, FullCause, GradeLine, Outfall, PipeRegime, grade_line, manhole_turns, node_boundaries
 from audit.hydraulics import (
     GRAVITY,
     FlowState,
@@ -192,13 +192,11 @@ def _grade_line(ready: Prepared, flow: np.ndarray, hydraulics: PipeHydraulics, *
     up_invert, down_invert = ready.levels["up_invert"].to_numpy(dtype=float), ready.levels["down_invert"].to_numpy(dtype=float)
     turns = manhole_turns(network.upstream, network.downstream, flow, nodes["x"].to_numpy(dtype=float), nodes["y"].to_numpy(dtype=float),
                           up_invert=up_invert, down_invert=down_invert, height=hydraulics.sections.height)  # fmt: skip
-    settings = config.grade_line
     grade = grade_line(
         hydraulics, flow=flow, upstream=network.upstream, downstream=network.downstream, node_count=len(nodes),
         up_invert=up_invert, down_invert=down_invert,
         node_rim=nodes["rim"].to_numpy(dtype=float), boundary=boundary, boundary_level=raw_level * _level_factor(config),
-        evaluate=evaluate, settings=settings, uniform=uniform,
-        loss=loss_coefficients(turns, straight=settings.manhole_loss, right_angle=settings.bend_loss),
+        evaluate=evaluate, settings=config.grade_line, uniform=uniform, turns=turns,
     )  # fmt: skip
     _report_breaks(network, grade.boundary_assumed, findings=findings)
     return grade, turns.angle

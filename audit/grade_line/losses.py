@@ -31,6 +31,8 @@ from dataclasses import dataclass
 import numpy as np
 from numpy.typing import NDArray
 
+from audit.grade_line.order import joined_ranges
+
 Array = NDArray[np.float64]
 Index = NDArray[np.intp]
 Flags = NDArray[np.bool_]
@@ -71,8 +73,8 @@ def manhole_turns(upstream: Index, downstream: Index, flow: Array, x: Array, y: 
     up_invert, down_invert, height = (np.asarray(values, dtype=float) for values in (up_invert, down_invert, height))
     count = up.size
     placed = (up >= 0) & (down >= 0)
-    dx = np.where(placed, x[np.maximum(down, 0)] - x[np.maximum(up, 0)], np.nan) if count else np.zeros(0)
-    dy = np.where(placed, y[np.maximum(down, 0)] - y[np.maximum(up, 0)], np.nan) if count else np.zeros(0)
+    dx = np.where(placed, x[np.maximum(down, 0)] - x[np.maximum(up, 0)], np.nan)
+    dy = np.where(placed, y[np.maximum(down, 0)] - y[np.maximum(up, 0)], np.nan)
     with np.errstate(invalid="ignore", divide="ignore"):
         reach = np.hypot(dx, dy)
         ux, uy = np.where(reach > 0, dx / reach, np.nan), np.where(reach > 0, dy / reach, np.nan)
@@ -84,10 +86,9 @@ def manhole_turns(upstream: Index, downstream: Index, flow: Array, x: Array, y: 
     starts, stops = first[up[leaving]], first[up[leaving] + 1]
     fed = stops > starts
     out_pipe, lengths = leaving[fed], (stops - starts)[fed]
-    ends = np.cumsum(lengths)
-    pair_in = wet[np.arange(int(ends[-1]) if ends.size else 0) + np.repeat(starts[fed] - ends + lengths, lengths)]
+    pair_in = wet[joined_ranges(starts[fed], stops[fed])]
     pair_out = np.repeat(out_pipe, lengths)
-    group = np.r_[0, ends[:-1]].astype(np.intp)  # the first pair of each pipe out
+    group = np.cumsum(lengths) - lengths  # the first pair of each pipe out
     cosine = np.clip(ux[pair_in] * ux[pair_out] + uy[pair_in] * uy[pair_out], -1.0, 1.0)
     pair_angle = np.degrees(np.arccos(cosine))  # NaN where a direction is unknown
     angle = np.full(count, np.nan)

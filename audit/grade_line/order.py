@@ -50,7 +50,7 @@ class SweepOrder:
         return int(self.node_bounds.size - 1)
 
 
-def _ranges(starts: Index, stops: Index) -> Index:
+def joined_ranges(starts: Index, stops: Index) -> Index:
     """``arange(start, stop)`` for every pair, joined, without a Python loop per pair."""
     lengths = stops - starts
     ends = np.cumsum(lengths)
@@ -73,7 +73,7 @@ def node_heights(upstream: Index, downstream: Index, node_count: int) -> NDArray
     level = 0
     while front.size:  # one turn per level of the network
         height[front] = level
-        arriving = by_downstream[_ranges(first[front], first[front + 1])]
+        arriving = by_downstream[joined_ranges(first[front], first[front + 1])]
         sources, counts = np.unique(upstream[arriving], return_counts=True)
         leaving[sources] -= counts
         front = sources[leaving[sources] == 0]

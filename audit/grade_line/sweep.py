@@ -64,6 +64,7 @@ from numpy.typing import NDArray
 
 from audit.grade_line.critical import critical_depth, froude_number, sequent_depth
 from audit.grade_line.flooding import flood_screen, node_soffits
+from audit.grade_line.losses import Turns, loss_coefficients
 from audit.grade_line.order import SweepOrder, sweep_order
 from audit.grade_line.profile import direct_step, full_bore_slope
 from audit.grade_line.settings import BoundaryKind, GradeLineSettings
@@ -419,7 +420,7 @@ def grade_line(
     evaluate: Flags,
     settings: GradeLineSettings,
     uniform: FlowState | None = None,
-    loss: Array | None = None,
+    turns: Turns | None = None,
 ) -> GradeLine:
     """The hydraulic grade line through the network at the design flows, and flood screening.
 
@@ -438,9 +439,10 @@ def grade_line(
     settings : ``[grade_line]``
     uniform : the uniform-flow state of these pipes at these flows (``normal_depth``), when the
         caller has it already; computed here otherwise
-    loss : per pipe, k of the manhole loss k v^2/2g at its upstream node (by the turn the flow
-        makes there: :func:`~audit.grade_line.losses.loss_coefficients`); None: ``manhole_loss``
-        at every node
+    turns : per pipe, the turn the flow makes into it at its upstream node and whether it starts
+        from rest there (:func:`~audit.grade_line.losses.manhole_turns`), which set k of its
+        manhole loss between ``manhole_loss`` and ``bend_loss``; None: ``manhole_loss`` at every
+        node
 
     Returns
     -------
@@ -460,7 +462,8 @@ def grade_line(
     normal_out = (terminal & (code == BoundaryKind.NORMAL))[rank[downstream[order.pipes]]]
     t = _prepare(pipes, state, order, flow=q, rank=rank, upstream=upstream, downstream=downstream, up_invert=up_invert,
                  down_invert=down_invert, normal_out=normal_out, settings=settings,
-                 loss=np.full(count, settings.manhole_loss) if loss is None else np.asarray(loss, dtype=float))  # fmt: skip
+                 loss=np.full(count, settings.manhole_loss) if turns is None else
+                 loss_coefficients(turns, straight=settings.manhole_loss, right_angle=settings.bend_loss))  # fmt: skip
     need, carried, found = _sweep(t, order, pipes, settings, floor=fixed, rim=node_rim[order.nodes])
     return _assemble(t, order, pipes, found, count=count, node_count=node_count, need=need, carried=carried, fixed=fixed,
                      terminal=terminal, code=code, rim=node_rim, settings=settings)  # fmt: skip

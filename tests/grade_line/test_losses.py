@@ -96,8 +96,7 @@ def test_a_surcharged_chain_round_a_right_angle_bend_by_hand() -> None:
         pipes, flow=flows, upstream=up, downstream=down, node_count=3, up_invert=down_invert + 0.002 * length, down_invert=down_invert,
         node_rim=np.full(3, 20.0), boundary=np.array([BoundaryKind.FIXED, -1, -1], dtype=np.int8), boundary_level=np.array([tail, np.nan, np.nan]),
         evaluate=np.ones(2, dtype=bool), settings=GradeLineSettings(manhole_loss=0.2, bend_loss=1.2),
-        loss=loss_coefficients(manhole_turns(up, down, flows, x, y, up_invert=down_invert + 0.002 * length, down_invert=down_invert,
-                                             height=np.full(2, diameter)), straight=0.2, right_angle=1.2),
+        turns=manhole_turns(up, down, flows, x, y, up_invert=down_invert + 0.002 * length, down_invert=down_invert, height=np.full(2, diameter)),
     )  # fmt: skip
     assert result.node_level[1] == pytest.approx(node_1, rel=1e-12)
     assert result.node_level[2] == pytest.approx(node_2, rel=1e-12)
